@@ -1,0 +1,1 @@
+"""One module per command; see :mod:`bouncelike.cli` for the protocol."""

@@ -1,0 +1,1 @@
+"""likelihood layer."""

@@ -1,0 +1,152 @@
+"""Pools of workers with an ordered ``map``: serial, local processes, or MPI ranks.
+
+Every parallel piece of the package (the duration-of-inflation distribution, posterior
+sampling) takes "any object with ``.map``" and never builds a pool deep inside. Results are
+returned in input order, and every task carries its own inputs (including any random draws made
+beforehand from one seeded generator), so a computation is bit-identical whatever the number of
+workers.
+
+Under ``mpiexec`` (detected from the environment, mpi4py installed as the ``mpi`` extra) the
+pool is a master/worker pool over MPI ranks: rank 0 runs the program and hands out chunks of each
+``map``; the other ranks serve until the master closes the pool and then exit.
+"""
+
+from __future__ import annotations
+
+import multiprocessing as mp
+import os
+import sys
+from collections.abc import Callable, Iterable
+from typing import Any
+
+
+def running_under_mpi() -> bool:
+    """True when the process was started by an MPI launcher with more than one rank."""
+    for var in ("OMPI_COMM_WORLD_SIZE", "PMI_SIZE", "MPI_LOCALNRANKS"):
+        if os.environ.get(var, "1") not in ("", "1", "0"):
+            return True
+    return "PMI_RANK" in os.environ and os.environ.get("PMI_SIZE", "1") != "1"
+
+
+class SerialPool:
+    """The trivial pool: runs tasks one after another in this process."""
+
+    workers = 1
+
+    def map(self, func: Callable[[Any], Any], tasks: Iterable[Any]) -> list[Any]:
+        return [func(t) for t in tasks]
+
+    def is_master(self) -> bool:
+        return True
+
+    def close(self) -> None:
+        pass
+
+    def __enter__(self) -> SerialPool:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+
+class ProcessPool(SerialPool):
+    """Local worker processes (``fork`` where available so compiled code is inherited)."""
+
+    def __init__(self, workers: int):
+        self.workers = int(workers)
+        method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
+        self._pool = mp.get_context(method).Pool(self.workers)
+
+    def map(self, func: Callable[[Any], Any], tasks: Iterable[Any]) -> list[Any]:
+        tasks = list(tasks)
+        chunk = max(1, len(tasks) // (4 * self.workers))
+        return self._pool.map(func, tasks, chunksize=chunk)
+
+    def close(self) -> None:
+        self._pool.close()
+        self._pool.join()
+
+
+class MPIPool(SerialPool):
+    """Master/worker pool over MPI ranks; the master computes a share too."""
+
+    _TAG_TASK, _TAG_RESULT, _TAG_STOP = 11, 12, 13
+
+    def __init__(self) -> None:
+        from mpi4py import MPI
+
+        self.comm = MPI.COMM_WORLD
+        self.rank = self.comm.Get_rank()
+        self.workers = self.comm.Get_size()
+
+    def is_master(self) -> bool:
+        return self.rank == 0
+
+    def wait(self) -> None:
+        """Worker loop: serve chunks until the master stops the pool."""
+        status = None
+        from mpi4py import MPI
+
+        status = MPI.Status()
+        while True:
+            msg = self.comm.recv(source=0, tag=MPI.ANY_TAG, status=status)
+            if status.Get_tag() == self._TAG_STOP:
+                return
+            func, indexed = msg
+            self.comm.send([(i, func(t)) for i, t in indexed], dest=0, tag=self._TAG_RESULT)
+
+    def map(self, func: Callable[[Any], Any], tasks: Iterable[Any]) -> list[Any]:
+        tasks = list(tasks)
+        n = self.workers
+        shares = [[(i, t) for i, t in enumerate(tasks) if i % n == r] for r in range(n)]
+        for r in range(1, n):
+            self.comm.send((func, shares[r]), dest=r, tag=self._TAG_TASK)
+        results: list[Any] = [None] * len(tasks)
+        for i, t in shares[0]:
+            results[i] = func(t)
+        for r in range(1, n):
+            for i, value in self.comm.recv(source=r, tag=self._TAG_RESULT):
+                results[i] = value
+        return results
+
+    def close(self) -> None:
+        if self.is_master():
+            for r in range(1, self.workers):
+                self.comm.send(None, dest=r, tag=self._TAG_STOP)
+
+
+def make_pool(workers: int | None = 1, use_mpi: bool | None = None) -> SerialPool:
+    """Build the pool a command asked for.
+
+    Parameters
+    ----------
+    workers : int or None
+        Local worker processes; 1 means serial, None means all cores.
+    use_mpi : bool or None
+        None: use MPI when started under an MPI launcher with several ranks.
+
+    Under MPI the worker ranks enter their service loop here and leave the program when the
+    master closes the pool, so code after ``make_pool`` runs on rank 0 only.
+    """
+    if use_mpi is None:
+        use_mpi = running_under_mpi()
+    if use_mpi:
+        try:
+            pool = MPIPool()
+        except ImportError as exc:  # pragma: no cover - depends on the environment
+            from .errors import InputError
+
+            raise InputError(
+                "started under an MPI launcher but mpi4py is not installed "
+                "(pip install 'bouncelike[mpi]')"
+            ) from exc
+        if pool.workers > 1:
+            if not pool.is_master():
+                pool.wait()
+                sys.exit(0)
+            return pool
+    if workers is None:
+        workers = os.cpu_count() or 1
+    if workers <= 1:
+        return SerialPool()
+    return ProcessPool(workers)
