@@ -1,0 +1,42 @@
+"""Registry of effective background dynamics, selected by name in ``[background] dynamics``.
+
+A dynamics is a small immutable object with
+
+* ``NAME``: its registry name;
+* ``CONFIG_KEYS``: the keys allowed in its own sub-table ``[background.<NAME>]``;
+* ``from_config(table, critical_density)`` (classmethod): build it from that sub-table
+  (:class:`bouncelike.config.Table`) and the critical density set in ``[background]``;
+* ``evolve(potential, initial, settings) -> BackgroundTrajectory``: evolve one initial datum
+  (:mod:`bouncelike.background.initial`), never raising for a physical outcome (no inflation,
+  e-fold cap): those are statuses of the result.
+* ``describe() -> dict``: parameters and conventions for reports (including how a
+  :class:`~bouncelike.background.initial.ContractingStart` is interpreted by this dynamics).
+
+Modules are imported lazily so that ``bouncelike --help`` stays fast.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Any
+
+from ..errors import InputError
+
+#: name -> "module:Class" inside bouncelike.background
+DYNAMICS_REGISTRY: dict[str, str] = {
+    "isotropic": "isotropic:IsotropicDynamics",
+    "condensate": "condensate:CondensateDynamics",
+    "bianchi_i": "bianchi:BianchiIDynamics",
+    "asymmetric": "asymmetric:AsymmetricDynamics",
+}
+
+
+def dynamics_class(name: str) -> Any:
+    """The class registered under ``name``; an unknown name is an :class:`InputError`."""
+    if name not in DYNAMICS_REGISTRY:
+        raise InputError(
+            f"'background.dynamics' = '{name}' is not known; allowed: "
+            + ", ".join(sorted(DYNAMICS_REGISTRY))
+        )
+    module, cls = DYNAMICS_REGISTRY[name].split(":")
+    return getattr(importlib.import_module(f"{__package__}.{module}"), cls)

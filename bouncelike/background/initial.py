@@ -1,0 +1,71 @@
+"""Initial data and integration settings shared by every background dynamics.
+
+Three ways to start (Planck units, m_Pl = 1):
+
+* :class:`BounceStart` -- at the bounce (rho = rho_c, H = 0), by the fraction of the energy
+  density in the potential, x_V = V(phi_B)/rho_c, and the sign of phidot (the sign of phi_B is
+  chosen so that the field sits on the side of the potential it is thrown up; see the dynamics).
+* :class:`ContractingStart` -- in the contracting branch at a density rho_0 << rho_c with the
+  oscillation phase delta. For V = m^2 phi^2/2 the phase is the one of
+  x = sqrt(rho/rho_c) sin(delta), y = sqrt(rho/rho_c) cos(delta) with x = m phi/sqrt(2 rho_c),
+  y = phidot/sqrt(2 rho_c) (Linsefors & Barrau, Phys. Rev. D 87 (2013) 123509). For a general
+  potential the phase is the energy angle: sqrt(V) = sqrt(rho_0) sin(delta),
+  phidot/sqrt(2) = sqrt(rho_0) cos(delta), with phi on the branch sign(phi) = sign(sin(delta)).
+  ``log10_density_spread`` > 0 draws rho_0 log-uniformly over that many decades below
+  ``density`` (physics notes, section 2) when sampled by the distribution code.
+* :class:`ClassicalStart` -- general relativity without a bounce, from (phi, phidot), expanding.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+
+@dataclass(frozen=True)
+class BounceStart:
+    """Start at the bounce with V(phi_B)/rho_c = ``potential_fraction`` and sign(phidot)."""
+
+    potential_fraction: float
+    phidot_sign: int = 1
+
+
+@dataclass(frozen=True)
+class ContractingStart:
+    """Start in the contracting branch at density ``density`` with oscillation phase ``phase``."""
+
+    density: float
+    phase: float
+
+
+@dataclass(frozen=True)
+class ClassicalStart:
+    """Classical (no bounce) expanding start from phi and phidot."""
+
+    phi: float
+    phidot: float = 0.0
+
+
+InitialData = BounceStart | ContractingStart | ClassicalStart
+
+
+@dataclass(frozen=True)
+class IntegrationSettings:
+    """Numerical settings recorded with every result (provenance).
+
+    rtol, atol : tolerances of the adaptive integrator.
+    max_inflation_efolds : cap on inflationary e-folds; beyond it the run stops with status
+        ``"efold_cap"`` (plateau potentials can inflate almost without end).
+    max_time : cap on cosmic time after the start (Planck times); reaching it without the end of
+        inflation gives status ``"no_inflation"`` or ``"efold_cap"`` as appropriate.
+    dense_points : number of dense-output samples stored in the trajectory (0: only the
+        accepted integrator steps).
+    """
+
+    rtol: float = 1e-10
+    atol: float = 1e-13
+    max_inflation_efolds: float = 1.0e4
+    max_time: float = 1.0e12
+    dense_points: int = 2000
+
+    def as_dict(self) -> dict[str, float]:
+        return {k: getattr(self, k) for k in self.__dataclass_fields__}
