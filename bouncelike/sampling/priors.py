@@ -195,7 +195,7 @@ class Prior:
     def log_prior(self, theta: np.ndarray) -> float:
         """Joint log prior density of one point of the sampled parameters."""
         total = 0.0
-        for p, x in zip(self.sampled, theta):
+        for p, x in zip(self.sampled, theta, strict=False):
             if not (p.lower <= x <= p.upper):
                 return -math.inf
             if p.distribution == "uniform":
@@ -228,7 +228,7 @@ class Prior:
     def full_parameters(self, theta: np.ndarray) -> dict[str, float]:
         """Sampled values plus fixed values, as the parametric model expects them."""
         params = dict(self.fixed)
-        for p, x in zip(self.sampled, theta):
+        for p, x in zip(self.sampled, theta, strict=False):
             params[p.name] = float(x)
         return params
 
