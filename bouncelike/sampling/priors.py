@@ -48,7 +48,7 @@ from typing import Any
 
 import numpy as np
 
-from ..config import Table, read_toml
+from ..config import Table, read_toml, tomllib
 from ..errors import InputError
 
 ROLES = ("sampled", "fixed", "derived")
@@ -270,6 +270,24 @@ def load_prior(path: str | Path, model_parameters: tuple[str, ...] | None = None
     """
     path = Path(path)
     data = read_toml(path, "prior file")
+    return parse_prior(data, str(path), path.read_text(encoding="utf-8"), model_parameters,
+                       derived_parameters)
+
+
+def prior_from_text(text: str, source: str = "<text>", **kw: Any) -> Prior:
+    """A prior from the text of a prior file (as stored in a run's manifest)."""
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"prior file '{source}' is not valid TOML: {exc}") from None
+    return parse_prior(data, source, text, **kw)
+
+
+def parse_prior(data: dict[str, Any], source: str, text: str = "",
+                model_parameters: tuple[str, ...] | None = None,
+                derived_parameters: tuple[str, ...] | None = None) -> Prior:
+    """Validate the parsed contents of a prior file."""
+    path = source
     top = Table(data, "", ("prior", "parameters"))
     head = top.table("prior", ("model", "title", "description"), required=True)
     model = head.string("model")
@@ -304,8 +322,7 @@ def load_prior(path: str | Path, model_parameters: tuple[str, ...] | None = None
                 raise InputError(
                     f"'parameters.{p.name}.role' = 'derived' but model '{model}' derives only: "
                     f"{', '.join(derived_parameters) or 'nothing'}")
-    return Prior(model=model, title=title, parameters=params, source=str(path),
-                 text=path.read_text(encoding="utf-8"))
+    return Prior(model=model, title=title, parameters=params, source=str(path), text=text)
 
 
 def _parameter(t: Table, name: str) -> ParameterPrior:
