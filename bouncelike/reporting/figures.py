@@ -51,7 +51,10 @@ def triangle_figure(samples: np.ndarray, names: Sequence[str], labels: Sequence[
                     ranges: dict[str, tuple[float, float]], title: str) -> Any:
     """getdist triangle plot of equally weighted samples (an MCSamples built from arrays)."""
     _plt()
+    import getdist.chains
     from getdist import MCSamples, plots
+
+    getdist.chains.print_load_details = False
 
     rng = {k: [None if not np.isfinite(v[0]) else v[0], None if not np.isfinite(v[1]) else v[1]]
            for k, v in ranges.items()}
@@ -98,13 +101,16 @@ def _constraint_bands(ax: Any, kind: str, sets: Sequence[Any], k: np.ndarray) ->
         color = f"C{(i + 1) % 10}"
         style = "--" if s.is_forecast else "-"
         if kind == "scalar" and "ln_1e10_As" in terms and "n_s" in terms:
+            # ln P = ln A_s + (n_s - 1) x, errors combined as independent (no published
+            # correlation, see the set files): sigma^2 = sigma_lnA^2 + x^2 sigma_ns^2
             a, n = terms["ln_1e10_As"], terms["n_s"]
             x = np.log(k / s.pivot)
-            lo = np.exp(a.mean - a.sigma) * 1e-10 * np.exp((n.mean - n.sigma - 1) * x)
-            hi = np.exp(a.mean + a.sigma) * 1e-10 * np.exp((n.mean + n.sigma - 1) * x)
-            ax.plot(k, np.minimum(lo, hi), color=color, ls=style, lw=0.8)
-            ax.plot(k, np.maximum(lo, hi), color=color, ls=style, lw=0.8,
+            centre = a.mean + (n.mean - 1.0) * x
+            err = np.sqrt(a.sigma**2 + (x * n.sigma) ** 2)
+            ax.plot(k, np.exp(centre) * 1e-10, color=color, ls=style, lw=0.8,
                     label=f"{s.name} (68%)")
+            ax.fill_between(k, np.exp(centre - err) * 1e-10, np.exp(centre + err) * 1e-10,
+                            color=color, alpha=0.15, lw=0)
         if kind == "tensor" and "r" in terms and terms["r"].kind == "upper_limit":
             a_s = 2.1e-9  # scale for drawing the limit: P_T = r_lim A_s (A_s ~ 2.1e-9)
             ax.errorbar([s.pivot], [terms["r"].limit * a_s], yerr=[[terms["r"].limit * a_s *
