@@ -257,11 +257,13 @@ def run_sampler(posterior: Posterior, settings: SamplerSettings, folder: str | P
         tau_steps = list(ckpt.tau_steps)
         converged = _converged(steps, tau_hist, settings) if tau_hist else False
         limit = settings.max_steps if stop_after is None else min(settings.max_steps, stop_after)
-        bar = progress(total=settings.max_steps, desc=f"sampling {folder.name}",
+        bar = progress(total=settings.max_steps, desc=f"sampling {folder}",
                        enabled=show_progress)
         bar.update(steps)
+        wrote = False
         try:
             while steps < limit and not converged:
+                wrote = True
                 n = min(settings.checkpoint_every - steps % settings.checkpoint_every,
                         limit - steps)
                 c_new = np.empty((n, settings.walkers, ndim))
@@ -308,6 +310,9 @@ def run_sampler(posterior: Posterior, settings: SamplerSettings, folder: str | P
         if ckpt.steps == 0:
             raise InputError("'sampling.max_steps' must be > 0")
         result = _result(folder, ckpt, posterior, settings, converged, t0, cpool.evaluations)
+        if not wrote:  # nothing to add: refresh the manifest (e.g. a new [report] section)
+            _write(folder, ckpt, posterior, result, settings, manifest,
+                   final=converged or steps >= settings.max_steps)
         return result
 
 
