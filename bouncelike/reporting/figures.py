@@ -40,8 +40,12 @@ def citations_text(sets: Sequence[dict[str, Any]]) -> str:
 
 
 def save_with_caption(fig: Any, stem: Path, caption: str) -> list[Path]:
-    paths = [save_figure_atomic(fig, stem.with_suffix(".pdf")),
-             save_figure_atomic(fig, stem.with_suffix(".png"), dpi=130)]
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", DeprecationWarning)  # getdist's tick formatter
+        paths = [save_figure_atomic(fig, stem.with_suffix(".pdf")),
+                 save_figure_atomic(fig, stem.with_suffix(".png"), dpi=130)]
     paths.append(write_text_atomic(stem.with_suffix(".caption.txt"), caption.strip() + "\n"))
     _plt().close(fig)
     return paths
@@ -60,8 +64,14 @@ def triangle_figure(samples: np.ndarray, names: Sequence[str], labels: Sequence[
            for k, v in ranges.items()}
     mc = MCSamples(samples=np.asarray(samples), names=list(names), labels=list(labels),
                    ranges=rng, label=title, settings={"ignore_rows": 0})
-    g = plots.get_subplot_plotter(width_inch=2.2 * max(2, len(names)))
-    g.triangle_plot([mc], filled=True, title_limit=1)
+    import warnings
+
+    with warnings.catch_warnings():
+        # getdist's tick formatter uses matplotlib attributes deprecated in recent versions
+        warnings.simplefilter("ignore", DeprecationWarning)
+        g = plots.get_subplot_plotter(width_inch=2.2 * max(2, len(names)))
+        g.triangle_plot([mc], filled=True, title_limit=1)
+        g.fig.canvas.draw()
     return g.fig
 
 

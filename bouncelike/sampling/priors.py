@@ -341,8 +341,11 @@ def _parameter(t: Table, name: str) -> ParameterPrior:
                                  "(allowed: role, label, value)")
         return ParameterPrior(name=name, role=role, label=label, value=t.number("value"))
     dist = t.string("distribution", choices=DISTRIBUTIONS)
-    lower = t.number("min", -math.inf if dist == "gaussian" else _required(t, "min"))
-    upper = t.number("max", math.inf if dist == "gaussian" else _required(t, "max"))
+    if dist != "gaussian":
+        _required(t, "min")
+        _required(t, "max")
+    lower = t.number("min") if "min" in t else -math.inf
+    upper = t.number("max") if "max" in t else math.inf
     if not lower < upper:
         raise InputError(f"'{t.key('max')}' = {upper:g} must be larger than "
                          f"'{t.key('min')}' = {lower:g}")

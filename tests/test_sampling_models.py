@@ -1,0 +1,142 @@
+"""Posterior runs of parametric models against published constraint sets, and verdicts."""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+pytest.importorskip("bouncelike.likelihood.gaussian", reason="likelihood package not built")
+
+from bouncelike.cli import main  # noqa: E402
+from bouncelike.sampling import verdicts as V  # noqa: E402
+from bouncelike.sampling.parametric import parametric_model  # noqa: E402
+from bouncelike.sampling.priors import ParameterPrior, Prior  # noqa: E402
+
+PRIOR_PL = """
+[prior]
+model = "power_law"
+[parameters.ln_1e10_As]
+role = "sampled"
+distribution = "uniform"
+min = 2.8
+max = 3.3
+start = 3.05
+start_width = 0.02
+[parameters.n_s]
+role = "sampled"
+distribution = "uniform"
+min = 0.9
+max = 1.05
+start = 0.965
+start_width = 0.005
+[parameters.r]
+role = "fixed"
+value = 0.0
+[parameters.running]
+role = "fixed"
+value = 0.0
+[parameters.running_of_running]
+role = "fixed"
+value = 0.0
+"""
+
+
+def _write_run(tmp: Path, name: str, prior: str, sets: list[str], walkers: int, steps: int,
+               seed: int, extra: str = "") -> Path:
+    if "\n" in prior:  # prior file text, else the name of a shipped prior
+        (tmp / f"{name}_prior.toml").write_text(prior)
+        prior = f"{name}_prior.toml"
+    cfg = tmp / f"{name}.toml"
+    cfg.write_text(
+        f'[likelihood]\nsets = {json.dumps(sets)}\n\n[sampling]\nprior = "{prior}"\n'
+        f"walkers = {walkers}\nmax_steps = {steps}\nmin_steps = 300\ntau_multiple = 50\n"
+        f'tau_tolerance = 0.05\ncheckpoint_every = 200\nseed = {seed}\nchains_dir = "'
+        f'{tmp / "chains"}"\nprogress = false\n' + extra)
+    return cfg
+
+
+def test_power_law_posterior_reproduces_planck_2018(tmp_path, capsys):
+    # Planck 2018 VI (arXiv:1807.06209), TT,TE,EE+lowE+lensing, k_* = 0.05 Mpc^-1:
+    # ln(1e10 A_s) = 3.044 +- 0.014, n_s = 0.9649 +- 0.0042. The posterior of a power law
+    # scored against that set alone (flat priors) must return the inputs (the likelihood's
+    # own consistency) within 0.1 sigma.
+    cfg = _write_run(tmp_path, "pl", PRIOR_PL, ["planck2018_base"], 32, 6000, 7)
+    assert main(["sample", str(cfg), "--quiet", "--json"]) == 0
+    summary = json.loads(capsys.readouterr().out)
+    assert summary["status"] == "converged"
+    samples = pd.read_csv(Path(summary["run_folder"]) / "samples.csv")
+    for name, mean, sigma in (("ln_1e10_As", 3.044, 0.014), ("n_s", 0.9649, 0.0042)):
+        mc_error = samples[name].std() / math.sqrt(summary["effective_sample_size"][name])
+        assert mc_error < 0.04 * sigma
+        assert abs(samples[name].mean() - mean) < 0.1 * sigma, name
+        assert abs(samples[name].std() / sigma - 1.0) < 0.1
+
+
+@pytest.fixture(scope="module")
+def quadratic_report(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("quad")
+    cfg = _write_run(tmp, "quad", "quadratic_slow_roll", ["planck2018_base", "bk18"], 16, 1200,
+                     3, '\n[report]\ngrid = 8\nprior_draws = 100\nrescore_samples = 40\n'
+                     'band_samples = 40\nevidence_draws = 400\n')
+    assert main(["sample", str(cfg), "--quiet"]) == 0
+    run = tmp / "chains" / "quad"
+    return run
+
+
+def test_quadratic_slow_roll_excluded_by_bk18_and_planck(quadratic_report, capsys):
+    # Planck 2018 X (arXiv:1807.06211), Sec. 4 and Fig. 8: V ~ phi^2 is strongly disfavoured
+    # by Planck + BICEP/Keck, because r = 8/(N + 1/2) ~ 0.13-0.16 for N_* = 50-60
+    # (Encyclopaedia Inflationaris, arXiv:1303.3787) exceeds r_0.05 < 0.036 (BK18,
+    # arXiv:2110.00483), while its tilt is acceptable to Planck alone.
+    assert main(["report", str(quadratic_report), "--json"]) == 0
+    v = json.loads(capsys.readouterr().out)
+    assert v["best_fit"]["verdict"] == "excluded"
+    assert v["best_fit"]["excluded_at"] == pytest.approx(0.997)
+    by_set = {r["set"]: r for r in v["by_set"]}
+    assert by_set["bk18"]["best_fit_verdict"] == "excluded"
+    assert by_set["bk18"]["posterior_fraction_excluded_95"] == 1.0
+    assert by_set["planck2018_base"]["best_fit_verdict"] == "allowed"
+    assert by_set["forecast_ground_r"]["forecast"] is True
+    assert v["allowed_posterior_fraction"]["fraction_allowed"] == 0.0
+    r = {m["name"]: m for m in v["marginals"]}["r"]
+    assert r["lower95"] > 0.1
+    report = quadratic_report / "report"
+    for f in ("triangle.pdf", "triangle.png", "marginals.md", "marginals.tex", "verdicts.md",
+              "verdicts.json", "spectra.png", "exclusion_map.pdf", "efolds.png"):
+        assert (report / f).is_file(), f
+    caption = (report / "spectra.caption.txt").read_text()
+    assert "arXiv:1807.06209" in caption and "arXiv:2110.00483" in caption
+    assert "\\begin{tabular}" in (report / "marginals.tex").read_text()
+
+
+def test_slow_roll_formulas():
+    # Encyclopaedia Inflationaris (arXiv:1303.3787): quadratic n_s = 1 - 2/(N+1/2),
+    # r = 8/(N+1/2); Starobinsky n_s = 1 - 2/N, r = 12/N^2. Physics notes: A_s fixes
+    # m ~ 1.2-1.4e-6 m_Pl for N = 50-60.
+    q = parametric_model("slow_roll_quadratic")
+    d = q.derived({"N_star": 55.0, "ln_1e10_As": 3.044})
+    assert d["n_s"] == pytest.approx(1 - 2 / 55.5) and d["r"] == pytest.approx(8 / 55.5)
+    assert 1.2e-6 < d["mass"] < 1.4e-6
+    s = parametric_model("slow_roll_starobinsky").spectra({"N_star": 60.0, "ln_1e10_As": 3.0})
+    assert s.n_s == pytest.approx(1 - 2 / 60) and s.r == pytest.approx(12 / 3600)
+
+
+def test_savage_dickey_and_evidence_against_analytic():
+    # Analytic: Gaussian likelihood exp(-x^2/(2 s^2)) with a flat prior on [-L, L] (L >> s):
+    # Z = sqrt(2 pi) s / (2 L); the posterior is N(0, s), so the Savage-Dickey ratio at x0
+    # is N(x0; 0, s) * 2L.
+    s, half = 0.5, 10.0
+    prior = Prior("t", "t", (ParameterPrior("x", "sampled", "x", "uniform", -half, half),))
+    rng = np.random.default_rng(1)
+    x = rng.normal(0.0, s, 20000)
+    sd = V.savage_dickey(x, 0.3, prior.get("x").log_density, -half, half)
+    exact = math.exp(-0.5 * (0.3 / s) ** 2) / (math.sqrt(2 * math.pi) * s) * 2 * half
+    assert sd["B01"] == pytest.approx(exact, rel=0.05)
+    ev = V.log_evidence(lambda t: -0.5 * (t[0] / s) ** 2, prior, x[:, None], n=4000, seed=2)
+    assert ev["ln_Z"] == pytest.approx(math.log(math.sqrt(2 * math.pi) * s / (2 * half)),
+                                       abs=max(0.03, 4 * ev["ln_Z_error"]))
