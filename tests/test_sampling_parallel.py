@@ -12,7 +12,7 @@ import pytest
 from sampling_targets import SETTINGS, gaussian_posterior
 
 from bouncelike.parallel import ProcessPool
-from bouncelike.sampling.driver import run_sampler
+from bouncelike.sampling.driver import install_posterior, run_sampler
 
 ROOT = Path(__file__).resolve().parents[1]
 TESTS = Path(__file__).resolve().parent
@@ -32,11 +32,14 @@ def serial_run(tmp_path_factory):
     return folder
 
 
-def test_process_pool_equals_serial(serial_run, tmp_path):
+@pytest.mark.parametrize("installed", [False, True])
+def test_process_pool_equals_serial(serial_run, tmp_path, installed):
+    post = gaussian_posterior()
+    if installed:
+        install_posterior(post)  # workers inherit it at fork; tasks carry only the points
     pool = ProcessPool(2)
     try:
-        run_sampler(gaussian_posterior(), SETTINGS, tmp_path / "pool", pool=pool,
-                    show_progress=False)
+        run_sampler(post, SETTINGS, tmp_path / "pool", pool=pool, show_progress=False)
     finally:
         pool.close()
     _same_state(serial_run, tmp_path / "pool")
@@ -54,12 +57,13 @@ def test_mpi_run_equals_serial(serial_run, tmp_path):
     folder = tmp_path / "mpi"
     code = (f"import sys; sys.path[:0] = [{str(ROOT)!r}, {str(TESTS)!r}]\n"
             "from bouncelike.parallel import make_pool, MPIPool\n"
+            "from sampling_targets import SETTINGS, gaussian_posterior\n"
+            "from bouncelike.sampling.driver import install_posterior, run_sampler\n"
+            "post = gaussian_posterior()\n"
+            "install_posterior(post)\n"
             "pool = make_pool(1)\n"
             "assert isinstance(pool, MPIPool) and pool.workers == 2, type(pool)\n"
-            "from sampling_targets import SETTINGS, gaussian_posterior\n"
-            "from bouncelike.sampling.driver import run_sampler\n"
-            f"run_sampler(gaussian_posterior(), SETTINGS, {str(folder)!r}, pool=pool,\n"
-            "            show_progress=False)\n"
+            f"run_sampler(post, SETTINGS, {str(folder)!r}, pool=pool, show_progress=False)\n"
             "pool.close()\n")
     proc = subprocess.run([mpiexec, "-n", "2", sys.executable, "-c", code],
                           capture_output=True, text=True, timeout=120)

@@ -28,12 +28,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     from ..errors import InputError
     from ..parallel import make_pool
-    from ..sampling.driver import result_summary, run_sampler
+    from ..sampling.driver import install_posterior, result_summary, run_sampler
     from ..sampling.setup import build_run
 
     if args.workers is not None and args.workers < 1:
         raise InputError(f"'--workers' = {args.workers} is out of range; allowed: >= 1")
     setup = build_run(args.config, workers=args.workers, quiet=args.quiet, output=args.output)
+    install_posterior(setup.posterior)  # before the pool: workers inherit it
     pool = make_pool(setup.workers)
     try:
         result = run_sampler(setup.posterior, setup.settings, setup.folder, pool=pool,

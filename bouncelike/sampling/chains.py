@@ -30,7 +30,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError
-from ..io import json_safe, write_bytes_atomic, write_json_atomic, write_text_atomic
+from ..io import json_safe, write_bytes_atomic, write_json_atomic
 
 MANIFEST = "manifest.json"
 CHAIN = "chain.csv"
@@ -186,33 +186,22 @@ def has_checkpoint(folder: Path) -> bool:
 
 # -- tables -------------------------------------------------------------------------------
 
-def chain_table(coords: np.ndarray, log_prob: np.ndarray, blobs: np.ndarray,
-                names: tuple[str, ...], blob_names: tuple[str, ...], first_step: int = 0,
-                thin: int = 1) -> Any:
-    """The chain as a pandas DataFrame: one row per (step, walker)."""
-    import pandas as pd
-
-    coords = coords[::thin]
-    steps, walkers = coords.shape[:2]
-    step = np.repeat(first_step + thin * np.arange(steps), walkers)
-    cols: dict[str, Any] = {"step": step, "walker": np.tile(np.arange(walkers), steps)}
-    for i, n in enumerate(names):
-        cols[n] = coords[:, :, i].ravel()
-    b = blobs[::thin]
-    for i, n in enumerate(blob_names):
-        cols[n] = b[:, :, i].ravel()
-    cols["log_posterior"] = log_prob[::thin].ravel()
-    return pd.DataFrame(cols)
+def csv_header(names: tuple[str, ...], blob_names: tuple[str, ...]) -> str:
+    return ",".join(("step", "walker", *names, *blob_names, "log_posterior")) + "\n"
 
 
-def write_table(path: Path, frame: Any) -> None:
-    write_text_atomic(path, frame.to_csv(index=False, float_format="%.17g"))
-
-
-def read_table(path: Path) -> Any:
-    import pandas as pd
-
-    return pd.read_csv(path)
+def csv_rows(coords: np.ndarray, log_prob: np.ndarray, blobs: np.ndarray,
+             steps: np.ndarray) -> str:
+    """CSV rows of (steps, walkers, ...) arrays; floats as Python's shortest round-trip
+    repr, so ``pandas.read_csv`` recovers every value exactly."""
+    n_steps, walkers = coords.shape[:2]
+    if n_steps == 0:
+        return ""
+    values = np.concatenate([coords, blobs, log_prob[:, :, None]], axis=2)
+    values = values.reshape(n_steps * walkers, -1).tolist()
+    prefix = [f"{s},{w}," for s in np.asarray(steps).tolist() for w in range(walkers)]
+    return "".join(p + ",".join(map(repr, row)) + "\n" for p, row in zip(prefix, values,
+                                                                          strict=True))
 
 
 def write_manifest(folder: Path, manifest: dict[str, Any]) -> None:

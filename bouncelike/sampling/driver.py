@@ -38,6 +38,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError, NumericalFailure
+from ..io import write_text_atomic
 from ..progress import progress
 from . import chains
 from .priors import Prior
@@ -165,6 +166,25 @@ class RunResult:
     summary: dict[str, Any] = field(default_factory=dict)
 
 
+_INSTALLED: list[Posterior] = []
+
+
+def install_posterior(posterior: Posterior) -> None:
+    """Make ``posterior`` the process-wide target before worker processes or MPI ranks start.
+
+    Forked workers (and MPI ranks, which run the same program) then hold it already, and each
+    task sends only the point, not the pickled posterior: this is what makes a process pool
+    pay off for millisecond likelihoods. Call it before :func:`bouncelike.parallel.make_pool`.
+    """
+    _INSTALLED[:] = [posterior]
+
+
+def _installed_log_posterior(theta: np.ndarray) -> tuple[float, ...]:
+    if not _INSTALLED:
+        raise RuntimeError("install_posterior() must run before the worker pool is created")
+    return _INSTALLED[0](theta)
+
+
 class CountingPool:
     """Wraps a pool's ``map`` to count failure reasons of every evaluation (accepted or not)."""
 
@@ -190,9 +210,14 @@ class CountingPool:
         return results
 
 
+def _target(posterior: Posterior) -> Any:
+    """The function handed to the pool: the installed one when ``posterior`` is installed."""
+    return _installed_log_posterior if _INSTALLED and _INSTALLED[0] is posterior else posterior
+
+
 def _evaluate(pool: CountingPool, posterior: Posterior, points: np.ndarray
               ) -> tuple[np.ndarray, np.ndarray]:
-    results = pool.map(posterior, [np.array(p) for p in points])
+    results = pool.map(_target(posterior), [np.array(p) for p in points])
     lp = np.array([r[0] for r in results], dtype=float)
     blobs = np.array([r[1:] for r in results], dtype=float)
     return lp, blobs
@@ -243,7 +268,7 @@ def run_sampler(posterior: Posterior, settings: SamplerSettings, folder: str | P
                 codes[float(c)] = int(n)
                 texts[float(c)] = str(t)
         cpool = CountingPool(pool, posterior, codes, texts)
-        sampler = emcee.EnsembleSampler(settings.walkers, ndim, posterior, pool=cpool)
+        sampler = emcee.EnsembleSampler(settings.walkers, ndim, _target(posterior), pool=cpool)
         if ckpt is None:
             ckpt = _fresh_start(posterior, settings, cpool, sampler, fingerprint)
         state = emcee.State(ckpt.state_coords.copy(), log_prob=ckpt.state_log_prob.copy(),
@@ -260,6 +285,7 @@ def run_sampler(posterior: Posterior, settings: SamplerSettings, folder: str | P
         bar = progress(total=settings.max_steps, desc=f"sampling {folder}",
                        enabled=show_progress)
         bar.update(steps)
+        text = _ChainText(prior.sampled_names, posterior.blob_names)
         wrote = False
         try:
             while steps < limit and not converged:
@@ -304,7 +330,8 @@ def run_sampler(posterior: Posterior, settings: SamplerSettings, folder: str | P
                     fingerprint=fingerprint, finished=finished)
                 result = _result(folder, ckpt, posterior, settings, converged, t0,
                                  cpool.evaluations)
-                _write(folder, ckpt, posterior, result, settings, manifest, final=finished)
+                _write(folder, ckpt, posterior, result, settings, manifest, final=finished,
+                       text=text)
         finally:
             bar.close()
         if ckpt.steps == 0:
@@ -312,7 +339,7 @@ def run_sampler(posterior: Posterior, settings: SamplerSettings, folder: str | P
         result = _result(folder, ckpt, posterior, settings, converged, t0, cpool.evaluations)
         if not wrote:  # nothing to add: refresh the manifest (e.g. a new [report] section)
             _write(folder, ckpt, posterior, result, settings, manifest,
-                   final=converged or steps >= settings.max_steps)
+                   final=converged or steps >= settings.max_steps, text=text)
         return result
 
 
@@ -393,22 +420,40 @@ def result_summary(r: RunResult, s: SamplerSettings) -> dict[str, Any]:
     }
 
 
+class _ChainText:
+    """chain.csv text kept in memory: each checkpoint formats only its new rows."""
+
+    def __init__(self, names: tuple[str, ...], blob_names: tuple[str, ...]):
+        self.header = chains.csv_header(names, blob_names)
+        self.parts: list[str] = []
+        self.steps = 0
+
+    def update(self, ckpt: chains.Checkpoint) -> str:
+        n = ckpt.steps
+        if n > self.steps:
+            s = slice(self.steps, n)
+            self.parts.append(chains.csv_rows(ckpt.coords[s], ckpt.log_prob[s], ckpt.blobs[s],
+                                              np.arange(self.steps + 1, n + 1)))
+            self.steps = n
+        return self.header + "".join(self.parts)
+
+
 def _write(folder: Path, ckpt: chains.Checkpoint, posterior: Posterior, result: RunResult,
-           settings: SamplerSettings, manifest: dict[str, Any], final: bool) -> None:
+           settings: SamplerSettings, manifest: dict[str, Any], final: bool,
+           text: _ChainText) -> None:
     names, bnames = posterior.prior.sampled_names, posterior.blob_names
     ckpt.save(folder)
-    table = chains.chain_table(ckpt.coords, ckpt.log_prob, ckpt.blobs, names, bnames, 1)
-    chains.write_table(folder / chains.CHAIN, table)
+    write_text_atomic(folder / chains.CHAIN, text.update(ckpt))
     m = dict(manifest)
     m["sampled_parameters"] = list(names)
     m["blob_columns"] = list(bnames)
-    m["columns"] = list(table.columns)
+    m["columns"] = text.header.strip().split(",")
     m["run"] = result_summary(result, settings)
     if final:
-        b = result.burn_in
-        samples = chains.chain_table(ckpt.coords[b:], ckpt.log_prob[b:], ckpt.blobs[b:], names,
-                                     bnames, b + 1, result.thin)
-        chains.write_table(folder / chains.SAMPLES, samples)
+        b, t = result.burn_in, result.thin
+        steps = np.arange(b + 1, ckpt.steps + 1)[::t]
+        rows = chains.csv_rows(ckpt.coords[b::t], ckpt.log_prob[b::t], ckpt.blobs[b::t], steps)
+        write_text_atomic(folder / chains.SAMPLES, text.header + rows)
         m["samples_file"] = chains.SAMPLES
     m["chain_file"] = chains.CHAIN
     chains.write_manifest(folder, m)
