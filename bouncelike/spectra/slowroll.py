@@ -14,6 +14,10 @@ project's physics notes, section 6), with Ntilde = N_* + 1/2 for the quadratic p
 ``starobinsky`` V = V_0 (1 - exp(-sqrt(2/3) phi / M_Pl))^2 (leading order in 1/N_*)
                 n_s = 1 - 2/N_*,  r = 12/N_*^2,  epsilon_1 = 3/(4 N_*^2),  V_* = V_0
 
+For Starobinsky the leading order differs from first-order slow roll evaluated exactly on the
+potential by O(ln N / N^2) in n_s and by O(ln N / N) in r (r is about 13 % high at N_* = 55;
+checked in tests/test_spectra.py), irrelevant against current limits on r.
+
 The running follows from d ln k = -dN_* (k_* grows as N_* falls): dn_s/dln k = -dn_s/dN_*,
 giving -2/Ntilde^2 (quadratic) and -2/N_*^2 (Starobinsky); the running of running is
 -4/Ntilde^3 and -4/N_*^3. The tensor tilt follows the consistency relation n_t = -r/8.
