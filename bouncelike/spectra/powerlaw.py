@@ -250,7 +250,10 @@ def power_law_from_config(config: Table) -> PowerLawSpectra:
     r = table.number("r", 0.0, minimum=0.0)
     raw_nt = table.raw("n_t", "consistency")
     if isinstance(raw_nt, str):
-        table.string("n_t", choices=("consistency",))
+        if raw_nt != "consistency":
+            raise InputError(
+                f"'{table.key('n_t')}' must be a number or \"consistency\", got {raw_nt!r}"
+            )
         n_t = None
     else:
         n_t = table.number("n_t", what='a number or "consistency"')
