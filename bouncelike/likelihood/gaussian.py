@@ -269,7 +269,10 @@ class GaussianLikelihood:
         """-chi2/2 (up to a constant); -inf when the prediction is not finite.
 
         Fast path for :class:`PowerLawSpectra`: analytic re-expansion at each pivot and
-        precomputed means and inverse errors, no array work.
+        precomputed means and inverse errors, no array work. Other spectra go through
+        :func:`~bouncelike.spectra.summary.summarize`; the fit quality is not checked here (it is
+        reported by :meth:`score`), so a sampler over featured spectra should check it itself.
+        Raises :class:`~bouncelike.errors.NumericalFailure` when the spectra are not positive.
         """
         chi2 = self._chi2(self._values(spectra))
         if chi2 != chi2 or chi2 == math.inf:
