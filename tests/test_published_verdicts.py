@@ -2,7 +2,7 @@
 
 Planck 2018 X concludes that V = m^2 phi^2 / 2 is strongly disfavoured once B-mode data bound r,
 while the Starobinsky (R^2) model at N_* ~ 55 sits inside the allowed n_s - r region
-(its Sect. 4 and Fig. 8).
+(its Sect. 4 and the n_s - r figure there; section from memory).
 """
 
 import pytest
@@ -40,7 +40,8 @@ def test_quadratic_excluded_by_planck_bk15_at_its_own_pivot():
 @pytest.mark.parametrize("r_set", ["pr4_bk18", "bk18"])
 def test_starobinsky_n55_allowed(r_set):
     # Starobinsky at N = 55: n_s ~ 0.964, r ~ 0.004, allowed by Planck 2018 + BK18
-    # (Planck 2018 X, arXiv:1807.06211, Sect. 4; PR4+BK18: Tristram et al. PRD 105 (2022) 083524).
+    # (Planck 2018 X, arXiv:1807.06211, Sect. 4, from memory; PR4+BK18: Tristram et al.,
+    # PRD 105 (2022) 083524).
     model = slow_roll_spectra("starobinsky", 55, ln_1e10_As=3.044)
     score = GaussianLikelihood.from_names(["planck2018_base", r_set]).score(model)
     assert score.verdict == "allowed"

@@ -17,7 +17,7 @@ K = np.logspace(-4, 0, 57)
 
 def test_power_law_scalar_and_tensor_definition():
     # P_s = A_s (k/k_*)^(n_s - 1 + alpha/2 ln(k/k_*) + beta/6 ln^2(k/k_*)), P_t = r A_s (k/k_*)^n_t
-    # (definition used by Planck 2018 X, arXiv:1807.06211, eqs. 12-13).
+    # (definition used by Planck 2018 X, arXiv:1807.06211, Sect. 2; section from memory).
     p = PowerLawSpectra(3.044, 0.9649, running=-0.01, running_of_running=0.02, r=0.05, n_t=0.1)
     x = np.log(K / 0.05)
     a_s = math.exp(3.044) * 1e-10
@@ -28,7 +28,7 @@ def test_power_law_scalar_and_tensor_definition():
 
 
 def test_consistency_relation_default():
-    # single-field consistency relation n_t = -r/8 (e.g. Planck 2018 X, arXiv:1807.06211, Sect. 2)
+    # single-field consistency relation n_t = -r/8 (textbook slow roll; physics notes sec. 6)
     p = PowerLawSpectra(3.0, 0.96, r=0.08)
     assert p.tensor_tilt == pytest.approx(-0.01)
     ratio = p.tensor(K) / p.scalar(K)
@@ -121,7 +121,8 @@ def test_quadratic_slow_roll_formulas(n):
 
 
 def test_quadratic_n60_values():
-    # n_s ~ 0.967 and r ~ 0.13 at N = 60 (Planck 2018 X, arXiv:1807.06211, Sect. 4 / Fig. 8).
+    # n_s ~ 0.967 and r ~ 0.13 at N = 60 (project physics notes sec. 6; the same numbers follow
+    # from Encyclopaedia Inflationaris, arXiv:1303.3787).
     s = slow_roll_spectra("quadratic", 60, ln_1e10_As=3.044)
     assert s.n_s == pytest.approx(0.967, abs=1e-3)
     assert s.r == pytest.approx(0.13, abs=5e-3)
