@@ -163,3 +163,12 @@ def test_module_entry_point(tmp_path):
     good = subprocess.run([sys.executable, "-m", "bouncelike", "score", str(cfg), "--json"],
                           cwd=tmp_path, capture_output=True, text=True, env=env)
     assert good.returncode == 0 and json.loads(good.stdout)["verdict"] == "allowed"
+
+
+def test_constraints_user_file_and_unknown_name(tmp_path, capsys):
+    good = SET_FILE_MISSING_SIGMA.replace("mean = 0.96", "mean = 0.96\nsigma = 0.01")
+    (tmp_path / "mine.toml").write_text(good)
+    code, out, _ = _run(capsys, ["constraints", str(tmp_path / "mine.toml")])
+    assert code == 0 and "broken" in out and "0.96 +- 0.01" in out
+    code, out, err = _run(capsys, ["constraints", "planck2099"])
+    assert code == 2 and out == "" and len(err.strip().splitlines()) == 1
