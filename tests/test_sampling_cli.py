@@ -135,3 +135,43 @@ def test_shipped_priors_load():
         if prior.model in PARAMETRIC_MODELS:
             m = parametric_model(prior.model)
             load_prior(SHIPPED_PRIORS / f"{n}.toml", m.parameter_names, m.derived_names)
+
+
+EFOLD_PRIOR = """
+[prior]
+model = "bounce_dressed_metric"
+[parameters.N_inflation]
+role = "sampled"
+distribution = "efolds_from_phase"
+min = 60.0
+max = 250.0
+[parameters.N_inflation.phase]
+potential = "quadratic"
+mass = 1.21e-6
+n_samples = 60
+seed = 1
+"""
+
+
+def test_efolds_from_phase_prior(tmp_path):
+    from bouncelike.errors import InputError
+    from bouncelike.sampling.priors import load_prior
+
+    (tmp_path / "p.toml").write_text(EFOLD_PRIOR)
+    try:
+        import bouncelike.background.efolds  # noqa: F401
+    except ImportError:
+        with pytest.raises(InputError, match="efolds_from_phase"):
+            load_prior(tmp_path / "p.toml")
+        return
+    import numpy as np
+
+    p = load_prior(tmp_path / "p.toml").get("N_inflation")
+    # Linsefors & Barrau, Phys. Rev. D 87 (2013) 123509: for V = m^2 phi^2/2 with
+    # m = 1.21e-6 m_Pl a flat phase prior gives inflationary e-folds sharply peaked near
+    # 140-145 (physics notes, section 2).
+    assert 130 < np.median(p.kde_points) < 155
+    grid = np.linspace(60.0, 250.0, 3001)
+    dens = np.exp(p.log_density(grid))
+    assert np.trapezoid(dens, grid) == pytest.approx(1.0, abs=1e-3)  # normalised in [min, max]
+    assert 120 < grid[np.argmax(dens)] < 160

@@ -32,7 +32,8 @@ distribution obtained by evolving a flat prior on the oscillation phase of the c
 branch through the bounce (physics notes, section 2); it takes ``min``/``max`` and a
 ``[parameters.<name>.phase]`` sub-table handed to
 :func:`bouncelike.background.efolds.efolds_distribution` (``potential``, ``mass``,
-``dynamics``, ``n_samples``, ``seed``, ``critical_density``). Its density is a Gaussian kernel
+``dynamics``, ``critical_density``, ``density`` and ``density_decades`` of the contracting-branch
+surface where the phase is flat, ``n_samples``, ``seed``). Its density is a Gaussian kernel
 density estimate of the computed e-fold samples restricted to ``[min, max]``.
 
 Every problem raises :class:`~bouncelike.errors.InputError` with one line naming the key.
@@ -57,7 +58,8 @@ PARAMETER_KEYS = (
     "role", "distribution", "min", "max", "mean", "sigma", "value", "label",
     "start", "start_width", "nested_value", "phase",
 )
-PHASE_KEYS = ("potential", "mass", "dynamics", "critical_density", "n_samples", "seed")
+PHASE_KEYS = ("potential", "mass", "dynamics", "critical_density", "density",
+              "density_decades", "n_samples", "seed")
 
 #: Folder of the prior files shipped with the project (``priors/`` at the top of the tree).
 SHIPPED_PRIORS = Path(__file__).resolve().parents[2] / "priors"
@@ -415,22 +417,20 @@ def _efolds_from_phase(t: Table, lower: float, upper: float) -> dict[str, Any]:
     return {"kde_points": pts, "kde_bandwidth": h, "kde_norm": mass}
 
 
-def _compute_efolds(t: Table, dist_fn: Any) -> np.ndarray:  # pragma: no cover - needs lane
-    from ..background.dynamics import DYNAMICS_REGISTRY  # noqa: F401
-    from ..config import Table as _T
-
-    potential_mod = importlib.import_module("bouncelike.background.potentials")
+def _compute_efolds(t: Table, dist_fn: Any) -> np.ndarray:
+    """E-folds of inflation over a flat phase prior, by the background package."""
     setup_mod = importlib.import_module("bouncelike.background.setup")
-    config = _T({
-        "potential": {"name": t.string("potential", "quadratic"),
-                      "mass": t.positive("mass", 1.21e-6)},
-        "background": {"dynamics": t.string("dynamics", "isotropic"),
-                       **({"critical_density": t.positive("critical_density")}
-                          if "critical_density" in t else {})},
-    }, "", ("potential", "background"))
+    efolds_mod = importlib.import_module("bouncelike.background.efolds")
+    background: dict[str, Any] = {"dynamics": t.string("dynamics", "isotropic")}
+    if "critical_density" in t:
+        background["critical_density"] = t.positive("critical_density")
+    config = Table({"potential": {"name": t.string("potential", "quadratic"),
+                                  "mass": t.positive("mass", 1.21e-6)},
+                    "background": background}, "", ("potential", "background"))
     setup = setup_mod.background_from_config(config)
-    potential = potential_mod.potential_from_config(config)
-    result = dist_fn(setup.dynamics, potential, setup.initial,
-                     t.integer("n_samples", 400, minimum=10), t.integer("seed", 0, minimum=0),
-                     settings=setup.settings)
-    return np.asarray(result.samples, dtype=float)
+    phase = efolds_mod.PhasePrior(t.positive("density", 1e-16),
+                                  t.number("density_decades", 2.0, minimum=0.0, maximum=10.0))
+    result = dist_fn(setup.dynamics, setup.potential, phase,
+                     t.integer("n_samples", 200, minimum=10), t.integer("seed", 0, minimum=0),
+                     settings=setup.settings, convergence_samples=0)
+    return np.asarray(result.usable(), dtype=float)
