@@ -140,3 +140,28 @@ def test_savage_dickey_and_evidence_against_analytic():
     ev = V.log_evidence(lambda t: -0.5 * (t[0] / s) ** 2, prior, x[:, None], n=4000, seed=2)
     assert ev["ln_Z"] == pytest.approx(math.log(math.sqrt(2 * math.pi) * s / (2 * half)),
                                        abs=max(0.03, 4 * ev["ln_Z_error"]))
+
+
+def test_cli_resume_and_changed_configuration(tmp_path, capsys):
+    cfg = _write_run(tmp_path, "res", PRIOR_PL, ["planck2018_base"], 8, 300, 4)
+    cfg.write_text(cfg.read_text().replace("max_steps = 300", "max_steps = 200"))
+    assert main(["sample", str(cfg), "--quiet"]) == 0
+    run = tmp_path / "chains" / "res"
+    assert len(pd.read_csv(run / "chain.csv")) == 8 * 200
+    manifest = json.loads((run / "manifest.json").read_text())
+    assert manifest["seed"] == 4 and manifest["package_version"]
+    assert [s["name"] for s in manifest["constraint_sets"]] == ["planck2018_base"]
+    assert "arXiv" not in manifest["constraint_sets"][0]["arxiv"]  # bare id, cited in full
+    assert manifest["constraint_sets"][0]["citation"]
+    # same configuration, more steps: the run continues where it stopped
+    cfg.write_text(cfg.read_text().replace("max_steps = 200", "max_steps = 300"))
+    assert main(["sample", str(cfg), "--quiet", "--resume"]) == 0
+    # min_steps = 300: no convergence claim before, so the chain has exactly 300 steps
+    assert len(pd.read_csv(run / "chain.csv")) == 8 * 300
+    capsys.readouterr()
+    # a different seed is a different run: refused, nothing changed
+    before = (run / "chain.csv").read_bytes()
+    cfg.write_text(cfg.read_text().replace("seed = 4", "seed = 5"))
+    assert main(["sample", str(cfg), "--quiet", "--resume"]) == 2
+    assert "different configuration" in capsys.readouterr().err
+    assert (run / "chain.csv").read_bytes() == before
