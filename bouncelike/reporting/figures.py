@@ -63,7 +63,8 @@ def triangle_figure(samples: np.ndarray, names: Sequence[str], labels: Sequence[
     rng = {k: [None if not np.isfinite(v[0]) else v[0], None if not np.isfinite(v[1]) else v[1]]
            for k, v in ranges.items()}
     mc = MCSamples(samples=np.asarray(samples), names=list(names), labels=list(labels),
-                   ranges=rng, label=title, settings={"ignore_rows": 0})
+                   ranges=rng, label=title,
+                   settings={"ignore_rows": 0, "mult_bias_correction_order": 0})
     import warnings
 
     with warnings.catch_warnings():

@@ -93,8 +93,13 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
         out.append("")
         out.append("## Nested settings (Savage-Dickey density ratio)")
         for name, sd in v["savage_dickey"].items():
-            out.append(f"- {name} = {sd['value']:g}: B01 = {_num(sd['B01'], 3)} (ln B01 = "
-                       f"{_num(sd['ln_B01'], 3)}; > 0 favours the nested model)")
+            if sd.get("resolved", True) or "B01_upper_bound" not in sd:
+                out.append(f"- {name} = {sd['value']:g}: B01 = {_num(sd['B01'], 3)} (ln B01 = "
+                           f"{_num(sd['ln_B01'], 3)}; > 0 favours the nested model)")
+            else:
+                out.append(f"- {name} = {sd['value']:g}: B01 < {_num(sd['B01_upper_bound'], 3)}"
+                           " (the nested value lies beyond the posterior samples; the nested "
+                           "model is disfavoured at least this strongly)")
     ev = v.get("evidence")
     if ev:
         out.append("")

@@ -104,10 +104,18 @@ def savage_dickey(x: np.ndarray, value: float, prior_log_density: Callable[[np.n
             dens += float(kde(2 * edge - value)[0])
     prior_dens = float(np.exp(prior_log_density(np.array([value]))[0]))
     if not prior_dens > 0:
-        return {"value": value, "B01": math.nan, "ln_B01": math.nan}
+        return {"value": value, "B01": math.nan, "ln_B01": math.nan, "resolved": False}
+    # Far outside the samples the kernel estimate says nothing; one sample's kernel at one
+    # kernel width is the smallest density the samples resolve: quote a bound instead.
+    floor = math.exp(-0.5) / (x.size * width * math.sqrt(2 * math.pi))
+    if dens < floor:
+        b = floor / prior_dens
+        return {"value": value, "posterior_density": dens, "prior_density": prior_dens,
+                "B01": math.nan, "ln_B01": math.nan, "B01_upper_bound": b,
+                "ln_B01_upper_bound": math.log(b), "resolved": False}
     b = dens / prior_dens
     return {"value": value, "posterior_density": dens, "prior_density": prior_dens, "B01": b,
-            "ln_B01": math.log(b) if b > 0 else -math.inf}
+            "ln_B01": math.log(b) if b > 0 else -math.inf, "resolved": True}
 
 
 def log_evidence(log_likelihood: Callable[[np.ndarray], float], prior: Any,
