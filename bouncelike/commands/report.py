@@ -15,6 +15,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("run_dir", help="run folder written by 'bouncelike sample'")
     parser.add_argument("--json", action="store_true",
                         help="print the verdicts and marginal statistics as one JSON object")
+    parser.add_argument("--output", default=None,
+                        help="folder for the report files (default: RUN_DIR/report)")
     parser.add_argument("--quiet", action="store_true", help="print nothing but errors")
 
 
@@ -22,7 +24,7 @@ def run(args: argparse.Namespace) -> int:
     from ..reporting.report import compute_report, write_report
 
     data = compute_report(args.run_dir)
-    written = write_report(args.run_dir, data)
+    written = write_report(args.run_dir, data, output=args.output)
     v = data["verdicts"]
     if args.json:
         out = {k: v[k] for k in ("run_name", "model", "run_folder", "constraint_sets",

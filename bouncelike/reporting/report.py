@@ -239,10 +239,12 @@ def _figure_data(prior: Any, model: Any, likelihood: Any, frame: Any, x: np.ndar
             "map_labels": (pa.label, pb.label), "efold": efold}
 
 
-def write_report(folder: str | Path, data: dict[str, Any]) -> list[Path]:
-    """Write the report files computed by :func:`compute_report` into RUN/report/."""
+def write_report(folder: str | Path, data: dict[str, Any],
+                 output: str | Path | None = None) -> list[Path]:
+    """Write the report files computed by :func:`compute_report` into RUN/report/ (or
+    ``output``)."""
     folder = Path(folder)
-    out = folder / "report"
+    out = Path(output) if output is not None else folder / "report"
     v = data["verdicts"]
     prior = data["prior"]
     labels = prior.labels()

@@ -449,6 +449,8 @@ def _write(folder: Path, ckpt: chains.Checkpoint, posterior: Posterior, result: 
     m["blob_columns"] = list(bnames)
     m["columns"] = text.header.strip().split(",")
     m["run"] = result_summary(result, settings)
+    m["failure_codes"] = {str(int(c)): str(t) for c, t in zip(ckpt.failure_codes,
+                                                               ckpt.failure_texts, strict=True)}
     if final:
         b, t = result.burn_in, result.thin
         steps = np.arange(b + 1, ckpt.steps + 1)[::t]
