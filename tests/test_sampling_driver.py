@@ -181,3 +181,16 @@ def test_gaussian_prior_draws_match_scipy():
 
     np.testing.assert_allclose(lu.log_density(x[:3]), loguniform(1e-3, 1.0).logpdf(x[:3]))
     assert gaussian_prior().log_prior(np.array([30.0, 0.0])) == -np.inf
+
+
+def test_walkers_start_inside_the_support():
+    from bouncelike.sampling.priors import ParameterPrior, Prior
+
+    prior = Prior("t", "t", (
+        ParameterPrior("r", "sampled", "r", "uniform", 0.0, 0.3, start=0.0, start_width=0.01),
+        ParameterPrior("m", "sampled", "m", "log_uniform", 1e-7, 1e-5),
+        ParameterPrior("g", "sampled", "g", "gaussian", lower=-1.0, upper=1.0, mean=0.9,
+                       sigma=2.0)))
+    w = prior.initial_walkers(np.random.default_rng(0), 500)
+    assert np.all(np.isfinite([prior.log_prior(t) for t in w]))
+    assert np.unique(w[:, 0]).size == 500  # reflected at r = 0, not piled up on the edge

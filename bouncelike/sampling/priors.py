@@ -222,9 +222,13 @@ class Prior:
             width = p.start_width if p.start_width is not None else (
                 0.01 * (p.upper - p.lower) if math.isfinite(p.upper - p.lower) else 1e-3)
             x = p.start + width * rng.standard_normal(n)
-            # reflect into the support, then clip (keeps every walker strictly inside)
-            x = np.clip(x, p.lower, p.upper)
-            cols.append(x)
+            # reflect at the bounds (no two walkers piled up on an edge), then clip what a
+            # ball wider than the support still leaves outside
+            if math.isfinite(p.lower):
+                x = np.where(x < p.lower, 2 * p.lower - x, x)
+            if math.isfinite(p.upper):
+                x = np.where(x > p.upper, 2 * p.upper - x, x)
+            cols.append(np.clip(x, p.lower, p.upper))
         return np.column_stack(cols)
 
     def full_parameters(self, theta: np.ndarray) -> dict[str, float]:
