@@ -17,14 +17,21 @@ Run: python3 benchmarks/sampling_speed.py [--quick]
 
 from __future__ import annotations
 
-import argparse
-import shutil
-import sys
-import tempfile
-import time
-from pathlib import Path
+import os
 
-import numpy as np
+# one BLAS thread per process, so that the serial run and the 2 worker processes compare like
+# with like (2 workers x several BLAS threads oversubscribe 2 cores; common practice)
+for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
+
+import argparse  # noqa: E402
+import shutil  # noqa: E402
+import sys  # noqa: E402
+import tempfile  # noqa: E402
+import time  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+import numpy as np  # noqa: E402
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 

@@ -1,4 +1,10 @@
-"""``bouncelike sample CONFIG.toml``: run (or resume) a posterior run into chains/<run-name>/."""
+"""``bouncelike sample CONFIG.toml``: run (or resume) a posterior run into chains/<run-name>/.
+
+With ``--workers N`` (N > 1) the likelihood runs in N forked processes; give each one BLAS
+thread (``OMP_NUM_THREADS=1 OPENBLAS_NUM_THREADS=1``) so the workers do not oversubscribe the
+cores. Under ``mpiexec -n N`` the MPI ranks are the workers. The chain is the same whatever
+the number of workers.
+"""
 
 from __future__ import annotations
 
