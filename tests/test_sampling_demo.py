@@ -17,7 +17,7 @@ def test_demo_runs_end_to_end(tmp_path, capsys):
     assert summary["output"] == str(out)
     assert (out / "score.json").is_file()
     for name in ("starobinsky", "quadratic"):
-        report = out / name / "run" / "report"
+        report = out / "chains" / name / "report"
         for f in ("verdicts.md", "marginals.tex", "triangle.png", "spectra.pdf",
                   "exclusion_map.png", "efolds.caption.txt"):
             assert (report / f).is_file(), (name, f)

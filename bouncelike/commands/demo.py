@@ -18,7 +18,7 @@ HELP = "run a built-in scenario end to end (score, posterior runs, reports) and 
 
 SETS = ("planck2018_base", "bk18")
 RUNS = (
-    ("starobinsky", "starobinsky_slow_roll", 3, ["../quadratic/run"]),
+    ("starobinsky", "starobinsky_slow_roll", 3, ["chains/quadratic"]),
     ("quadratic", "quadratic_slow_roll", 4, []),
 )
 
@@ -87,12 +87,12 @@ def run(args: argparse.Namespace) -> int:
     summaries = {}
     for i, (name, prior_name, seed, compare) in enumerate(RUNS):
         prior_src = resolve_prior_path(prior_name)
-        config_path = out / name / "config.toml"
-        prior_copy = out / name / prior_src.name
+        config_path = out / f"{name}.toml"
+        prior_copy = out / "priors" / prior_src.name
         write_text_atomic(prior_copy, prior_src.read_text(encoding="utf-8"))
-        write_text_atomic(config_path, _config(Path(prior_src.name), seed, compare))
+        write_text_atomic(config_path, _config(Path("priors") / prior_src.name, seed, compare))
         setup = build_run(config_path, quiet=args.quiet or args.json,
-                          output=out / name / "run")
+                          output=out / "chains" / name)
         say(f"[2/3] posterior run {i + 1}/{len(RUNS)}: {setup.model.name} "
             f"({setup.settings.walkers} walkers) -> {setup.folder}")
         result = run_sampler(setup.posterior, setup.settings, setup.folder, resume=True,
@@ -106,7 +106,7 @@ def run(args: argparse.Namespace) -> int:
     # 3. reports (the quadratic run first: the plateau run compares itself with it)
     reports = {}
     for name, *_ in reversed(RUNS):
-        folder = out / name / "run"
+        folder = out / "chains" / name
         data = compute_report(folder)
         write_report(folder, data)
         v = data["verdicts"]
@@ -123,10 +123,11 @@ def run(args: argparse.Namespace) -> int:
     say(f"outputs in {out}/:")
     say("  score.json                 score of the scenario point")
     for name, *_ in RUNS:
-        say(f"  {name + '/config.toml':26s} configuration of the run (and its prior file)")
-        say(f"  {name + '/run/':26s} chain.csv (pandas.read_csv), samples.csv, manifest.json")
-        say(f"  {name + '/run/report/':26s} verdicts.md, marginals.md/.tex, triangle, spectra, "
-            "exclusion_map, efolds (.pdf/.png + .caption.txt)")
+        say(f"  {name + '.toml':26s} configuration of the run (prior file in priors/)")
+        say(f"  {'chains/' + name + '/':26s} chain.csv (pandas.read_csv), samples.csv, "
+            "manifest.json")
+        say(f"  {'chains/' + name + '/report/':26s} verdicts.md, marginals.md/.tex, triangle, "
+            "spectra, exclusion_map, efolds (.pdf/.png + .caption.txt)")
     if args.json:
         print(json.dumps(json_safe({"output": str(out), "score": score.as_dict(),
                                     "runs": summaries,

@@ -13,16 +13,30 @@ def _num(x: float, digits: int = 4) -> str:
     return f"{x:.{digits}g}"
 
 
+def _latex_scale(x: float) -> tuple[float, str]:
+    """Common power of ten for very small or large numbers: (10^e, r"\times 10^{e}")."""
+    if x is None or not math.isfinite(x) or x == 0:
+        return 1.0, ""
+    e = int(math.floor(math.log10(abs(x))))
+    if -3 <= e <= 4:
+        return 1.0, ""
+    return 10.0**e, f" \\times 10^{{{e}}}"
+
+
 def _cell(e: dict[str, Any], latex: bool) -> tuple[str, str]:
     if e["kind"] in ("upper_limit", "lower_limit"):
         op = ("<" if e["kind"] == "upper_limit" else ">")
-        text = f"{op} {_num(e['limit95'])}"
-        return (f"${text}$" if latex else text), "95% limit"
+        if latex:
+            scale, tail = _latex_scale(e["limit95"])
+            return f"${op} {_num(e['limit95'] / scale)}{tail}$", "95% limit"
+        return f"{op} {_num(e['limit95'])}", "95% limit"
     m = e["mean"]
     up, lo = e["upper68"] - m, m - e["lower68"]
     if latex:
-        return f"${_num(m)}^{{+{_num(up, 2)}}}_{{-{_num(lo, 2)}}}$", (
-            f"$[{_num(e['lower95'])}, {_num(e['upper95'])}]$")
+        scale, tail = _latex_scale(m)
+        return (f"${_num(m / scale)}^{{+{_num(up / scale, 2)}}}_{{-{_num(lo / scale, 2)}}}"
+                f"{tail}$", f"$[{_num(e['lower95'] / scale)}, {_num(e['upper95'] / scale)}]"
+                f"{tail}$")
     return f"{_num(m)} +{_num(up, 2)} -{_num(lo, 2)}", (
         f"[{_num(e['lower95'])}, {_num(e['upper95'])}]")
 
