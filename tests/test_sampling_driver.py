@@ -194,3 +194,24 @@ def test_walkers_start_inside_the_support():
     w = prior.initial_walkers(np.random.default_rng(0), 500)
     assert np.all(np.isfinite([prior.log_prior(t) for t in w]))
     assert np.unique(w[:, 0]).size == 500  # reflected at r = 0, not piled up on the edge
+
+
+def test_one_sided_upper_limit_against_getdist_and_analytic():
+    # A posterior piled against r = 0: half-normal with sigma 0.01. Its 95% upper limit is
+    # 1.95996 sigma (scipy.stats.halfnorm.ppf(0.95)); getdist (reference library) reports the
+    # same marginal as one-tailed and its own 95% limit.
+    from getdist import MCSamples
+    from scipy.stats import halfnorm
+
+    rng = np.random.default_rng(4)
+    r = np.abs(rng.normal(0.0, 0.01, 40000))
+    x = np.column_stack([r, rng.normal(size=r.size)])
+    (ours, other) = marginal_statistics(x, ["r", "y"], [0.0, -np.inf], [0.3, np.inf])
+    assert ours["kind"] == "upper_limit" and other["kind"] == "two_sided"
+    exact = halfnorm.ppf(0.95, scale=0.01)
+    assert abs(ours["limit95"] - exact) < 0.02 * exact
+    mc = MCSamples(samples=x, names=["r", "y"], ranges={"r": [0.0, 0.3]},
+                   settings={"ignore_rows": 0})
+    lim = mc.getMargeStats().parWithName("r").limits[1]
+    assert lim.onetail_upper and not lim.onetail_lower  # getdist: "an upper limit only"
+    assert abs(lim.upper - ours["limit95"]) < 0.03 * exact
