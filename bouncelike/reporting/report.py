@@ -155,6 +155,12 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
         if not (path / chains.MANIFEST).is_file():
             path = Path(other)
         other_v = compute_report_verdicts_only(path)
+        if sorted(other_v["constraint_sets"]) != sorted(verdict["constraint_sets"]):
+            raise InputError(
+                f"'report.compare': run '{other}' uses constraint sets "
+                f"{', '.join(other_v['constraint_sets'])}, this run "
+                f"{', '.join(verdict['constraint_sets'])}; chi-square and evidence compare only "
+                "on the same sets")
         comparisons.append(V.compare_evidence(verdict, other_v))
     verdict["comparisons"] = comparisons
     fig_data = _figure_data(prior, model, likelihood, frame, x, best_spectra, rs, rng,
