@@ -165,3 +165,32 @@ def test_cli_resume_and_changed_configuration(tmp_path, capsys):
     assert main(["sample", str(cfg), "--quiet", "--resume"]) == 2
     assert "different configuration" in capsys.readouterr().err
     assert (run / "chain.csv").read_bytes() == before
+
+
+def test_bounce_dressed_metric_model_and_short_run(tmp_path, capsys):
+    pytest.importorskip("bouncelike.perturbations.transfer",
+                        reason="bounce transfer model not built")
+    m = parametric_model("bounce_dressed_metric")
+    p = {"ln_1e10_As": math.log(21.0), "n_s": 0.965, "r": 8 / 55.5,
+         "log10_k_lqc": math.log10(0.05), "critical_density": 0.40937}
+    # Physics notes, section 5 (orientation for m^2 phi^2, m = 1.2e-6, N_* = 55):
+    # N_B* ~ 13 + ln(k_*/k_LQC); here k_LQC = k_*, and r = 8/(N + 1/2), A_s = 2.1e-9.
+    assert m.derived(p)["N_B_star"] == pytest.approx(13.0, abs=0.3)
+    p2 = dict(p, log10_k_lqc=p["log10_k_lqc"] - 2.0)
+    assert m.derived(p2)["N_B_star"] - m.derived(p)["N_B_star"] == pytest.approx(
+        2 * math.log(10.0))
+    cfg = _write_run(tmp_path, "bounce", "bounce_dressed_metric", ["planck2018_base", "bk18"],
+                     12, 150, 9, '\n[report]\ngrid = 6\nprior_draws = 50\nrescore_samples = 20\n'
+                     'band_samples = 20\nevidence_draws = 200\n'
+                     'exclusion_map = ["log10_k_lqc", "n_s"]\n')
+    assert main(["sample", str(cfg), "--quiet"]) == 0
+    capsys.readouterr()
+    assert main(["report", str(tmp_path / "chains" / "bounce"), "--json"]) == 0
+    v = json.loads(capsys.readouterr().out)
+    stats = {e["name"]: e for e in v["marginals"]}
+    assert stats["certified"]["kind"] == "indicator"
+    # a bounce scale inside the observable window puts features at the pivot: excluded
+    lk = __import__("bouncelike.likelihood.gaussian", fromlist=["x"]).GaussianLikelihood
+    score = lk.from_names(["planck2018_base"]).score(m.spectra(dict(p, log10_k_lqc=-1.0)))
+    assert score.verdict == "excluded"
+    assert (tmp_path / "chains" / "bounce" / "report" / "efolds.png").is_file()

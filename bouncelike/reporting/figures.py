@@ -65,14 +65,21 @@ def triangle_figure(samples: np.ndarray, names: Sequence[str], labels: Sequence[
     mc = MCSamples(samples=np.asarray(samples), names=list(names), labels=list(labels),
                    ranges=rng, label=title,
                    settings={"ignore_rows": 0, "mult_bias_correction_order": 0})
+    import logging
     import warnings
 
-    with warnings.catch_warnings():
-        # getdist's tick formatter uses matplotlib attributes deprecated in recent versions
-        warnings.simplefilter("ignore", DeprecationWarning)
-        g = plots.get_subplot_plotter(width_inch=2.2 * max(2, len(names)))
-        g.triangle_plot([mc], filled=True, title_limit=1)
-        g.fig.canvas.draw()
+    root = logging.getLogger()
+    level = root.level
+    root.setLevel(logging.ERROR)  # getdist logs smoothing-scale notes as warnings
+    try:
+        with warnings.catch_warnings():
+            # getdist's tick formatter uses matplotlib attributes deprecated recently
+            warnings.simplefilter("ignore", DeprecationWarning)
+            g = plots.get_subplot_plotter(width_inch=2.2 * max(2, len(names)))
+            g.triangle_plot([mc], filled=True, title_limit=1)
+            g.fig.canvas.draw()
+    finally:
+        root.setLevel(level)
     return g.fig
 
 

@@ -239,6 +239,21 @@ def _figure_data(prior: Any, model: Any, likelihood: Any, frame: Any, x: np.ndar
             efold = {"name": n, "posterior": x[:, i],
                      "prior": prior.draw(rng, 4000)[:, i], "label": prior.get(n).label}
             break
+        if n in frame.columns and n in prior.derived_names:
+            # a derived e-fold number: its prior is the image of prior draws
+            draws = []
+            for t in prior.draw(rng, 2000):
+                try:
+                    draws.append(model.derived(params_of(t))[n])
+                except Exception:  # noqa: BLE001 - a failed draw has no image
+                    continue
+            post = frame[n].to_numpy()
+            draws = np.asarray(draws, dtype=float)
+            draws = draws[np.isfinite(draws)]
+            if draws.size and np.all(np.isfinite(post)):
+                efold = {"name": n, "posterior": post, "prior": draws,
+                         "label": prior.get(n).label}
+                break
     return {"k": k, "scalar": np.array(scal), "tensor": tens_arr if has_tensor else None,
             "best": best_spectra, "map": (ga, gb, level, per_set,
                                           x[:, [ia, ib]][: 2000]),
@@ -269,10 +284,21 @@ def write_report(folder: str | Path, data: dict[str, Any],
     ]
     frame = data["frame"]
     # derived parameters that are exact linear functions of another (e.g. n_t = -r/8) add
-    # nothing to the triangle plot
-    corr = np.corrcoef(frame[names].to_numpy().T) if len(frame) > 2 else np.eye(len(names))
-    names = [n for i, n in enumerate(names)
-             if i < len(data["sampled"]) or not np.any(np.abs(corr[i, :i]) > 0.9999)]
+    # nothing to the triangle plot; neither do indicators (e.g. "certified") or numbers
+    # spanning many decades
+    values = frame[names].to_numpy()
+    corr = np.corrcoef(values.T) if len(frame) > 2 else np.eye(len(names))
+    n_sampled = len(data["sampled"])
+
+    def plottable(i: int) -> bool:
+        if i < n_sampled:
+            return True
+        v = values[:, i]
+        if np.any(np.abs(corr[i, :i]) > 0.9999) or np.unique(v).size < 20:
+            return False
+        return not (np.min(v) > 0 and np.max(v) / np.min(v) > 1e3)
+
+    names = [n for i, n in enumerate(names) if plottable(i)]
     fig = figures.triangle_figure(frame[names].to_numpy(), names, [labels[n] for n in names],
                                   {p.name: (p.lower, p.upper) for p in prior.sampled},
                                   v["run_name"])

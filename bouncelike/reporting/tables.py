@@ -24,6 +24,8 @@ def _latex_scale(x: float) -> tuple[float, str]:
 
 
 def _cell(e: dict[str, Any], latex: bool) -> tuple[str, str]:
+    if e["kind"] == "indicator":
+        return f"fraction {_num(e['mean'], 3)}", "--"
     if e["kind"] in ("upper_limit", "lower_limit"):
         op = ("<" if e["kind"] == "upper_limit" else ">")
         if latex:
@@ -47,7 +49,7 @@ def marginal_markdown(stats: Sequence[dict[str, Any]], labels: dict[str, str],
              "|---|---|---|---|---|---|"]
     for e in stats:
         c68, c95 = _cell(e, latex=False)
-        if e["kind"] != "two_sided":
+        if e["kind"] in ("upper_limit", "lower_limit"):
             c68, c95 = "--", c68 + " (95%)"
         lines.append(f"| {e['name']} (${labels.get(e['name'], e['name'])}$) | "
                      f"{roles.get(e['name'], '')} | {c68} | {c95} | {_num(e['median'])} | "
@@ -60,7 +62,7 @@ def marginal_latex(stats: Sequence[dict[str, Any]], labels: dict[str, str],
     rows = []
     for e in stats:
         c68, c95 = _cell(e, latex=True)
-        if e["kind"] != "two_sided":
+        if e["kind"] in ("upper_limit", "lower_limit"):
             c68, c95 = "--", c68
         rows.append(f"${labels.get(e['name'], e['name'])}$ & {c68} & {c95} \\\\")
     body = "\n".join(rows)

@@ -16,10 +16,9 @@ parameter outside the model's domain); the driver turns it into a log-likelihood
 counts the reason.
 
 Registering a model: add ``name -> "module:factory"`` to :data:`PARAMETRIC_MODELS`, where
-``factory()`` returns the model object. Bounce models are registered here once the
-perturbations package provides its fast parametric evaluator (``BounceSpectraModel`` with
-``.spectra(params)``): a factory wrapping it with the parameter names of
-``priors/bounce_dressed_metric.toml`` and ``priors/bounce_deformed_algebra.toml``.
+``factory()`` returns the model object, and ship a prior file naming it in ``priors/``. The
+bounce models wrap the perturbations package's fast evaluator (``BounceSpectraModel``: a power
+law times the cached transfer of the bounce) in both prescriptions.
 """
 
 from __future__ import annotations
@@ -136,13 +135,85 @@ class StarobinskySlowRoll(_SlowRoll):
         return math.sqrt(24.0 * math.pi**2 * a_s) / n * _REDUCED
 
 
+class _BounceTransfer:
+    """Bounce spectra for sampling: a standard power law times the cached transfer of the
+    bounce, T(k / k_LQC), of the perturbations package (:class:`bouncelike.perturbations.
+    transfer.BounceSpectraModel`, modes from the remote contracting past).
+
+    Parameters: ``ln_1e10_As``, ``n_s``, ``r`` (the slow-roll part at k_* = 0.05 Mpc^-1),
+    ``log10_k_lqc`` (the comoving bounce scale in Mpc^-1) and ``critical_density`` (Planck
+    units; enters only the derived e-folds). Derived:
+
+    ``N_B_star``      e-folds from the bounce to the exit of the pivot scale,
+                      N_B* = ln(k_* / k_LQC) - ln(H_* / sqrt(8 pi rho_c)) (physics notes,
+                      section 5, with V_B << rho_c), H_* from the tensor amplitude
+                      P_t = r A_s = 16 H_*^2 / pi (Planck units, de Sitter; same notes,
+                      section 4); NaN for r = 0
+    ``x_window_min``  1e-4 Mpc^-1 / k_LQC, the window's lower end in units of the bounce scale
+    ``certified``     1 when the whole window lies where the cached transfer is certified
+    """
+
+    prescription = ""
+    parameter_names = ("ln_1e10_As", "n_s", "r", "log10_k_lqc", "critical_density")
+    derived_names = ("N_B_star", "x_window_min", "certified")
+    labels = {"ln_1e10_As": r"\ln(10^{10} A_s)", "n_s": "n_s", "r": "r",
+              "log10_k_lqc": r"\log_{10}(k_\mathrm{LQC}/\mathrm{Mpc}^{-1})",
+              "critical_density": r"\rho_c", "N_B_star": r"N_{B*}",
+              "x_window_min": r"k_\mathrm{min}/k_\mathrm{LQC}", "certified": "certified"}
+
+    def __init__(self) -> None:
+        self._model: Any = None
+
+    def __getstate__(self) -> dict[str, Any]:
+        return {}  # workers rebuild the cached transfer (read from the shipped table)
+
+    def __setstate__(self, state: dict[str, Any]) -> None:
+        self._model = None
+
+    def _fast(self) -> Any:
+        if self._model is None:
+            try:
+                from ..perturbations.transfer import BounceSpectraModel
+            except ImportError:
+                raise InputError(
+                    f"model '{self.name}' needs bouncelike.perturbations.transfer"
+                    ".BounceSpectraModel, which this build does not have") from None
+            self._model = BounceSpectraModel(prescription=self.prescription, pivot=PIVOT)
+        return self._model
+
+    def spectra(self, p: dict[str, float]) -> Any:
+        return self._fast().spectra(p)
+
+    def derived(self, p: dict[str, float]) -> dict[str, float]:
+        d = self._fast().derived(p)
+        a_s = math.exp(p["ln_1e10_As"]) * 1e-10
+        if p["r"] > 0:
+            hubble = math.sqrt(math.pi * a_s * p["r"] / 16.0)
+            n_b = (math.log(PIVOT) - p["log10_k_lqc"] * math.log(10.0)
+                   - math.log(hubble / math.sqrt(8.0 * math.pi * p["critical_density"])))
+        else:
+            n_b = math.nan
+        return {"N_B_star": n_b, "x_window_min": float(d["x_window_min"]),
+                "certified": float(bool(d["certified"]))}
+
+
+class BounceDressedMetric(_BounceTransfer):
+    name = "bounce_dressed_metric"
+    prescription = "dressed_metric"
+
+
+class BounceDeformedAlgebra(_BounceTransfer):
+    name = "bounce_deformed_algebra"
+    prescription = "deformed_algebra"
+
+
 #: name -> "module:factory"; factory() returns the model object.
 PARAMETRIC_MODELS: dict[str, str] = {
     "power_law": "bouncelike.sampling.parametric:PowerLawModel",
     "slow_roll_quadratic": "bouncelike.sampling.parametric:QuadraticSlowRoll",
     "slow_roll_starobinsky": "bouncelike.sampling.parametric:StarobinskySlowRoll",
-    # Bounce models: register "bounce_dressed_metric" and "bounce_deformed_algebra" here when
-    # bouncelike.perturbations provides BounceSpectraModel (see the module docstring).
+    "bounce_dressed_metric": "bouncelike.sampling.parametric:BounceDressedMetric",
+    "bounce_deformed_algebra": "bouncelike.sampling.parametric:BounceDeformedAlgebra",
 }
 
 

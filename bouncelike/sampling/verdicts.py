@@ -46,6 +46,11 @@ def marginal_statistics(samples: np.ndarray, names: Sequence[str], lower: Sequen
     out = []
     for i, name in enumerate(names):
         x = samples[:, i]
+        if np.all((x == 0.0) | (x == 1.0)):  # an indicator (e.g. "certified"): a fraction
+            out.append({"name": name, "kind": "indicator", "mean": float(np.mean(x)),
+                        "std": float(np.std(x, ddof=1)) if x.size > 1 else math.nan,
+                        "median": float(np.median(x))})
+            continue
         q = np.quantile(x, [0.025, 0.16, 0.5, 0.84, 0.975])
         kind = _sidedness(x, lower[i], upper[i])
         entry = {
@@ -80,6 +85,8 @@ def _sidedness(x: np.ndarray, lo: float, hi: float) -> str:
 
 def format_interval(entry: dict[str, Any], digits: int = 4) -> str:
     """'0.9649 +0.0042 -0.0041' style text (68%), or '< 0.036 (95%)' for a limit."""
+    if entry["kind"] == "indicator":
+        return f"true in a fraction {entry['mean']:.3g} of the posterior"
     if entry["kind"] == "upper_limit":
         return f"< {entry['limit95']:.{digits}g} (95%)"
     if entry["kind"] == "lower_limit":
