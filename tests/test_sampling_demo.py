@@ -29,3 +29,12 @@ def test_demo_runs_end_to_end(tmp_path, capsys):
     assert v["quadratic"]["best_fit"]["verdict"] == "excluded"
     (cmp,) = v["starobinsky"]["comparisons"]
     assert cmp["delta_chi2_min"] < -20 and cmp["ln_evidence_ratio"] > 5
+    try:
+        import bouncelike.perturbations.transfer  # noqa: F401
+    except ImportError:
+        assert "bounce" not in summary["runs"]
+    else:
+        # physics notes, section 5: bounce features reach the pivot only for N_B* <~ 13-15,
+        # so the data push the bounce scale below the window and N_B* above ~13
+        assert v["bounce"]["best_fit"]["verdict"] == "allowed"
+        assert (out / "chains" / "bounce" / "report" / "efolds.png").is_file()

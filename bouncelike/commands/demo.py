@@ -1,8 +1,10 @@
-"""``bouncelike demo``: a score, two short posterior runs and their reports, in about a minute.
+"""``bouncelike demo``: a score, short posterior runs and their reports, in about a minute.
 
 The built-in scenario (our own, illustrative): is a plateau potential preferred over the
-quadratic one by Planck 2018 + BICEP/Keck 2018? It scores the Starobinsky model at N_* = 55,
-samples the slow-roll posteriors of both potentials (N_* and the amplitude free), and reports
+quadratic one by Planck 2018 + BICEP/Keck 2018, and how close to the observable window may a
+bounce put its scale? It scores the Starobinsky model at N_* = 55, samples the slow-roll
+posteriors of both potentials (N_* and the amplitude free) and, when the bounce transfer model
+is part of the build, the dressed-metric bounce model (bounce scale free), and reports
 verdicts, the evidence ratio of the two potentials (a discrete setting), tables and figures.
 """
 
@@ -17,9 +19,13 @@ NAME = "demo"
 HELP = "run a built-in scenario end to end (score, posterior runs, reports) and show outputs"
 
 SETS = ("planck2018_base", "bk18")
+# name, prior, seed, runs compared with, exclusion-map axes, tau multiple, module needed
 RUNS = (
-    ("starobinsky", "starobinsky_slow_roll", 3, ["chains/quadratic"]),
-    ("quadratic", "quadratic_slow_roll", 4, []),
+    ("starobinsky", "starobinsky_slow_roll", 3, ["chains/quadratic"],
+     ["N_star", "ln_1e10_As"], 40, None),
+    ("quadratic", "quadratic_slow_roll", 4, [], ["N_star", "ln_1e10_As"], 40, None),
+    ("bounce", "bounce_dressed_metric", 5, [], ["log10_k_lqc", "n_s"], 30,
+     "bouncelike.perturbations.transfer"),
 )
 
 
@@ -31,10 +37,23 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="print a JSON summary")
 
 
-def _config(prior_path: Path, seed: int, compare: list[str]) -> str:
+def _available(module: str | None) -> bool:
+    if module is None:
+        return True
+    import importlib.util
+
+    try:
+        return importlib.util.find_spec(module) is not None
+    except ModuleNotFoundError:
+        return False
+
+
+def _config(prior_path: Path, seed: int, compare: list[str], emap: list[str],
+            tau_multiple: int) -> str:
     sets = ", ".join(f'"{s}"' for s in SETS)
     comp = ", ".join(f'"{c}"' for c in compare)
-    return f"""# Demo scenario of our own: slow-roll posterior against Planck 2018 + BK18.
+    axes = ", ".join(f'"{a}"' for a in emap)
+    return f"""# Demo scenario of our own: posterior against Planck 2018 + BK18.
 [likelihood]
 sets = [{sets}]
 
@@ -43,14 +62,14 @@ prior = "{prior_path.as_posix()}"
 walkers = 16
 max_steps = 3000
 min_steps = 300
-tau_multiple = 40
+tau_multiple = {tau_multiple}
 tau_tolerance = 0.1
 checkpoint_every = 100
 seed = {seed}
 chains_dir = "chains"
 
 [report]
-exclusion_map = ["N_star", "ln_1e10_As"]
+exclusion_map = [{axes}]
 grid = 24
 prior_draws = 400
 rescore_samples = 120
@@ -67,6 +86,7 @@ def run(args: argparse.Namespace) -> int:
     from ..sampling.parametric import parametric_model
     from ..sampling.priors import resolve_prior_path
     from ..sampling.setup import build_run
+    from ..sampling.verdicts import format_interval
 
     out = Path(args.output)
     say = (lambda *a: None) if args.json else (lambda *a: print(*a, flush=True))
@@ -85,15 +105,20 @@ def run(args: argparse.Namespace) -> int:
                                                      **score.as_dict()}))
     # 2. posterior runs
     summaries = {}
-    for i, (name, prior_name, seed, compare) in enumerate(RUNS):
+    runs = [r for r in RUNS if _available(r[6])]
+    for r in RUNS:
+        if r not in runs:
+            say(f"      (run '{r[0]}' skipped: {r[6]} is not part of this build)")
+    for i, (name, prior_name, seed, compare, emap, tau_mult, _) in enumerate(runs):
         prior_src = resolve_prior_path(prior_name)
         config_path = out / f"{name}.toml"
         prior_copy = out / "priors" / prior_src.name
         write_text_atomic(prior_copy, prior_src.read_text(encoding="utf-8"))
-        write_text_atomic(config_path, _config(Path("priors") / prior_src.name, seed, compare))
+        write_text_atomic(config_path, _config(Path("priors") / prior_src.name, seed, compare,
+                                               emap, tau_mult))
         setup = build_run(config_path, quiet=args.quiet or args.json,
                           output=out / "chains" / name)
-        say(f"[2/3] posterior run {i + 1}/{len(RUNS)}: {setup.model.name} "
+        say(f"[2/3] posterior run {i + 1}/{len(runs)}: {setup.model.name} "
             f"({setup.settings.walkers} walkers) -> {setup.folder}")
         result = run_sampler(setup.posterior, setup.settings, setup.folder, resume=True,
                              manifest=setup.manifest, fingerprint=setup.fingerprint,
@@ -105,7 +130,7 @@ def run(args: argparse.Namespace) -> int:
             ", ".join(f"{k} {v:.0f}" for k, v in s["tau"].items()))
     # 3. reports (the quadratic run first: the plateau run compares itself with it)
     reports = {}
-    for name, *_ in reversed(RUNS):
+    for name, *_ in reversed(runs):
         folder = out / "chains" / name
         data = compute_report(folder)
         write_report(folder, data)
@@ -116,13 +141,16 @@ def run(args: argparse.Namespace) -> int:
         say(f"[3/3] report {name}: best fit chi2 = {bf['chi2']:.3g}, {bf['verdict']}"
             + (f" at {bf['excluded_at']:.1%}" if bf["excluded_at"] else "")
             + f"; best fit excluded by: {', '.join(excl) or 'no single set'}")
+        for e in v["marginals"]:
+            if e["name"] in ("log10_k_lqc", "N_B_star"):
+                say(f"      {e['name']}: {format_interval(e)}")
         for c in v.get("comparisons", []):
             say(f"      {name} vs quadratic: delta chi2_min = {c['delta_chi2_min']:.3g}, "
                 f"ln evidence ratio = {c['ln_evidence_ratio']:.3g} ({c['interpretation']})")
     say("")
     say(f"outputs in {out}/:")
     say("  score.json                 score of the scenario point")
-    for name, *_ in RUNS:
+    for name, *_ in runs:
         say(f"  {name + '.toml':26s} configuration of the run (prior file in priors/)")
         say(f"  {'chains/' + name + '/':26s} chain.csv (pandas.read_csv), samples.csv, "
             "manifest.json")
