@@ -43,7 +43,7 @@ else:
     from numba import njit
 
     def _jit(func):
-        return njit(cache=True, fastmath=False)(func)
+        return njit(cache=True, error_model="numpy")(func)
 
 
 EIGHT_PI_3 = 8.0 * math.pi / 3.0
@@ -119,32 +119,50 @@ def hubble_rate_derivative(phidot, rho, inv_rho_c):
 
 
 @_jit
-def rates(kind, p, y, mode, s, inv_rho_c, out):
-    """Fill ``out`` with dy/dt; return (rho, V, K, H) where H is the rate actually used."""
-    V, dV, _ = potential_terms(kind, p, y[1])
-    K = 0.5 * y[2] * y[2]
-    rho = K + V
+def derivatives(kind, p, phi, phidot, h_state, mode, s, inv_rho_c):
+    """(H, phidot, phiddot, Hdot, rho, V, K) at one state; H from the constraint in mode 0."""
+    V, dV, _ = potential_terms(kind, p, phi)
+    kin = 0.5 * phidot * phidot
+    rho = kin + V
     if mode == 0:
         F = hubble_squared(rho, inv_rho_c)
         H = s * math.sqrt(F) if F > 0.0 else 0.0
     else:
-        H = y[3]
-    out[0] = H
-    out[1] = y[2]
-    out[2] = -3.0 * H * y[2] - dV
-    out[3] = hubble_rate_derivative(y[2], rho, inv_rho_c)
-    return rho, V, K, H
+        H = h_state
+    return (H, phidot, -3.0 * H * phidot - dV, hubble_rate_derivative(phidot, rho, inv_rho_c),
+            rho, V, kin)
 
 
 @_jit
-def event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, work, g):
+def _rates_row(kind, p, y, mode, s, inv_rho_c, k, row):
+    H, d1, d2, d3, rho, V, kin = derivatives(kind, p, y[1], y[2], y[3], mode, s, inv_rho_c)
+    k[row, 0] = H
+    k[row, 1] = d1
+    k[row, 2] = d2
+    k[row, 3] = d3
+    return rho, V, kin, H
+
+
+@_jit
+def rates(kind, p, y, mode, s, inv_rho_c, out):
+    """Fill ``out`` with dy/dt; return (rho, V, K, H) where H is the rate actually used."""
+    H, d1, d2, d3, rho, V, kin = derivatives(kind, p, y[1], y[2], y[3], mode, s, inv_rho_c)
+    out[0] = H
+    out[1] = d1
+    out[2] = d2
+    out[3] = d3
+    return rho, V, kin, H
+
+
+@_jit
+def event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, g):
     """Event functions at state y (see :func:`integrate` for their meaning)."""
-    rho, V, K, H = rates(kind, p, y, mode, s, inv_rho_c, work)
-    acc = (H * H + work[3]) / (EIGHT_PI_3 * rho)
+    H, _, _, Hdot, rho, V, kin = derivatives(kind, p, y[1], y[2], y[3], mode, s, inv_rho_c)
+    acc = (H * H + Hdot) / (EIGHT_PI_3 * rho)
     g[0] = rho * inv_rho_c - SWITCH_FRACTION
     g[1] = H
     g[2] = rho * inv_rho_c - 0.5
-    g[3] = min(acc, (V - K) / rho)
+    g[3] = min(acc, (V - kin) / rho)
     g[4] = acc
     g[5] = y[0] - lna_cap
 
@@ -185,14 +203,14 @@ def _event_active(i, mode, s, inv_rho_c, bounced, si_ended, started, ended):
 
 @_jit
 def _locate(kind, p, yold, k, h, mode, s, inv_rho_c, lna_cap, idx, th_lo, g_lo, th_hi,
-            work, ytmp, gtmp):
+            ytmp, gtmp):
     """Bisection on the continuous extension for the root of event ``idx`` in (th_lo, th_hi]."""
     lo, hi = th_lo, th_hi
     sign_lo = g_lo > 0.0
     for _ in range(60):
         mid = 0.5 * (lo + hi)
         _interp(yold, k, h, mid, ytmp)
-        event_values(kind, p, ytmp, mode, s, inv_rho_c, lna_cap, work, gtmp)
+        event_values(kind, p, ytmp, mode, s, inv_rho_c, lna_cap, gtmp)
         if (gtmp[idx] > 0.0) == sign_lo:
             lo = mid
         else:
@@ -271,12 +289,12 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
     status = ST_NO_INFLATION
     reason = R_END
 
-    rho, V, K, H = rates(kind, p, y, mode, s, inv_rho_c, k[0])
+    rho, V, K, H = _rates_row(kind, p, y, mode, s, inv_rho_c, k, 0)
     n_rhs += 1
     if mode == 1 and not bounced:
         F = hubble_squared(rho, inv_rho_c)
         y[3] = s * math.sqrt(F) if F > 0.0 else 0.0
-        rho, V, K, H = rates(kind, p, y, mode, s, inv_rho_c, k[0])
+        rho, V, K, H = _rates_row(kind, p, y, mode, s, inv_rho_c, k, 0)
     if bounced and inv_rho_c > 0.0:
         summary[S_T_BOUNCE] = 0.0
         summary[S_LNA_BOUNCE] = y[0]
@@ -287,12 +305,14 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
     if store:
         rec, n_rec = _record(rec, n_rec, t, y, k[0])
     if bounced:
-        event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, work, g_lo)
+        event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, g_lo)
         if g_lo[3] > 0.0:
             started = True
             summary[S_T_INF_START] = 0.0
             summary[S_LNA_INF_START] = y[0]
             lna_cap = y[0] + max_efolds
+    g_cur = np.empty(6)
+    event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, g_cur)
     # initial step: a small fraction of the fastest time scale
     _, _, d2v = potential_terms(kind, p, y[1])
     rate = math.sqrt(EIGHT_PI_3 * rho) + math.sqrt(abs(d2v)) + abs(y[2]) / (abs(y[1]) + 1e-300)
@@ -314,13 +334,13 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
                 for j in range(st):
                     acc += _A[st, j] * k[j, i]
                 ytmp[i] = y[i] + h * acc
-            rates(kind, p, ytmp, mode, s, inv_rho_c, k[st])
+            _rates_row(kind, p, ytmp, mode, s, inv_rho_c, k, st)
         for i in range(4):
             acc = 0.0
             for j in range(6):
                 acc += _B[j] * k[j, i]
             ynew[i] = y[i] + h * acc
-        rho_new, _, _, _ = rates(kind, p, ynew, mode, s, inv_rho_c, k[6])
+        rho_new, _, _, _ = _rates_row(kind, p, ynew, mode, s, inv_rho_c, k, 6)
         n_rhs += 6
         # error norm
         rho_scale = math.sqrt(max(rho, rho_new) * (inv_rho_c if inv_rho_c > 0.0 else 1.0))
@@ -356,8 +376,9 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
             continue
         # accepted: look for events inside the step, in time order
         n_steps += 1
-        event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, work, g_lo)
-        event_values(kind, p, ynew, mode, s, inv_rho_c, lna_cap, work, g_hi)
+        for i in range(6):
+            g_lo[i] = g_cur[i]
+        event_values(kind, p, ynew, mode, s, inv_rho_c, lna_cap, g_hi)
         th_lo = 0.0
         stop_theta = -1.0
         stop_kind = -1
@@ -370,7 +391,7 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
                     continue
                 if (d > 0 and g_lo[i] <= 0.0 < g_hi[i]) or (d < 0 and g_lo[i] >= 0.0 > g_hi[i]):
                     th = _locate(kind, p, y, k, h, mode, s, inv_rho_c, lna_cap, i, th_lo,
-                                 g_lo[i], 1.0, work, ytmp, g_tmp)
+                                 g_lo[i], 1.0, ytmp, g_tmp)
                     if th < best:
                         best = th
                         best_i = i
@@ -404,18 +425,19 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
                 rec, n_rec = _record(rec, n_rec, te, ytmp, work)
             # re-evaluate at the event so newly active events start from here
             th_lo = best
-            event_values(kind, p, ytmp, mode, s, inv_rho_c, lna_cap, work, g_lo)
-            event_values(kind, p, ynew, mode, s, inv_rho_c, lna_cap, g_tmp[:4], g_hi)
+            event_values(kind, p, ytmp, mode, s, inv_rho_c, lna_cap, g_lo)
+            event_values(kind, p, ynew, mode, s, inv_rho_c, lna_cap, g_hi)
             if best_i == 1 and g_lo[3] > 0.0:
                 # a potential-dominated bounce: accelerated expansion starts right away
                 started = True
                 summary[S_T_INF_START] = te
                 summary[S_LNA_INF_START] = ytmp[0]
                 lna_cap = ytmp[0] + max_efolds
-                event_values(kind, p, ytmp, mode, s, inv_rho_c, lna_cap, work, g_lo)
-                event_values(kind, p, ynew, mode, s, inv_rho_c, lna_cap, g_tmp[:4], g_hi)
+                event_values(kind, p, ytmp, mode, s, inv_rho_c, lna_cap, g_lo)
+                event_values(kind, p, ynew, mode, s, inv_rho_c, lna_cap, g_hi)
         if mode == 1:
-            rho_a, _, _, H_a = rates(kind, p, ynew, mode, s, inv_rho_c, work)
+            H_a, _, _, _, rho_a, _, _ = derivatives(kind, p, ynew[1], ynew[2], ynew[3], mode, s,
+                                                    inv_rho_c)
             res = abs(H_a * H_a - hubble_squared(rho_a, inv_rho_c)) / (EIGHT_PI_3 * rho_a)
             if stop_kind < 0 and res > max_res:
                 max_res = res
@@ -424,7 +446,7 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
             t = t + stop_theta * h
             for i in range(4):
                 y[i] = ytmp[i]
-            rho, V, K, H = rates(kind, p, y, mode, s, inv_rho_c, k[0])
+            rho, V, K, H = _rates_row(kind, p, y, mode, s, inv_rho_c, k, 0)
             if mode == 1:
                 res = abs(H * H - hubble_squared(rho, inv_rho_c)) / (EIGHT_PI_3 * rho)
                 if res > max_res:
@@ -437,8 +459,9 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
                 else:
                     mode = 0
                     s = 1.0
-                rho, V, K, H = rates(kind, p, y, mode, s, inv_rho_c, k[0])
+                rho, V, K, H = _rates_row(kind, p, y, mode, s, inv_rho_c, k, 0)
                 n_rhs += 1
+                event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, g_cur)
                 if store:
                     rec, n_rec = _record(rec, n_rec, t, y, k[0])
                 continue
@@ -458,6 +481,8 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
             y[i] = ynew[i]
             k[0, i] = k[6, i]
         rho = rho_new
+        for i in range(6):
+            g_cur[i] = g_hi[i]
         if store:
             rec, n_rec = _record(rec, n_rec, t, y, k[0])
         fac = 10.0 if err == 0.0 else min(10.0, max(0.2, 0.9 * err ** -0.2))
