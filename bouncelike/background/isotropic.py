@@ -28,6 +28,11 @@ Initial data (:mod:`bouncelike.background.initial`):
   (2013) 123509 (x = m phi / sqrt(2 rho_c) = sqrt(rho/rho_c) sin(delta)).
 * ``ClassicalStart(phi, phidot)``: general relativity (1/rho_c = 0), expanding, no bounce.
 
+Inflation is the longest accelerated (addot > 0), potential-dominated phase after the bounce:
+the run continues after an end of inflation until the field has passed twice through the
+minimum phi = 0 (see :func:`bouncelike.background.kernels.integrate`), so a brief acceleration
+while the field turns on a steep wall does not hide the plateau inflation that follows.
+
 ln a = 0 and t = 0 at the start. Custom (Python) potentials are integrated by the same algorithm
 run as plain Python, about a hundred times slower; the result message says so.
 """
@@ -254,6 +259,7 @@ class IsotropicDynamics:
                 "rejected_steps": int(summary[K.S_REJECTED]),
                 "rhs_evaluations": int(summary[K.S_RHS]),
                 "stop_reason": REASONS[int(summary[K.S_REASON])],
+                "accelerated_phases": int(summary[K.S_N_PHASES]),
                 "phi_bounce": float(summary[K.S_PHI_BOUNCE]),
                 "phidot_bounce": float(summary[K.S_PHIDOT_BOUNCE]),
             },

@@ -56,8 +56,9 @@ S_T_BOUNCE, S_LNA_BOUNCE, S_T_SI_END, S_LNA_SI_END = 2, 3, 4, 5
 S_T_INF_START, S_LNA_INF_START, S_T_INF_END, S_LNA_INF_END = 6, 7, 8, 9
 S_PHI_BOUNCE, S_PHIDOT_BOUNCE, S_VFRAC_BOUNCE = 10, 11, 12
 S_MAX_RESIDUAL, S_STEPS, S_RHS, S_REJECTED = 13, 14, 15, 16
-S_T_FINAL, S_LNA_FINAL, S_RHO_BOUNCE = 17, 18, 19
-SUMMARY_SIZE = 20
+S_T_FINAL, S_LNA_FINAL, S_RHO_BOUNCE, S_N_PHASES = 17, 18, 19, 20
+SUMMARY_SIZE = 21
+N_EVENTS = 7
 
 # statuses and stop reasons
 ST_INFLATED, ST_NO_INFLATION, ST_EFOLD_CAP, ST_FAILED = 0, 1, 2, 4
@@ -165,6 +166,7 @@ def event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, g):
     g[3] = min(acc, (V - kin) / rho)
     g[4] = acc
     g[5] = y[0] - lna_cap
+    g[6] = y[1]
 
 
 @_jit
@@ -181,7 +183,7 @@ def _interp(y0, k, h, theta, out):
 
 
 @_jit
-def _event_active(i, mode, s, inv_rho_c, bounced, si_ended, started, ended):
+def _event_active(i, mode, s, inv_rho_c, bounced, si_ended, started, any_end):
     if i == 0:
         if inv_rho_c <= 0.0:
             return 0
@@ -197,8 +199,10 @@ def _event_active(i, mode, s, inv_rho_c, bounced, si_ended, started, ended):
     if i == 3:
         return 1 if (bounced and not started) else 0
     if i == 4:
-        return -1 if (started and not ended) else 0
-    return 1 if started else 0
+        return -1 if started else 0
+    if i == 5:
+        return 1 if started else 0
+    return 2 if (any_end and not started) else 0
 
 
 @_jit
@@ -262,7 +266,16 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
     2 end of super-inflation: rho/rho_c - 1/2, down, after the bounce;
     3 start of inflation: min(addot/(a (8 pi/3) rho), (V - K)/rho), up, after the bounce;
     4 end of inflation (epsilon_H = 1): addot/(a (8 pi/3) rho), down, after the start;
-    5 e-fold cap: ln a - ln a_start - max_efolds, up, after the start.
+    5 e-fold cap: ln a - ln a_start - max_efolds, up, after the start;
+    6 field through the minimum: phi, either direction, after an end of inflation.
+
+    Accelerated phases. After an end of inflation the run goes on: a short burst of acceleration
+    (e.g. the field turning on a steep wall of the potential) may be followed by the real
+    inflationary phase. The run stops when the field has crossed phi = 0 twice after the end
+    of the longest phase so far (it oscillates about the minimum; the brief accelerations at
+    the turning points of those oscillations are phases too), at the e-fold cap, or at a cap
+    on time or steps. The reported inflationary phase is the longest one (the running one at the
+    e-fold cap); S_N_PHASES counts the phases.
 
     Returns (summary vector, records array, number of records).
     """
@@ -272,16 +285,21 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
     ytmp = np.empty(4)
     k = np.zeros((7, 4))
     work = np.empty(4)
-    g_lo = np.empty(6)
-    g_hi = np.empty(6)
-    g_tmp = np.empty(6)
+    g_lo = np.empty(N_EVENTS)
+    g_hi = np.empty(N_EVENTS)
+    g_tmp = np.empty(N_EVENTS)
     rec = np.empty((1024 if store else 1, 7))
     n_rec = 0
     t = 0.0
     lna_cap = np.inf
     si_ended = False
     started = False
-    ended = False
+    any_end = False
+    crossings = 0
+    n_phases = 0
+    best_n = -1.0
+    cur_ts = np.nan
+    cur_lnas = np.nan
     max_res = 0.0
     n_steps = 0
     n_rhs = 0
@@ -308,10 +326,10 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
         event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, g_lo)
         if g_lo[3] > 0.0:
             started = True
-            summary[S_T_INF_START] = 0.0
-            summary[S_LNA_INF_START] = y[0]
+            cur_ts = 0.0
+            cur_lnas = y[0]
             lna_cap = y[0] + max_efolds
-    g_cur = np.empty(6)
+    g_cur = np.empty(N_EVENTS)
     event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, g_cur)
     # initial step: a small fraction of the fastest time scale
     _, _, d2v = potential_terms(kind, p, y[1])
@@ -376,7 +394,7 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
             continue
         # accepted: look for events inside the step, in time order
         n_steps += 1
-        for i in range(6):
+        for i in range(N_EVENTS):
             g_lo[i] = g_cur[i]
         event_values(kind, p, ynew, mode, s, inv_rho_c, lna_cap, g_hi)
         th_lo = 0.0
@@ -385,11 +403,13 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
         for _pass in range(8):
             best = 2.0
             best_i = -1
-            for i in range(6):
-                d = _event_active(i, mode, s, inv_rho_c, bounced, si_ended, started, ended)
+            for i in range(N_EVENTS):
+                d = _event_active(i, mode, s, inv_rho_c, bounced, si_ended, started, any_end)
                 if d == 0:
                     continue
-                if (d > 0 and g_lo[i] <= 0.0 < g_hi[i]) or (d < 0 and g_lo[i] >= 0.0 > g_hi[i]):
+                up = g_lo[i] <= 0.0 < g_hi[i]
+                down = g_lo[i] >= 0.0 > g_hi[i]
+                if (d == 1 and up) or (d == -1 and down) or (d == 2 and (up or down)):
                     th = _locate(kind, p, y, k, h, mode, s, inv_rho_c, lna_cap, i, th_lo,
                                  g_lo[i], 1.0, ytmp, g_tmp)
                     if th < best:
@@ -399,7 +419,9 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
                 break
             _interp(y, k, h, best, ytmp)
             te = t + best * h
-            if best_i == 0 or best_i == 4 or best_i == 5:
+            if best_i == 6:
+                crossings += 1
+            if best_i == 0 or best_i == 5 or (best_i == 6 and crossings >= 2):
                 stop_theta = best
                 stop_kind = best_i
                 break
@@ -416,11 +438,22 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
                 si_ended = True
                 summary[S_T_SI_END] = te
                 summary[S_LNA_SI_END] = ytmp[0]
-            else:
+            elif best_i == 3:
                 started = True
-                summary[S_T_INF_START] = te
-                summary[S_LNA_INF_START] = ytmp[0]
+                cur_ts = te
+                cur_lnas = ytmp[0]
                 lna_cap = ytmp[0] + max_efolds
+            elif best_i == 4:
+                started = False
+                any_end = True
+                n_phases += 1
+                if ytmp[0] - cur_lnas > best_n:
+                    crossings = 0
+                    best_n = ytmp[0] - cur_lnas
+                    summary[S_T_INF_START] = cur_ts
+                    summary[S_LNA_INF_START] = cur_lnas
+                    summary[S_T_INF_END] = te
+                    summary[S_LNA_INF_END] = ytmp[0]
             if store:
                 rec, n_rec = _record(rec, n_rec, te, ytmp, work)
             # re-evaluate at the event so newly active events start from here
@@ -430,8 +463,8 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
             if best_i == 1 and g_lo[3] > 0.0:
                 # a potential-dominated bounce: accelerated expansion starts right away
                 started = True
-                summary[S_T_INF_START] = te
-                summary[S_LNA_INF_START] = ytmp[0]
+                cur_ts = te
+                cur_lnas = ytmp[0]
                 lna_cap = ytmp[0] + max_efolds
                 event_values(kind, p, ytmp, mode, s, inv_rho_c, lna_cap, g_lo)
                 event_values(kind, p, ynew, mode, s, inv_rho_c, lna_cap, g_hi)
@@ -467,13 +500,7 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
                 continue
             if store:
                 rec, n_rec = _record(rec, n_rec, t, y, k[0])
-            if stop_kind == 4:
-                ended = True
-                summary[S_T_INF_END] = t
-                summary[S_LNA_INF_END] = y[0]
-                reason = R_END
-            else:
-                reason = R_EFOLD_CAP
+            reason = R_END if stop_kind == 6 else R_EFOLD_CAP
             break
         # advance
         t = t + h
@@ -481,21 +508,27 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
             y[i] = ynew[i]
             k[0, i] = k[6, i]
         rho = rho_new
-        for i in range(6):
+        for i in range(N_EVENTS):
             g_cur[i] = g_hi[i]
         if store:
             rec, n_rec = _record(rec, n_rec, t, y, k[0])
         fac = 10.0 if err == 0.0 else min(10.0, max(0.2, 0.9 * err ** -0.2))
         h *= fac
 
-    if ended:
-        status = ST_INFLATED
-    elif reason == R_STEP_UNDERFLOW or reason == R_NONFINITE:
+    if reason == R_STEP_UNDERFLOW or reason == R_NONFINITE:
         status = ST_FAILED
     elif started:
+        # inflation still running at a cap: report the running phase (a lower bound)
         status = ST_EFOLD_CAP
+        summary[S_T_INF_START] = cur_ts
+        summary[S_LNA_INF_START] = cur_lnas
+        summary[S_T_INF_END] = np.nan
+        summary[S_LNA_INF_END] = np.nan
+    elif best_n >= 0.0:
+        status = ST_INFLATED
     else:
         status = ST_NO_INFLATION
+    summary[S_N_PHASES] = n_phases + (1 if started else 0)
     summary[S_STATUS] = status
     summary[S_REASON] = reason
     summary[S_MAX_RESIDUAL] = max_res
