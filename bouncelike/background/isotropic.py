@@ -213,7 +213,7 @@ class IsotropicDynamics:
 
     # -- running ----------------------------------------------------------------------------
     def _run(self, potential: Any, initial: Any, settings: IntegrationSettings,
-             store: bool) -> tuple[np.ndarray, np.ndarray, int, str]:
+             store: bool, substeps: int = 0) -> tuple[np.ndarray, np.ndarray, int, str]:
         y0, mode, s, inv, bounced = self.initial_state(potential, initial)
         kind, params = potential.kernel
         module, engine = K, "compiled"
@@ -223,7 +223,7 @@ class IsotropicDynamics:
             int(kind), np.asarray(params, dtype=float), y0, int(mode), float(s), float(inv),
             bool(bounced), float(settings.rtol), float(settings.atol),
             float(settings.max_inflation_efolds), float(settings.max_time), int(MAX_STEPS),
-            bool(store),
+            bool(store), int(substeps),
         )
         return summary, rec, int(n), engine
 
@@ -237,10 +237,17 @@ class IsotropicDynamics:
                settings: IntegrationSettings | None = None) -> BackgroundTrajectory:
         """Evolve one initial datum; physical outcomes are statuses, never exceptions."""
         settings = settings or IntegrationSettings()
-        summary, rec, n, engine = self._run(potential, initial, settings, store=True)
+        substeps = 0
+        if settings.dense_points > 0:
+            # a first pass counts the steps; the second records points inside each step from
+            # the integrator's 7th-order continuous extension to reach ``dense_points``
+            steps = int(self._run(potential, initial, settings, store=False)[0][K.S_STEPS])
+            substeps = int(min(50, max(0, math.ceil(settings.dense_points / max(steps, 1)) - 1)))
+        summary, rec, n, engine = self._run(potential, initial, settings, store=True,
+                                            substeps=substeps)
         classical = isinstance(initial, ClassicalStart)
         rho_c = math.inf if classical else self.critical_density
-        arrays = _dense(rec[:n], potential, rho_c, settings.dense_points)
+        arrays = _dense(rec[:n], potential)
         events, efolds = events_and_efolds(summary)
         status = "no_bounce" if classical else STATUS_NAMES[int(summary[K.S_STATUS])]
         message = describe_outcome(summary, classical, engine)
@@ -325,33 +332,14 @@ def describe_outcome(summary: np.ndarray, classical: bool, engine: str) -> str:
     return "; ".join(parts)
 
 
-def _dense(rec: np.ndarray, potential: Any, rho_c: float, dense_points: int) -> dict:
-    """Trajectory arrays from the recorded steps, refined by Hermite interpolation if asked."""
+def _dense(rec: np.ndarray, potential: Any) -> dict:
+    """Trajectory arrays from the recorded points, in time order, one record per time."""
+    rec = rec[np.argsort(rec[:, 0], kind="stable")]
     # keep the last record of repeated times (a mode switch records the state twice)
     t = rec[:, 0]
     keep = np.ones(len(t), dtype=bool)
     keep[:-1] = t[1:] > t[:-1]
-    rec = rec[keep]
-    t, lna, H, Hdot, phi, phidot, phiddot = rec.T
-    if dense_points and len(t) >= 2 and len(t) < dense_points:
-        u = np.union1d(np.arange(len(t), dtype=float), np.linspace(0, len(t) - 1, dense_points))
-        i = np.clip(np.floor(u).astype(int), 0, len(t) - 2)
-        s = u - i
-        h = t[i + 1] - t[i]
-
-        def herm(y: np.ndarray, d: np.ndarray) -> np.ndarray:
-            h00 = (1 + 2 * s) * (1 - s) ** 2
-            h10 = s * (1 - s) ** 2
-            h01 = s**2 * (3 - 2 * s)
-            h11 = s**2 * (s - 1)
-            return h00 * y[i] + h10 * h * d[i] + h01 * y[i + 1] + h11 * h * d[i + 1]
-
-        t_new = t[i] + s * h
-        lna, H, phi, phidot = herm(lna, H), herm(H, Hdot), herm(phi, phidot), herm(phidot, phiddot)
-        t = t_new
-        rho = 0.5 * phidot**2 + potential.V(phi)
-        Hdot = raychaudhuri(phidot, rho, rho_c)
-        phiddot = -3.0 * H * phidot - potential.dV(phi)
+    t, lna, H, Hdot, phi, phidot, phiddot = rec[keep].T
     V = potential.V(phi)
     kinetic = 0.5 * phidot**2
     rho = kinetic + V

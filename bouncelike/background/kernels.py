@@ -21,9 +21,10 @@ evolved with the Raychaudhuri equation. The switches are events located on the d
 at each switch into mode 1 H is reset to s sqrt(F), and at each switch out of mode 1 the
 residual |H^2 - F(rho)| / ((8 pi / 3) rho) accumulated by the Raychaudhuri stretch is recorded.
 
-Integrator: Dormand-Prince 5(4) with the 4th-order continuous extension (coefficients as in
-Dormand & Prince 1980 and Shampine 1986, identical to those of scipy's RK45), error control on
-scaled components, events found by bisection on the continuous extension.
+Integrator: the explicit Runge-Kutta pair DOP853 of Dormand & Prince (8th order, 5th and 3rd
+order embedded error estimators, 7th-order continuous extension; Hairer, Norsett & Wanner,
+Solving ODEs I, 1993), error control on scaled components, events found by bisection on the
+continuous extension.
 """
 
 from __future__ import annotations
@@ -31,6 +32,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
+
+from bouncelike.background import dop853_tableau as _T
 
 _PURE_PYTHON = globals().get("_PURE_PYTHON", False)
 
@@ -49,6 +52,8 @@ else:
 EIGHT_PI_3 = 8.0 * math.pi / 3.0
 EIGHT_PI = 8.0 * math.pi
 SWITCH_FRACTION = 0.01
+#: per accepted step decay of the envelope of |phi| used as its error scale
+ENVELOPE_DECAY = 0.99
 
 # summary vector layout ---------------------------------------------------------------------
 S_STATUS, S_REASON = 0, 1
@@ -64,28 +69,12 @@ N_EVENTS = 7
 ST_INFLATED, ST_NO_INFLATION, ST_EFOLD_CAP, ST_FAILED = 0, 1, 2, 4
 R_END, R_EFOLD_CAP, R_TIME_CAP, R_STEP_CAP, R_STEP_UNDERFLOW, R_NONFINITE = 0, 1, 2, 3, 4, 5
 
-# Dormand-Prince 5(4) tableau
-_C = np.array([0.0, 1 / 5, 3 / 10, 4 / 5, 8 / 9, 1.0])
-_A = np.array([
-    [0.0, 0.0, 0.0, 0.0, 0.0],
-    [1 / 5, 0.0, 0.0, 0.0, 0.0],
-    [3 / 40, 9 / 40, 0.0, 0.0, 0.0],
-    [44 / 45, -56 / 15, 32 / 9, 0.0, 0.0],
-    [19372 / 6561, -25360 / 2187, 64448 / 6561, -212 / 729, 0.0],
-    [9017 / 3168, -355 / 33, 46732 / 5247, 49 / 176, -5103 / 18656],
-])
-_B = np.array([35 / 384, 0.0, 500 / 1113, 125 / 192, -2187 / 6784, 11 / 84])
-_E = np.array([-71 / 57600, 0.0, 71 / 16695, -71 / 1920, 17253 / 339200, -22 / 525, 1 / 40])
-_P = np.array([
-    [1.0, -8048581381 / 2820520608, 8663915743 / 2820520608, -12715105075 / 11282082432],
-    [0.0, 0.0, 0.0, 0.0],
-    [0.0, 131558114200 / 32700410799, -68118460800 / 10900136933, 87487479700 / 32700410799],
-    [0.0, -1754552775 / 470086768, 14199869525 / 1410260304, -10690763975 / 1880347072],
-    [0.0, 127303824393 / 49829197408, -318862633887 / 49829197408,
-     701980252875 / 199316789632],
-    [0.0, -282668133 / 205662961, 2019193451 / 616988883, -1453857185 / 822651844],
-    [0.0, 40617522 / 29380423, -110615467 / 29380423, 69997945 / 29380423],
-])
+# Dormand-Prince 8(5,3) tableau (see dop853_tableau.py)
+_A = _T.A
+_B = _T.B
+_E3 = _T.E3
+_E5 = _T.E5
+_D = _T.D
 
 
 @_jit
@@ -170,16 +159,39 @@ def event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, g):
 
 
 @_jit
-def _interp(y0, k, h, theta, out):
-    """Dormand-Prince continuous extension at theta in [0, 1] of the step (y0, k, h)."""
-    t2 = theta * theta
-    t3 = t2 * theta
-    t4 = t3 * theta
+def _dense_coefficients(kind, p, y, ynew, k, h, mode, s, inv_rho_c, ytmp, F):
+    """Extra stages 13-15 and the 7 coefficient rows F of the continuous extension."""
+    for st in range(13, 16):
+        for i in range(4):
+            acc = 0.0
+            for j in range(st):
+                acc += _A[st, j] * k[j, i]
+            ytmp[i] = y[i] + h * acc
+        _rates_row(kind, p, ytmp, mode, s, inv_rho_c, k, st)
+    for i in range(4):
+        dy = ynew[i] - y[i]
+        F[0, i] = dy
+        F[1, i] = h * k[0, i] - dy
+        F[2, i] = 2.0 * dy - h * (k[12, i] + k[0, i])
+        for r in range(4):
+            acc = 0.0
+            for j in range(16):
+                acc += _D[r, j] * k[j, i]
+            F[3 + r, i] = h * acc
+
+
+@_jit
+def _interp(y0, F, theta, out):
+    """DOP853 continuous extension at theta in [0, 1] of the step from y0 (coefficients F)."""
     for i in range(4):
         acc = 0.0
-        for j in range(7):
-            acc += k[j, i] * (_P[j, 0] * theta + _P[j, 1] * t2 + _P[j, 2] * t3 + _P[j, 3] * t4)
-        out[i] = y0[i] + h * acc
+        for m in range(7):
+            acc += F[6 - m, i]
+            if m % 2 == 0:
+                acc *= theta
+            else:
+                acc *= 1.0 - theta
+        out[i] = y0[i] + acc
 
 
 @_jit
@@ -206,14 +218,14 @@ def _event_active(i, mode, s, inv_rho_c, bounced, si_ended, started, any_end):
 
 
 @_jit
-def _locate(kind, p, yold, k, h, mode, s, inv_rho_c, lna_cap, idx, th_lo, g_lo, th_hi,
+def _locate(kind, p, yold, F, h, mode, s, inv_rho_c, lna_cap, idx, th_lo, g_lo, th_hi,
             ytmp, gtmp):
     """Bisection on the continuous extension for the root of event ``idx`` in (th_lo, th_hi]."""
     lo, hi = th_lo, th_hi
     sign_lo = g_lo > 0.0
     for _ in range(60):
         mid = 0.5 * (lo + hi)
-        _interp(yold, k, h, mid, ytmp)
+        _interp(yold, F, mid, ytmp)
         event_values(kind, p, ytmp, mode, s, inv_rho_c, lna_cap, gtmp)
         if (gtmp[idx] > 0.0) == sign_lo:
             lo = mid
@@ -242,7 +254,7 @@ def _record(rec, n, t, y, f):
 
 @_jit
 def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, max_time,
-              max_steps, store):
+              max_steps, store, substeps):
     """Evolve one background from ``y0`` at t = 0.
 
     Parameters
@@ -254,11 +266,16 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
     inv_rho_c : 1/rho_c (0: general relativity, no bounce)
     bounced : True when starting at or after the bounce (a bounce start records the bounce at
         t = 0; a classical start has no bounce but may inflate)
-    rtol, atol : tolerances; the error of phi and phidot is measured against
-        atol sqrt(rho/rho_c) + rtol |y|, of ln a against atol + rtol max(1, |ln a|), of H (mode 1)
-        against atol + rtol max(|H|, sqrt(8 pi rho / 3))
+    rtol, atol : tolerances. Errors are measured against the natural size of each component, so
+        that zero crossings of an oscillating field do not force tiny steps: phidot against
+        atol sqrt(rho/rho_c) + rtol max(|phidot|, sqrt(2 rho)); phi against
+        atol sqrt(rho/rho_c) + rtol max(|phi|, envelope), the envelope being the recent maximum
+        of |phi| (decaying by ENVELOPE_DECAY per step); ln a against atol + rtol max(1, |ln a|);
+        H (mode 1) against atol + rtol max(|H|, sqrt(8 pi rho / 3)).
     max_efolds : cap on inflationary e-folds; max_time : cap on t; max_steps : cap on steps
     store : record the accepted steps (t, ln a, H, Hdot, phi, phidot, phiddot)
+    substeps : with ``store``, also record this many points inside each step from the
+        continuous extension (records of event points may come out of time order: sort them)
 
     Events (index: function, direction, when active):
     0 mode switch: rho/rho_c - 1/100, up in the contracting branch, down after the bounce;
@@ -283,7 +300,8 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
     y = y0.copy()
     ynew = np.empty(4)
     ytmp = np.empty(4)
-    k = np.zeros((7, 4))
+    k = np.zeros((16, 4))
+    dense = np.zeros((7, 4))
     work = np.empty(4)
     g_lo = np.empty(N_EVENTS)
     g_hi = np.empty(N_EVENTS)
@@ -329,6 +347,7 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
             cur_ts = 0.0
             cur_lnas = y[0]
             lna_cap = y[0] + max_efolds
+    phi_env = abs(y[1])
     g_cur = np.empty(N_EVENTS)
     event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, g_cur)
     # initial step: a small fraction of the fastest time scale
@@ -345,8 +364,8 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
             break
         if t + h > max_time:
             h = max_time - t
-        # Dormand-Prince stages
-        for st in range(1, 6):
+        # DOP853 stages 1-11, the 8th-order solution and the FSAL evaluation (stage 12)
+        for st in range(1, 12):
             for i in range(4):
                 acc = 0.0
                 for j in range(st):
@@ -355,29 +374,37 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
             _rates_row(kind, p, ytmp, mode, s, inv_rho_c, k, st)
         for i in range(4):
             acc = 0.0
-            for j in range(6):
+            for j in range(12):
                 acc += _B[j] * k[j, i]
             ynew[i] = y[i] + h * acc
-        rho_new, _, _, _ = _rates_row(kind, p, ynew, mode, s, inv_rho_c, k, 6)
-        n_rhs += 6
-        # error norm
+        rho_new, _, _, _ = _rates_row(kind, p, ynew, mode, s, inv_rho_c, k, 12)
+        n_rhs += 12
+        # error norm (Hairer's combination of the 5th- and 3rd-order estimators)
         rho_scale = math.sqrt(max(rho, rho_new) * (inv_rho_c if inv_rho_c > 0.0 else 1.0))
-        err = 0.0
+        e5sq = 0.0
+        e3sq = 0.0
         ncomp = 3 if mode == 0 else 4
         for i in range(ncomp):
-            e = 0.0
-            for j in range(7):
-                e += _E[j] * k[j, i]
-            e *= h
+            e5 = 0.0
+            e3 = 0.0
+            for j in range(13):
+                e5 += _E5[j] * k[j, i]
+                e3 += _E3[j] * k[j, i]
             big = max(abs(y[i]), abs(ynew[i]))
             if i == 0:
                 sc = atol + rtol * max(1.0, big)
             elif i == 3:
                 sc = atol + rtol * max(big, math.sqrt(EIGHT_PI_3 * max(rho, rho_new)))
+            elif i == 2:
+                sc = atol * rho_scale + rtol * max(big, math.sqrt(2.0 * max(rho, rho_new)))
             else:
-                sc = atol * rho_scale + rtol * big
-            err += (e / sc) ** 2
-        err = math.sqrt(err / ncomp)
+                sc = atol * rho_scale + rtol * max(big, phi_env)
+            e5sq += (e5 / sc) ** 2
+            e3sq += (e3 / sc) ** 2
+        if e5sq == 0.0 and e3sq == 0.0:
+            err = 0.0
+        else:
+            err = abs(h) * e5sq / math.sqrt((e5sq + 0.01 * e3sq) * ncomp)
         if not math.isfinite(err):
             h *= 0.1
             n_rej += 1
@@ -386,7 +413,7 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
                 break
             continue
         if err > 1.0:
-            h *= max(0.2, 0.9 * err ** -0.2)
+            h *= max(0.2, 0.9 * err ** -0.125)
             n_rej += 1
             if h <= 1e-15 * (abs(t) + 1e-300):
                 reason = R_STEP_UNDERFLOW
@@ -400,6 +427,7 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
         th_lo = 0.0
         stop_theta = -1.0
         stop_kind = -1
+        have_dense = False
         for _pass in range(8):
             best = 2.0
             best_i = -1
@@ -410,14 +438,19 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
                 up = g_lo[i] <= 0.0 < g_hi[i]
                 down = g_lo[i] >= 0.0 > g_hi[i]
                 if (d == 1 and up) or (d == -1 and down) or (d == 2 and (up or down)):
-                    th = _locate(kind, p, y, k, h, mode, s, inv_rho_c, lna_cap, i, th_lo,
+                    if not have_dense:
+                        _dense_coefficients(kind, p, y, ynew, k, h, mode, s, inv_rho_c, ytmp,
+                                            dense)
+                        n_rhs += 3
+                        have_dense = True
+                    th = _locate(kind, p, y, dense, h, mode, s, inv_rho_c, lna_cap, i, th_lo,
                                  g_lo[i], 1.0, ytmp, g_tmp)
                     if th < best:
                         best = th
                         best_i = i
             if best_i < 0:
                 break
-            _interp(y, k, h, best, ytmp)
+            _interp(y, dense, best, ytmp)
             te = t + best * h
             if best_i == 6:
                 crossings += 1
@@ -468,6 +501,17 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
                 lna_cap = ytmp[0] + max_efolds
                 event_values(kind, p, ytmp, mode, s, inv_rho_c, lna_cap, g_lo)
                 event_values(kind, p, ynew, mode, s, inv_rho_c, lna_cap, g_hi)
+        if store and substeps > 0:
+            limit = stop_theta if stop_kind >= 0 else 1.0
+            if not have_dense:
+                _dense_coefficients(kind, p, y, ynew, k, h, mode, s, inv_rho_c, ytmp, dense)
+                n_rhs += 3
+                have_dense = True
+            for j in range(1, substeps + 1):
+                th = limit * j / (substeps + 1.0)
+                _interp(y, dense, th, ytmp)
+                rates(kind, p, ytmp, mode, s, inv_rho_c, work)
+                rec, n_rec = _record(rec, n_rec, t + th * h, ytmp, work)
         if mode == 1:
             H_a, _, _, _, rho_a, _, _ = derivatives(kind, p, ynew[1], ynew[2], ynew[3], mode, s,
                                                     inv_rho_c)
@@ -475,7 +519,7 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
             if stop_kind < 0 and res > max_res:
                 max_res = res
         if stop_kind >= 0:
-            _interp(y, k, h, stop_theta, ytmp)
+            _interp(y, dense, stop_theta, ytmp)
             t = t + stop_theta * h
             for i in range(4):
                 y[i] = ytmp[i]
@@ -506,13 +550,14 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
         t = t + h
         for i in range(4):
             y[i] = ynew[i]
-            k[0, i] = k[6, i]
+            k[0, i] = k[12, i]
         rho = rho_new
+        phi_env = max(abs(y[1]), ENVELOPE_DECAY * phi_env)
         for i in range(N_EVENTS):
             g_cur[i] = g_hi[i]
         if store:
             rec, n_rec = _record(rec, n_rec, t, y, k[0])
-        fac = 10.0 if err == 0.0 else min(10.0, max(0.2, 0.9 * err ** -0.2))
+        fac = 10.0 if err == 0.0 else min(10.0, max(0.2, 0.9 * err ** -0.125))
         h *= fac
 
     if reason == R_STEP_UNDERFLOW or reason == R_NONFINITE:
