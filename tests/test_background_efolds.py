@@ -126,3 +126,17 @@ def test_bad_prior_values():
         BounceFractionPrior(1e-12, 1e-9, "cubic")
     with pytest.raises(InputError, match="efolds.n_samples"):
         efolds_distribution(DYN, QUAD, PhasePrior(), 0, seed=1)
+
+
+def test_flattened_monomial_window_guard():
+    # For p < 2 the oscillation frequency grows as the density falls; a window that would need
+    # more than MAX_OSCILLATIONS oscillations before the bounce is refused, not run for hours.
+    from bouncelike.background.potentials import Monomial
+
+    pot = Monomial(1e-11, 2 / 3)
+    with pytest.raises(InputError, match="efolds.density"):
+        efolds_distribution(DYN, pot, PhasePrior(1e-16, 2.0), 4, seed=1)
+    d = efolds_distribution(DYN, pot, PhasePrior(3e-13, 0.5), 6, seed=1,
+                            convergence_samples=0)
+    assert d.status_counts["failed"] == 0
+    assert d.status_counts["inflated"] + d.status_counts["efold_cap"] == 6

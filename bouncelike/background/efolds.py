@@ -14,6 +14,13 @@ Barrau, Phys. Rev. D 87 (2013) 123509). The phase is the energy angle of
   (default 1e-16, where H/m ~ 0.024 for m = 1.21e-6: the field oscillates many times per Hubble
   time throughout). This smears the staircase and gives a smooth distribution.
 
+The number of field oscillations before the bounce is about omega / (3 pi H) at rho_0 (omega
+the oscillation frequency at that density, :func:`hubble_to_frequency`); windows needing more
+than MAX_OSCILLATIONS are refused with an InputError. For V = m^2 phi^2 / 2 omega = m at every
+density, but for the flattened monomials (p < 2) omega grows as the density falls, so their
+windows must sit at much higher densities (e.g. p = 2/3, lambda = 1e-11: H/omega ~ 0.02 near
+rho_0 ~ 3e-13).
+
 Convergence in rho_0: the first ``convergence_samples`` draws are re-run with the whole window
 moved two decades lower (same phases and relative positions in the window); the change of their
 median is reported in :attr:`EfoldDistribution.convergence`.
@@ -50,6 +57,9 @@ from .initial import BounceStart, ContractingStart, IntegrationSettings
 from .result import STATUSES
 
 PERCENTILES = (5, 16, 50, 84, 95)
+#: refuse phase-prior windows in which the field would oscillate more often than this before
+#: the bounce (the cost grows in proportion; flattened monomials oscillate fast at low density)
+MAX_OSCILLATIONS = 1.0e5
 CHUNK = 25
 
 # per-sample record columns
@@ -324,6 +334,17 @@ def efolds_distribution(
     if not isinstance(n_samples, (int, np.integer)) or n_samples < 1:
         raise InputError(f"'efolds.n_samples' = {n_samples!r} is out of range; allowed: >= 1")
     settings = settings or IntegrationSettings()
+    if isinstance(prior, PhasePrior):
+        lowest = prior.density * 10.0 ** -(prior.decades
+                                           + (shift_decades if convergence_samples > 0 else 0))
+        ratio = hubble_to_frequency(potential, lowest)
+        if math.isfinite(ratio) and ratio > 0 and 1.0 / (3.0 * math.pi * ratio) > MAX_OSCILLATIONS:
+            raise InputError(
+                f"'efolds.density' = {prior.density:g}: at rho_0 = {lowest:.3g} the field would "
+                f"oscillate about {1.0 / (3.0 * math.pi * ratio):.2g} times before the bounce "
+                f"(H/omega = {ratio:.2g}); raise 'efolds.density' (H/omega of 0.01-0.03 at the "
+                "top of the window is enough) or narrow 'efolds.density_decades'"
+            )
     rng = np.random.default_rng(seed)
     draws = prior.draw(rng, int(n_samples))
     initials = [prior.initial(draws, i) for i in range(n_samples)]
