@@ -163,6 +163,10 @@ def test_bad_initial_data():
         DYN.evolve(Quadratic(1e-6), ContractingStart(1.0, 0.0))
     with pytest.raises(InputError, match="critical_density"):
         IsotropicDynamics(-1.0)
+    with pytest.raises(InputError, match="background.classical.phi"):
+        DYN.evolve(Quadratic(1e-6), ClassicalStart(0.0, 0.0))
+    with pytest.raises(InputError, match="plateau"):
+        DYN.evolve(Starobinsky(2.6e-6), BounceStart(0.5, 1))
 
 
 def _accelerated_phases(tr, pot):

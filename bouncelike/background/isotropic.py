@@ -208,6 +208,11 @@ class IsotropicDynamics:
             return y0, mode, -1.0, inv, False
         if isinstance(initial, ClassicalStart):
             y0 = np.array([0.0, float(initial.phi), float(initial.phidot), 0.0])
+            if not 0.5 * y0[2] ** 2 + float(potential.V(y0[1])) > 0:
+                raise InputError(
+                    "'background.classical.phi' and 'background.classical.phidot' give zero "
+                    "energy density; allowed: a state with rho > 0"
+                )
             return y0, 0, 1.0, 0.0, True
         raise InputError(f"unknown initial data {type(initial).__name__}")
 

@@ -352,8 +352,8 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
     event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, g_cur)
     # initial step: a small fraction of the fastest time scale
     _, _, d2v = potential_terms(kind, p, y[1])
-    rate = math.sqrt(EIGHT_PI_3 * rho) + math.sqrt(abs(d2v)) + abs(y[2]) / (abs(y[1]) + 1e-300)
-    h = 1e-3 / rate
+    rate = math.sqrt(EIGHT_PI_3 * rho) + math.sqrt(abs(d2v)) + abs(y[2]) / max(abs(y[1]), 1.0)
+    h = 1e-3 / rate if (rate > 0.0 and math.isfinite(rate)) else 1e-3
 
     while True:
         if n_steps >= max_steps:

@@ -173,7 +173,7 @@ def run(args: Any) -> int:
     out_dir = Path(args.output) if args.output else Path("bouncelike-out") / Path(args.config).stem
 
     # compile (or load the compiled kernel) before any worker process is forked
-    setup.dynamics.evolve(setup.potential, ClassicalStart(0.0, 0.0),
+    setup.dynamics.evolve(setup.potential, ClassicalStart(1.0, 0.0),
                           IntegrationSettings(max_time=1e-6, dense_points=0))
     started = time.perf_counter()
     pool = make_pool(opts["workers"])
