@@ -35,7 +35,8 @@ Inflationary e-folds per sample (:mod:`bouncelike.background.result` defines sta
 run with no inflation counts as 0 e-folds; a run stopped at the e-fold cap counts as the cap (a
 lower bound: the statistics then say so through ``n_efold_cap``); failed runs are excluded and
 counted. Percentiles are those of numpy (linear interpolation); the mode is the maximum of a
-Gaussian kernel density estimate (scipy.stats.gaussian_kde, Scott's rule) of the inflated runs.
+Gaussian kernel density estimate (scipy.stats.gaussian_kde, Scott's rule) of the same values.
+When many runs reach the cap, the median, mode and upper percentiles are lower bounds.
 
 Reproducibility: every random number is drawn up front from one ``numpy.random.default_rng(seed)``
 and each sample is evolved independently, so the result is bit-identical for a seed whatever the
@@ -145,7 +146,8 @@ class EfoldDistribution:
 
     ``samples`` (n,) inflationary e-folds (NaN for failed runs), ``statuses`` (n,) strings,
     ``potential_fractions`` (n,) V_B/rho at the bounce, ``bounce_to_end`` (n,) e-folds from the
-    bounce to the end of inflation, ``draws`` the prior's random inputs per sample.
+    bounce to the end of inflation (to the stop, a lower bound, for runs at the e-fold cap),
+    ``draws`` the prior's random inputs per sample.
     """
 
     samples: np.ndarray
@@ -231,17 +233,21 @@ def evolve_records(task: tuple) -> np.ndarray:
         if fast:
             s = dynamics.evolve_summary(potential, initial, settings)
             status = int(s[K.S_STATUS])
+            end = s[K.S_LNA_FINAL] if status == K.ST_EFOLD_CAP else s[K.S_LNA_INF_END]
             out[row] = (status, inflationary_efolds(s),
                         s[K.S_LNA_INF_START] - s[K.S_LNA_BOUNCE],
-                        s[K.S_LNA_INF_END] - s[K.S_LNA_BOUNCE],
+                        end - s[K.S_LNA_BOUNCE],
                         s[K.S_VFRAC_BOUNCE], s[K.S_MAX_RESIDUAL], s[K.S_RHS])
         else:
             tr = dynamics.evolve(potential, initial, settings)
             n_inf = tr.efolds.inflation
-            if tr.status == "efold_cap" and not math.isfinite(n_inf):
-                n_inf = settings.max_inflation_efolds
+            to_end = tr.efolds.bounce_to_inflation_end
+            if tr.status == "efold_cap":
+                if not math.isfinite(n_inf):
+                    n_inf = settings.max_inflation_efolds
+                to_end = tr.ln_a[-1] - tr.events.ln_a_bounce
             out[row] = (STATUSES.index(tr.status), n_inf, tr.efolds.bounce_to_inflation_start,
-                        tr.efolds.bounce_to_inflation_end, tr.potential_fraction_at_bounce,
+                        to_end, tr.potential_fraction_at_bounce,
                         tr.max_constraint_residual, tr.extras.get("rhs_evaluations", np.nan))
     return out
 
@@ -365,7 +371,7 @@ def efolds_distribution(
         percentiles = {str(q): math.nan for q in PERCENTILES}
         median = math.nan
         histogram = (np.zeros(bins, dtype=int), np.linspace(0, 1, bins + 1))
-    mode = _mode(samples[statuses == "inflated"], bins)
+    mode = _mode(usable, bins)
     residuals = records[:, C_RESIDUAL]
     max_residual = float(np.nanmax(residuals)) if np.any(np.isfinite(residuals)) else math.nan
 

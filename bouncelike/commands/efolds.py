@@ -114,7 +114,8 @@ def summary_lines(dist: Any, setup: Any) -> list[str]:
     lines.append(f"  max constraint residual  {dist.max_constraint_residual:.2g}")
     if c["efold_cap"]:
         lines.append(f"  note: {c['efold_cap']} runs reached the cap of "
-                     f"{dist.settings['max_inflation_efolds']:g} e-folds (counted at the cap)")
+                     f"{dist.settings['max_inflation_efolds']:g} e-folds; they count at the cap, "
+                     "so statistics at or near it are lower bounds")
     if prior["name"] == "phase" and not (dist.hubble_to_frequency < 0.1):
         lines.append("  warning: H/omega at the top of the rho_0 window is not small; lower "
                      "'efolds.density'")
