@@ -85,6 +85,8 @@ CASES = [
         "[parameters.r]\nrole = \"fixed\"\nvalue = 0.0\nmin = 0.0"), "parameters.r.min"),
     ("derived parameter the model lacks", GOOD_SAMPLING, GOOD_PRIOR
      + "[parameters.mass]\nrole = 'derived'\n", "parameters.mass.role"),
+    ("bad report section", GOOD_SAMPLING + "\n[report]\nexclusion_map = ['n_s', 'w']\n",
+     GOOD_PRIOR, "report.exclusion_map"),
     ("unknown constraint set", GOOD_SAMPLING.replace("planck2018_base", "planck2099"),
      GOOD_PRIOR, "planck2099"),
 ]

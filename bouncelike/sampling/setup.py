@@ -112,6 +112,9 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
     if settings.walkers < 2 * prior.ndim:
         raise InputError(f"'sampling.walkers' = {settings.walkers} is too small; allowed: >= "
                          f"{2 * prior.ndim} (2 x the {prior.ndim} sampled parameters)")
+    from ..reporting.report import report_settings
+
+    report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
     likelihood = likelihood_of(config, base)
     posterior = ModelPosterior(prior, model, likelihood)
     folder = Path(output) if output is not None else chains_dir / run_name
@@ -155,6 +158,9 @@ def rebuild_from_manifest(manifest: dict[str, Any]) -> tuple[Prior, Any, Any, Mo
                             model_parameters=model.parameter_names,
                             derived_parameters=model.derived_names)
     base = Path(manifest.get("config_file", ".")).parent
+    from ..reporting.report import report_settings
+
+    report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
     likelihood = likelihood_of(config, base)
     return prior, model, likelihood, ModelPosterior(prior, model, likelihood)
 
