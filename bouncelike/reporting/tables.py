@@ -86,6 +86,19 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
     bf = v["best_fit"]
     out = [f"# Verdicts: {v['run_name']} ({v['model']})", ""]
     out.append(f"Constraint sets: {', '.join(v['constraint_sets'])}.")
+    run = v.get("run") or {}
+    if run:
+        tau = ", ".join(f"{k} {t:.1f}" for k, t in run.get("tau", {}).items())
+        ess = ", ".join(f"{k} {e:.0f}" for k, e in run.get("effective_sample_size", {}).items())
+        out.append("")
+        out.append(f"Run: {run.get('status')} after {run.get('steps')} steps x "
+                   f"{run.get('walkers')} walkers; acceptance "
+                   f"{_num(run.get('acceptance_fraction'), 3)}; burn-in {run.get('burn_in')}, "
+                   f"thinning {run.get('thin')}; autocorrelation times {tau}; effective sample "
+                   f"sizes {ess}"
+                   + ("" if run.get("tau_reliable", True) else
+                      " (chain shorter than the chosen multiple of tau: estimates unreliable)")
+                   + ".")
     out.append("")
     out.append(f"**Best fit** (highest likelihood among {v['samples_used']} posterior samples): "
                f"chi2 = {_num(bf['chi2'])} for {bf['dof']} data points, p = "
