@@ -215,7 +215,7 @@ class ModeSolver:
         """(f, f') of the second-order adiabatic basis at node i (conformal time)."""
         W = math.sqrt(w2[i])
         j0, j1 = max(i - 1, 0), min(i + 1, len(w2) - 1)
-        dw2 = (w2[j1] - w2[j0]) / (self.eta[j1] - self.eta[j0])
+        dw2 = self.a[i] * (w2[j1] - w2[j0]) / (self.t[j1] - self.t[j0])  # d/d eta = a d/dt
         fv = 1 / math.sqrt(2 * W)
         return complex(fv), (-1j * W - dw2 / (4 * W * W)) * fv
 

@@ -10,7 +10,9 @@
   W_4^2 = omega^2 - (1/2)[W_2''/W_2 - (3/2)(W_2'/W_2)^2], W_2^2 likewise from omega^2 =
   k^2 - z''/z, derivatives by central differences on a conformal-time stencil of width
   0.01/k_LQC. Where W_4^2 <= k^2/4 (infrared, k below about k_LQC, where z''/z ~ k_LQC^2 > 0
-  and the adiabatic series has no meaning) the Minkowski-like frequency W = k is used: a
+  and the adiabatic series has no meaning; likewise where omega^2 <= k^2/4 on the stencil or
+  the fourth-order correction exceeds half of omega^2) the Minkowski-like frequency W = k is
+  used: a
   documented choice, not a theorem.
 * Bogoliubov rotation of either: mode -> alpha mode + beta mode*, with
   beta(k) = beta_0 exp(-(k/k_beta)^2) e^{i theta}, alpha = sqrt(1 + |beta|^2) (real), so that
@@ -80,10 +82,11 @@ def bounce_adiabatic4(solver, k: float):
     om2 = k * k - zz_s
     w2_2 = _w2_second_order(om2, d)
     w4sq = None
-    if np.all(w2_2 > 0):
+    if np.all(om2 > 0.25 * k * k) and np.all(w2_2 > 0.25 * k * k):
         # the bracket of the W_4 iteration, evaluated with W_2 in place of omega
         w4sq = om2[2:-2] - (w2_2[1:-1] - _w2_second_order(w2_2, d))
-    if w4sq is None or np.any(w4sq <= 0.25 * k * k):
+    if (w4sq is None or np.any(w4sq <= 0.25 * k * k)
+            or np.any(np.abs(w4sq - om2[2:-2]) > 0.5 * om2[2:-2])):
         W, dW = k, 0.0
     else:
         c = len(w4sq) // 2
