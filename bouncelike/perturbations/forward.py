@@ -1,0 +1,217 @@
+"""Forward bounce model: configuration -> background -> modes -> spectra in Mpc^-1.
+
+``[perturbations]`` keys (all optional):
+
+=====================  ==========================================================================
+prescription           "dressed_metric" (default) | "deformed_algebra"
+state                  "remote_past" (default) | "bounce_adiabatic4"
+sign_convention        "published" (default, s = -1) | "classical" (s = sign(phidot H))
+k_min, k_max           feature range in units of k_LQC (default 0.01, 100)
+k_count                wavenumbers over [k_min, k_max] (default 120); 40 more cover the
+                       observable window 1e-5-1 Mpc^-1 when it lies outside that range
+bogoliubov_beta        beta_0 of a Bogoliubov rotation (default 0: none)
+bogoliubov_scale       k_beta in units of k_LQC (default 1)
+bogoliubov_phase       theta (radians, default 0)
+past_density           density (Planck units) where the remote-past state is set (default 1e-11)
+freeze                 k/(aH) at which modes are read off (default 1e-3)
+adiabatic_ratio        W / rate above which a stretch is adiabatic (default 40)
+step                   integrator step x frequency (default 0.08)
+switch_density         deformed-algebra scalars: regular variables where rho > this x rho_c
+=====================  ==========================================================================
+
+``[reheating]``: ``n_star`` (e-folds from the pivot's exit to the end of inflation) or
+``equation_of_state`` w and ``density`` rho_reh (Planck units) for the Liddle & Leach estimate;
+``pivot`` (Mpc^-1, default 0.05); ``hubble_constant`` (km/s/Mpc, default Planck 2018).
+
+Deformed-algebra modes whose Euclidean growth exp(2 k int sqrt(-Omega) d eta) would exceed
+e^600 are not integrated: their power is the standard one times e^600, a lower bound (noted).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from ..config import Table
+from ..errors import InputError
+from .background import BackgroundTable, integrate_background
+from .mapping import ScaleMap, liddle_leach_n_star, scale_map
+from .prescriptions import PRESCRIPTIONS, SIGN_CONVENTIONS
+from .spectra import BounceSpectrum, bounce_spectra
+from .states import STATES, Bogoliubov
+
+PERTURBATION_KEYS = ("prescription", "state", "sign_convention", "k_min", "k_max", "k_count",
+                     "bogoliubov_beta", "bogoliubov_scale", "bogoliubov_phase", "past_density",
+                     "freeze", "adiabatic_ratio", "step", "switch_density")
+REHEATING_KEYS = ("n_star", "equation_of_state", "density", "pivot", "hubble_constant")
+WINDOW_GRID = (1e-5, 1.0, 40)
+MAX_GROWTH_EXPONENT = 600.0
+
+
+@dataclass(frozen=True)
+class PerturbationOptions:
+    prescription: str = "dressed_metric"
+    state: str = "remote_past"
+    sign_convention: str = "published"
+    k_min: float = 0.01
+    k_max: float = 100.0
+    k_count: int = 120
+    bogoliubov_beta: float = 0.0
+    bogoliubov_scale: float = 1.0
+    bogoliubov_phase: float = 0.0
+    past_density: float = 1e-11
+    freeze: float = 1e-3
+    adiabatic_ratio: float = 40.0
+    step: float = 0.08
+    switch_density: float = 1e-4
+
+    @classmethod
+    def from_table(cls, t: Table) -> PerturbationOptions:
+        d = cls()
+        opts = cls(
+            prescription=t.string("prescription", d.prescription, choices=PRESCRIPTIONS),
+            state=t.string("state", d.state, choices=STATES),
+            sign_convention=t.string("sign_convention", d.sign_convention,
+                                     choices=SIGN_CONVENTIONS),
+            k_min=t.positive("k_min", d.k_min), k_max=t.positive("k_max", d.k_max),
+            k_count=t.integer("k_count", d.k_count, minimum=4),
+            bogoliubov_beta=t.number("bogoliubov_beta", d.bogoliubov_beta, minimum=0.0),
+            bogoliubov_scale=t.positive("bogoliubov_scale", d.bogoliubov_scale),
+            bogoliubov_phase=t.number("bogoliubov_phase", d.bogoliubov_phase),
+            past_density=t.positive("past_density", d.past_density),
+            freeze=t.number("freeze", d.freeze, minimum=1e-8, maximum=0.1),
+            adiabatic_ratio=t.number("adiabatic_ratio", d.adiabatic_ratio, minimum=5.0),
+            step=t.number("step", d.step, minimum=1e-3, maximum=0.5),
+            switch_density=t.number("switch_density", d.switch_density, minimum=1e-12,
+                                    maximum=0.1))
+        if opts.k_max <= opts.k_min:
+            raise InputError("perturbations.k_max must exceed perturbations.k_min")
+        return opts
+
+
+@dataclass(frozen=True)
+class BounceRun:
+    """Everything computed for one bounce configuration."""
+
+    table: BackgroundTable
+    spectrum: BounceSpectrum
+    scales: ScaleMap
+    k_mpc: np.ndarray
+    notes: tuple[str, ...]
+
+
+def euclidean_growth_rate(tab: BackgroundTable) -> float:
+    """2 int sqrt(-Omega) d eta over the Euclidean phase (WKB growth exponent per unit k)."""
+    integrand = np.where(tab.Omega < 0, np.sqrt(np.abs(tab.Omega)), 0.0) / tab.a
+    return float(2 * np.trapezoid(integrand, tab.t))
+
+
+def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | None = None,
+               reheating: tuple[float, float] | None = None, pivot: float = 0.05,
+               h0: float | None = None) -> BounceRun:
+    """Spectra of one background in bounce units and in Mpc^-1."""
+    if n_star is None:
+        if reheating is None:
+            raise InputError("[reheating] needs n_star, or equation_of_state and density")
+        n_star = liddle_leach_n_star(tab, reheating[0], reheating[1], pivot, h0)
+    sm = scale_map(tab, n_star, pivot)
+    k_lqc = tab.k_lqc
+    feat = np.geomspace(opts.k_min, opts.k_max, opts.k_count) * k_lqc
+    lo, hi, n = WINDOW_GRID
+    win = sm.to_bounce(np.geomspace(lo, hi, n))
+    kb = np.unique(np.concatenate([feat, win[(win < feat[0]) | (win > feat[-1])]]))
+    notes = []
+    capped = np.zeros(len(kb), bool)
+    if opts.prescription == "deformed_algebra":
+        rate = euclidean_growth_rate(tab)
+        capped = rate * kb > MAX_GROWTH_EXPONENT
+    bog = (Bogoliubov(opts.bogoliubov_beta, opts.bogoliubov_scale * k_lqc,
+                      opts.bogoliubov_phase) if opts.bogoliubov_beta > 0 else None)
+    kw = {"state": opts.state, "sign_convention": opts.sign_convention, "bogoliubov": bog,
+          "step": opts.step, "adiabatic_ratio": opts.adiabatic_ratio, "freeze": opts.freeze,
+          "switch_density": opts.switch_density}
+    sp = bounce_spectra(tab, kb[~capped], prescription=opts.prescription, **kw)
+    scal, tens = np.empty(len(kb)), np.empty(len(kb))
+    scal[~capped], tens[~capped] = sp.scalar, sp.tensor
+    if capped.any():
+        std = bounce_spectra(tab, kb[capped], prescription="dressed_metric", **{
+            **kw, "sign_convention": "classical"})
+        boost = math.exp(MAX_GROWTH_EXPONENT)
+        scal[capped], tens[capped] = std.scalar * boost, std.tensor * boost
+        notes.append(f"deformed algebra: {int(capped.sum())} modes above "
+                     f"k = {MAX_GROWTH_EXPONENT / rate / k_lqc:.3g} k_LQC grow by more than "
+                     "e^600 in the Euclidean phase; their power is given as the standard one "
+                     "x e^600, a lower bound")
+    spectrum = BounceSpectrum(kb, scal, tens, k_lqc, opts.prescription, opts.state,
+                              sp.sign_convention, sp.scalar_modes, sp.tensor_modes,
+                              sp.notes, sp.settings)
+    notes = [sm.bounce_scale_note(), *sp.notes, *notes]
+    if opts.prescription == "deformed_algebra":
+        notes.append("deformed-algebra scalars: regular variables (R, s = p - k^2 g R) near "
+                     "the bounce, Q with Omega k^2 and the classical potential where rho < "
+                     f"{opts.switch_density:g} rho_c")
+    return BounceRun(tab, spectrum, sm, sm.to_mpc(kb), tuple(notes))
+
+
+def _background(config: Table, past_density: float) -> tuple[BackgroundTable, list[str]]:
+    """Bounce state from the background layer's configuration, then our own dense table."""
+    from ..background.setup import background_from_config  # lands with the engine
+
+    setup = background_from_config(config)
+    pot = setup.potential
+    rc = float(setup.dynamics.critical_density)
+    notes = []
+    init = setup.initial
+    from ..background.initial import BounceStart
+
+    if isinstance(init, BounceStart):
+        sign = 1.0 if init.phidot_sign >= 0 else -1.0
+        phi_b = float(pot.field_at(init.potential_fraction * rc, sign))
+        phidot_b = sign * math.sqrt(2 * rc * (1 - init.potential_fraction))
+    else:
+        traj = setup.dynamics.evolve(pot, init, setup.settings)
+        if not np.isfinite(traj.events.t_bounce):
+            raise InputError(f"the background has no bounce ({traj.message})")
+        s = traj.state_at(traj.events.t_bounce)
+        phi_b = float(s["phi"])
+        phidot_b = math.copysign(math.sqrt(max(2 * (rc - float(pot.V(phi_b))), 0.0)),
+                                 float(s["phidot"]))
+        notes.append(f"bounce state taken from the {traj.dynamics} engine run "
+                     f"(status {traj.status})")
+    tab = integrate_background(pot, rc, phi_b, phidot_b, past_density=past_density)
+    return tab, notes
+
+
+def bounce_spectra_from_config(config: Table) -> Any:
+    """``[model] spectra = "bounce"``: TabulatedSpectra in Mpc^-1 with notes."""
+    run = run_from_config(config)
+    from ..spectra.tabulated import TabulatedSpectra
+
+    return TabulatedSpectra(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor,
+                            notes=run.notes, label=f"bounce ({run.spectrum.prescription})")
+
+
+def reheating_from_table(t: Table) -> tuple[float | None, tuple[float, float] | None, float,
+                                            float | None]:
+    pivot = t.positive("pivot", 0.05)
+    h0 = t.positive("hubble_constant", None) if "hubble_constant" in t else None
+    if "n_star" in t:
+        if "equation_of_state" in t or "density" in t:
+            raise InputError("reheating: give either n_star or equation_of_state + density")
+        return t.positive("n_star"), None, pivot, h0
+    if "equation_of_state" in t and "density" in t:
+        return None, (t.number("equation_of_state"), t.positive("density")), pivot, h0
+    raise InputError("[reheating] needs n_star, or equation_of_state and density")
+
+
+def run_from_config(config: Table) -> BounceRun:
+    pt = config.table("perturbations", PERTURBATION_KEYS)
+    opts = PerturbationOptions.from_table(pt)
+    rt = config.table("reheating", REHEATING_KEYS, required=True)
+    n_star, reh, pivot, h0 = reheating_from_table(rt)
+    tab, notes = _background(config, opts.past_density)
+    run = run_bounce(tab, opts, n_star, reh, pivot, h0)
+    return BounceRun(run.table, run.spectrum, run.scales, run.k_mpc, (*run.notes, *notes))
