@@ -81,6 +81,18 @@ class BackgroundTable:
     def has_bounce(self) -> bool:
         return bool(np.isfinite(self.t_bounce))
 
+    def section(self, lo: int, hi: int, ln_a_shift: float = 0.0) -> BackgroundTable:
+        """Nodes lo..hi (inclusive) with ln a shifted by ``ln_a_shift`` (a -> a e^shift)."""
+        sl = slice(lo, hi + 1)
+        t_b = self.t_bounce if self.has_bounce and self.t[lo] < self.t_bounce < self.t[hi] \
+            else math.nan
+        return BackgroundTable(self.t[sl], self.ln_a[sl] + ln_a_shift, self.H[sl],
+                               self.Hdot[sl], self.phi[sl], self.phidot[sl], self.phiddot[sl],
+                               self.V[sl], self.dV[sl], self.d2V[sl], self.critical_density,
+                               t_b, self.t_inflation_end if self.t[lo] <= self.t_inflation_end
+                               <= self.t[hi] else math.nan, self.label + " (section)",
+                               dict(self.info))
+
     def bounce_index(self) -> int:
         if not self.has_bounce:
             raise NumericalFailure("background has no bounce")
@@ -202,7 +214,7 @@ def integrate_background(potential: Any, critical_density: float, phi0: float, p
                          *, t_past: float | None = None, past_density: float | None = None,
                          extra_efolds: float = 2.0, max_time: float = 1e12,
                          rtol: float = 1e-11, points_per_unit: float = 60.0,
-                         max_efolds: float = 400.0) -> BackgroundTable:
+                         max_efolds: float = 2.0e4) -> BackgroundTable:
     """Integrate the effective background through the bounce and inflation (physics notes s.1).
 
     With a finite ``critical_density`` the start (t = 0) is the bounce: rho(phi0, phidot0) must

@@ -119,41 +119,73 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
         n_star = liddle_leach_n_star(tab, reheating[0], reheating[1], pivot, h0)
     sm = scale_map(tab, n_star, pivot)
     k_lqc = tab.k_lqc
-    feat = np.geomspace(opts.k_min, opts.k_max, opts.k_count) * k_lqc
+    ln_feat = np.log(np.geomspace(opts.k_min, opts.k_max, opts.k_count) * k_lqc)
     lo, hi, n = WINDOW_GRID
-    win = sm.to_bounce(np.geomspace(lo, hi, n))
-    kb = np.unique(np.concatenate([feat, win[(win < feat[0]) | (win > feat[-1])]]))
+    ln_win = np.log(np.geomspace(lo, hi, n)) - sm.ln_mpc_per_bounce_unit
+    ln_kb = np.unique(np.concatenate([ln_feat, ln_win[(ln_win < ln_feat[0])
+                                                      | (ln_win > ln_feat[-1])]]))
     notes = []
-    capped = np.zeros(len(kb), bool)
+    rate = euclidean_growth_rate(tab) if opts.prescription == "deformed_algebra" else 0.0
+    ln_aH = tab.ln_a + np.log(np.maximum(tab.H, 1e-300))
+    post = np.arange(len(tab.t)) > tab.bounce_index()
+    i_infl = int(np.nonzero(post)[0][np.argmin(ln_aH[post])])
+    # modes through the bounce: a = e^{ln a} stays finite and no e^600 growth
+    through = (ln_kb - math.log(opts.freeze) + 2 < 600) & (rate * np.exp(np.minimum(
+        ln_kb, 600)) <= MAX_GROWTH_EXPONENT)
     if opts.prescription == "deformed_algebra":
-        rate = euclidean_growth_rate(tab)
-        capped = rate * kb > MAX_GROWTH_EXPONENT
+        through &= ln_kb <= ln_feat[-1] + 2
+    scal, tens = np.empty(len(ln_kb)), np.empty(len(ln_kb))
     bog = (Bogoliubov(opts.bogoliubov_beta, opts.bogoliubov_scale * k_lqc,
                       opts.bogoliubov_phase) if opts.bogoliubov_beta > 0 else None)
     kw = {"state": opts.state, "sign_convention": opts.sign_convention, "bogoliubov": bog,
           "step": opts.step, "adiabatic_ratio": opts.adiabatic_ratio, "freeze": opts.freeze,
           "switch_density": opts.switch_density}
-    sp = bounce_spectra(tab, kb[~capped], prescription=opts.prescription, **kw)
-    scal, tens = np.empty(len(kb)), np.empty(len(kb))
-    scal[~capped], tens[~capped] = sp.scalar, sp.tensor
-    if capped.any():
-        std = bounce_spectra(tab, kb[capped], prescription="dressed_metric", **{
-            **kw, "sign_convention": "classical"})
-        boost = math.exp(MAX_GROWTH_EXPONENT)
-        scal[capped], tens[capped] = std.scalar * boost, std.tensor * boost
-        notes.append(f"deformed algebra: {int(capped.sum())} modes above "
-                     f"k = {MAX_GROWTH_EXPONENT / rate / k_lqc:.3g} k_LQC grow by more than "
-                     "e^600 in the Euclidean phase; their power is given as the standard one "
-                     "x e^600, a lower bound")
-    spectrum = BounceSpectrum(kb, scal, tens, k_lqc, opts.prescription, opts.state,
-                              sp.sign_convention, sp.scalar_modes, sp.tensor_modes,
-                              sp.notes, sp.settings)
+    cut = np.nonzero(ln_aH[i_infl:] >= ln_kb[through].max() - math.log(opts.freeze) + 1)[0]
+    i_cut = i_infl + int(cut[0]) + 1 if len(cut) else len(tab.t) - 1
+    ftab = tab.section(0, min(i_cut, len(tab.t) - 1))
+    sp = bounce_spectra(ftab, np.exp(ln_kb[through]), prescription=opts.prescription, **kw)
+    scal[through], tens[through] = sp.scalar, sp.tensor
+    late = ~through
+    if late.any():
+        # far-ultraviolet modes: started late inside the Hubble radius during inflation on a
+        # section of the background with a renormalised scale factor (standard evolution)
+        i0 = np.nonzero((np.arange(len(tab.t)) >= i_infl)
+                        & (ln_aH >= ln_kb[late].min() - math.log(10 * opts.adiabatic_ratio)))[0]
+        i1 = np.nonzero(ln_aH >= ln_kb[late].max() - math.log(opts.freeze) + 1)[0]
+        if len(i0) == 0 or len(i1) == 0 or i0[0] == i_infl:
+            raise InputError("the observable window cannot be reached on this background "
+                             "(inflation too short after the bounce for the late start)")
+        shift = -float(tab.ln_a[i0[0]])
+        stab = tab.section(int(i0[0]), int(i1[0]), shift)
+        std = bounce_spectra(stab, np.exp(ln_kb[late] + shift), prescription="dressed_metric",
+                             **{**kw, "state": "remote_past", "bogoliubov": None,
+                                "sign_convention": "classical"})
+        boost = math.exp(MAX_GROWTH_EXPONENT) if opts.prescription == "deformed_algebra" else 1.0
+        scal[late], tens[late] = std.scalar * boost, std.tensor * boost
+        if opts.prescription == "deformed_algebra":
+            notes.append(f"deformed algebra: {int(late.sum())} modes above "
+                         f"k = {math.exp(ln_kb[late].min()) / k_lqc:.3g} k_LQC grow by more "
+                         "than e^600 in the Euclidean phase; their power is given as the "
+                         "standard one x e^600, a lower bound")
+        else:
+            notes.append(f"{int(late.sum())} modes above {math.exp(ln_kb[late].min()) / k_lqc:.3g}"
+                         " k_LQC were started inside the Hubble radius during inflation "
+                         "(adiabatic vacuum; the bounce leaves them untouched)")
+    kb = np.exp(np.minimum(ln_kb, 700))
     notes = [sm.bounce_scale_note(), *sp.notes, *notes]
     if opts.prescription == "deformed_algebra":
         notes.append("deformed-algebra scalars: regular variables (R, s = p - k^2 g R) near "
                      "the bounce, Q with Omega k^2 and the classical potential where rho < "
                      f"{opts.switch_density:g} rho_c")
-    return BounceRun(tab, spectrum, sm, sm.to_mpc(kb), tuple(notes))
+    k_mpc = np.exp(ln_kb + sm.ln_mpc_per_bounce_unit)
+    keep = k_mpc > 1e-250
+    if not keep.all():
+        notes.append(f"{int((~keep).sum())} wavenumbers below 1e-250 Mpc^-1 dropped from the "
+                     "table")
+    spectrum = BounceSpectrum(kb[keep], scal[keep], tens[keep], k_lqc, opts.prescription,
+                              opts.state, sp.sign_convention, sp.scalar_modes, sp.tensor_modes,
+                              sp.notes, sp.settings)
+    return BounceRun(tab, spectrum, sm, k_mpc[keep], tuple(notes))
 
 
 def _background(config: Table, past_density: float) -> tuple[BackgroundTable, list[str]]:

@@ -37,26 +37,34 @@ class ScaleMap:
     n_star: float
     n_bounce_pivot: float
     pivot: float
-    mpc_per_bounce_unit: float
-    k_lqc_mpc: float
+    ln_mpc_per_bounce_unit: float
+    ln_k_lqc_mpc: float
     ln_a_pivot: float
 
+    @property
+    def mpc_per_bounce_unit(self) -> float:
+        return math.exp(self.ln_mpc_per_bounce_unit) if self.ln_mpc_per_bounce_unit > -700 else 0.0
+
+    @property
+    def k_lqc_mpc(self) -> float:
+        return math.exp(self.ln_k_lqc_mpc) if self.ln_k_lqc_mpc > -700 else 0.0
+
     def to_mpc(self, k_bounce):
-        return np.asarray(k_bounce, dtype=float) * self.mpc_per_bounce_unit
+        return np.exp(np.log(np.asarray(k_bounce, dtype=float)) + self.ln_mpc_per_bounce_unit)
 
     def to_bounce(self, k_mpc):
-        return np.asarray(k_mpc, dtype=float) / self.mpc_per_bounce_unit
+        return np.exp(np.log(np.asarray(k_mpc, dtype=float)) - self.ln_mpc_per_bounce_unit)
 
     def bounce_scale_note(self) -> str:
         lo, hi = OBSERVABLE_WINDOW
-        k = self.k_lqc_mpc
-        if k < lo:
-            where = f"{math.log10(lo / k):.1f} decades below the observable window"
-        elif k > hi:
-            where = f"{math.log10(k / hi):.1f} decades above the observable window"
+        lk = self.ln_k_lqc_mpc / math.log(10)
+        if lk < math.log10(lo):
+            where = f"{math.log10(lo) - lk:.1f} decades below the observable window"
+        elif lk > math.log10(hi):
+            where = f"{lk - math.log10(hi):.1f} decades above the observable window"
         else:
             where = "inside the observable window"
-        return (f"bounce scale k_LQC = {k:.3g} Mpc^-1, {where} ({lo:g}-{hi:g} Mpc^-1, common "
+        return (f"bounce scale k_LQC = 10^{lk:.2f} Mpc^-1, {where} ({lo:g}-{hi:g} Mpc^-1, common "
                 f"practice); N_B* = {self.n_bounce_pivot:.2f} e-folds from the bounce to the "
                 f"exit of k_* = {self.pivot:g} Mpc^-1, N_* = {self.n_star:.2f}")
 
@@ -64,10 +72,11 @@ class ScaleMap:
 def _exit_index_quantities(tab: BackgroundTable, ln_a_end: float, n: float):
     ln_a = ln_a_end - n
     post = tab.t > (tab.t_bounce if tab.has_bounce else -np.inf)
-    ln_a_p, aH = tab.ln_a[post], tab.a[post] * tab.H[post]
+    ln_a_p = tab.ln_a[post]
+    ln_aH_p = ln_a_p + np.log(np.maximum(tab.H[post], 1e-300))
     order = np.argsort(ln_a_p)
     V = np.interp(ln_a, ln_a_p[order], tab.V[post][order])
-    ln_aH = np.interp(ln_a, ln_a_p[order], np.log(np.maximum(aH[order], 1e-300)))
+    ln_aH = np.interp(ln_a, ln_a_p[order], ln_aH_p[order])
     return ln_a, V, ln_aH
 
 
@@ -109,6 +118,6 @@ def scale_map(tab: BackgroundTable, n_star: float, pivot: float = 0.05) -> Scale
         raise InputError(f"reheating.n_star = {n_star:.3g} does not fit: the background has "
                          f"{ln_a_end - ln_a_b:.3g} e-folds from the bounce to the end of inflation")
     ln_a, _, ln_aH = _exit_index_quantities(tab, ln_a_end, n_star)
-    factor = pivot / math.exp(ln_aH)
+    ln_factor = math.log(pivot) - ln_aH
     k_lqc = tab.k_lqc if tab.has_bounce else float("nan")
-    return ScaleMap(n_star, ln_a - ln_a_b, pivot, factor, k_lqc * factor, ln_a)
+    return ScaleMap(n_star, ln_a - ln_a_b, pivot, ln_factor, math.log(k_lqc) + ln_factor, ln_a)
