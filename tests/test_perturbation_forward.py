@@ -1,0 +1,71 @@
+"""Mapping to Mpc^-1, forward model on an integrated bounce, and the spectrum command."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pytest
+from perturbations_helpers import bounce_background
+
+from bouncelike.perturbations.forward import PerturbationOptions, run_bounce
+from bouncelike.perturbations.mapping import liddle_leach_n_star, scale_map
+
+
+def test_scale_map_relation():
+    # ln(k_*/k_LQC) = N_B* + ln(H_*/sqrt(8 pi (rho_c - V_B))) (physics notes s.5)
+    tab = bounce_background()
+    sm = scale_map(tab, 55.0)
+    i = np.argmin(np.abs(tab.ln_a - sm.ln_a_pivot))
+    ib = tab.bounce_index()
+    rhs = sm.n_bounce_pivot + math.log(tab.H[i] / math.sqrt(8 * math.pi * (
+        tab.critical_density - tab.V[ib])))
+    assert math.log(sm.pivot / sm.k_lqc_mpc) == pytest.approx(rhs, abs=1e-3)
+
+
+def test_liddle_leach_range():
+    # Liddle & Leach (PRD 68 (2003) 103503): N_* ~ 50-60 for GUT-scale inflation with
+    # instant to matter-like reheating; w = 1/3 removes the reheating term exactly.
+    tab = bounce_background()
+    n_inst = liddle_leach_n_star(tab, 1 / 3, 1e-20)
+    i_end = np.argmin(np.abs(tab.t - tab.t_inflation_end))
+    n_rad = liddle_leach_n_star(tab, 1 / 3, float(tab.rho[i_end]))
+    assert n_inst == pytest.approx(n_rad, abs=1e-9)
+    assert 50 < n_inst < 62
+    assert liddle_leach_n_star(tab, 0.0, 1e-20) < n_inst
+
+
+@pytest.mark.parametrize("presc", ["dressed_metric", "deformed_algebra"])
+def test_forward_model_covers_window_and_notes_bounce_scale(presc):
+    tab = bounce_background()
+    run = run_bounce(tab, PerturbationOptions(prescription=presc, k_count=24), n_star=55.0)
+    assert run.k_mpc.min() < 1e-4 and run.k_mpc.max() > 0.2
+    assert np.all(np.diff(run.k_mpc) > 0)
+    assert "bounce scale k_LQC" in run.notes[0] and "observable window" in run.notes[0]
+    assert np.all(np.isfinite(run.spectrum.scalar)) and np.all(run.spectrum.tensor > 0)
+    j = np.argmin(np.abs(run.k_mpc - 0.05))
+    if presc == "deformed_algebra":
+        # UV growth: k_* ~ 23 k_LQC here, far above the dressed-metric (standard) value
+        dm = run_bounce(tab, PerturbationOptions(k_count=24), n_star=55.0)
+        assert run.spectrum.tensor[j] > 1e6 * dm.spectrum.tensor[j]
+
+
+def test_spectrum_command_writes_outputs(tmp_path, monkeypatch, capsys):
+    from bouncelike import cli
+    from bouncelike.perturbations import forward
+
+    tab = bounce_background()
+    run = run_bounce(tab, PerturbationOptions(k_count=24), n_star=55.0)
+    monkeypatch.setattr(forward, "run_from_config", lambda config: run)
+    cfg = tmp_path / "b.toml"
+    cfg.write_text('[model]\nspectra = "bounce"\n')
+    code = cli.main(["spectrum", str(cfg), "--output", str(tmp_path / "out"), "--json",
+                     "--quiet"])
+    assert code == 0
+    out = json.loads(capsys.readouterr().out)
+    for name in ("spectrum.csv", "spectrum.pdf", "spectrum.png", "spectrum.json"):
+        assert (tmp_path / "out" / name).is_file()
+    assert out["k_lqc_mpc"] == pytest.approx(run.scales.k_lqc_mpc)
+    # m^2 phi^2 with N_* = 55 at k_* >> k_LQC: slow-roll values (Encyclopaedia Inflationaris)
+    assert out["pivot_summary"]["n_s"] == pytest.approx(1 - 2 / 55.5, abs=5e-3)
