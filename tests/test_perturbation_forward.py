@@ -69,3 +69,31 @@ def test_spectrum_command_writes_outputs(tmp_path, monkeypatch, capsys):
     assert out["k_lqc_mpc"] == pytest.approx(run.scales.k_lqc_mpc)
     # m^2 phi^2 with N_* = 55 at k_* >> k_LQC: slow-roll values (Encyclopaedia Inflationaris)
     assert out["pivot_summary"]["n_s"] == pytest.approx(1 - 2 / 55.5, abs=5e-3)
+
+
+def test_plateau_beyond_cap_gives_slow_roll_window():
+    # Starobinsky plateau thrown up at the bounce: inflation outlasts the cap; the window
+    # spectra are the slow-roll ones, n_s ~ 1 - 2/N, r ~ 12/N^2 (Encyclopaedia Inflationaris,
+    # arXiv:1303.3787; leading order in 1/N), and the bounce scale lies far below the window.
+    from bouncelike.background.potentials import Starobinsky
+    from bouncelike.commands.spectrum import pivot_summary
+    from bouncelike.perturbations.background import integrate_background
+    from bouncelike.units import critical_density
+
+    rc = critical_density()
+    pot = Starobinsky(mass=2.45e-6)
+    xv = 0.5 * pot.plateau / rc
+    phi_b = pot.field_at(xv * rc, 1.0)
+    tab = integrate_background(pot, rc, phi_b, math.sqrt(2 * rc * (1 - xv)),
+                               past_density=1e-11, max_efolds=400.0)
+    assert not np.isfinite(tab.t_inflation_end)
+    for presc in ("dressed_metric", "deformed_algebra"):
+        run = run_bounce(tab, PerturbationOptions(prescription=presc), n_star=55.0,
+                         potential=pot)
+        s = pivot_summary(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor, 0.05)
+        assert s["n_s"] == pytest.approx(1 - 2 / 55, abs=2.5e-3)
+        assert s["r"] == pytest.approx(12 / 55**2, rel=0.15)
+        assert run.scales.ln_k_lqc_mpc < math.log(1e-4) - 100
+        assert "outlasts the integration cap" in run.notes[1]
+        if presc == "deformed_algebra":
+            assert s["ln_1e10_As"] > 500  # lower bound e^600 x standard: far beyond any data

@@ -60,7 +60,8 @@ def _figure(run, summary: dict):
         ax.loglog(k, summary["r"] * ref, "k:", lw=0.8, label=f"r x power law, r={summary['r']:.3g}")
         ax.axvline(kp, color="grey", lw=0.8)
     ax.axvspan(*OBSERVABLE_WINDOW, color="tab:green", alpha=0.12, label="observable window")
-    ax.axvline(run.scales.k_lqc_mpc, color="tab:red", lw=0.8, ls="-.", label="$k_{LQC}$")
+    if k.min() <= run.scales.k_lqc_mpc <= k.max():
+        ax.axvline(run.scales.k_lqc_mpc, color="tab:red", lw=0.8, ls="-.", label="$k_{LQC}$")
     ax.set_xlabel("k [Mpc$^{-1}$]")
     ax.set_ylabel("power spectrum")
     ax.set_title(f"{sp.prescription.replace('_', ' ')}, state {sp.state}")
@@ -91,6 +92,7 @@ def run(args) -> int:
                           "P_s": sp.scalar, "P_t": sp.tensor})
     fig = _figure(br, summary)
     result = {"pivot_summary": summary, "k_lqc_mpc": br.scales.k_lqc_mpc,
+              "log10_k_lqc_mpc": br.scales.ln_k_lqc_mpc / math.log(10),
               "n_star": br.scales.n_star, "n_bounce_to_pivot": br.scales.n_bounce_pivot,
               "prescription": sp.prescription, "state": sp.state,
               "sign_convention": sp.sign_convention,
@@ -110,7 +112,8 @@ def run(args) -> int:
         print(json.dumps(json_safe(result)))
     else:
         s = summary
-        print(f"k_LQC = {br.scales.k_lqc_mpc:.3g} Mpc^-1; N_* = {br.scales.n_star:.2f}, "
+        print(f"k_LQC = 10^{br.scales.ln_k_lqc_mpc / math.log(10):.2f} Mpc^-1; "
+              f"N_* = {br.scales.n_star:.2f}, "
               f"N_B* = {br.scales.n_bounce_pivot:.2f}")
         if "n_s" in s:
             print(f"pivot {s['pivot']:g} Mpc^-1: ln(1e10 A_s) = {s['ln_1e10_As']:.4f}, "

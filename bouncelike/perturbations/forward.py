@@ -109,10 +109,89 @@ def euclidean_growth_rate(tab: BackgroundTable) -> float:
     return float(2 * np.trapezoid(integrand, tab.t))
 
 
+def slow_roll_end(potential: Any, phi: float) -> float:
+    """Field value where epsilon_V = (V'/V)^2/(16 pi) = 1, rolling down from ``phi``."""
+    from scipy.optimize import brentq
+
+    s = math.copysign(1.0, float(potential.dV(phi)))
+
+    def eps(x):
+        return (float(potential.dV(x)) / float(potential.V(x))) ** 2 / (16 * math.pi) - 1.0
+
+    if eps(phi) >= 0:
+        raise InputError("slow roll: the field is not inflating at the integration cap")
+    prev, step, x = phi, 1e-3 * max(abs(phi), 1.0), phi
+    while eps(x) < 0:
+        prev = x
+        x -= s * step
+        step *= 1.5
+        if abs(x - phi) > 1e3:
+            raise InputError("slow roll: no end of inflation found along the potential")
+    return brentq(eps, prev, x)
+
+
+def slow_roll_efolds(potential: Any, phi: float, phi_end: float) -> float:
+    """N(phi) = 8 pi int_{phi_end}^{phi} V/V' dphi (Planck units)."""
+    from scipy.integrate import quad
+
+    return 8 * math.pi * quad(lambda y: float(potential.V(y)) / float(potential.dV(y)),
+                              phi_end, phi, limit=400)[0]
+
+
+def _beyond_cap(tab: BackgroundTable, potential: Any, opts: PerturbationOptions,
+                n_star: float | None, reheating, pivot: float, h0: float | None) -> BounceRun:
+    """Inflation outlasts the integration cap: window spectra of the slow-roll attractor."""
+    from scipy.optimize import brentq
+
+    if potential is None:
+        raise InputError("inflation does not end within the background: cannot place N_*")
+    phi_cap = float(tab.phi[-1])
+    phi_end = slow_roll_end(potential, phi_cap)
+    n_cap = slow_roll_efolds(potential, phi_cap, phi_end)
+    target = 95.0
+    if n_cap < target + 5:
+        raise InputError("inflation does not end within the background: cannot place N_*")
+    phi_x = brentq(lambda y: slow_roll_efolds(potential, y, phi_end) - target, phi_end, phi_cap)
+    v0 = -float(potential.dV(phi_x)) / math.sqrt(24 * math.pi * float(potential.V(phi_x)))
+    ctab = integrate_background(potential, math.inf, phi_x, v0)
+    if n_star is None:
+        n_star = liddle_leach_n_star(ctab, reheating[0], reheating[1], pivot, h0)
+    sm_c = scale_map(ctab, n_star, pivot)
+    lo, hi, n = WINDOW_GRID
+    k_mpc = np.geomspace(lo, hi, n)
+    kb = sm_c.to_bounce(k_mpc)
+    std = bounce_spectra(ctab, kb, prescription="dressed_metric", state="remote_past",
+                         sign_convention="classical", step=opts.step,
+                         adiabatic_ratio=opts.adiabatic_ratio, freeze=opts.freeze)
+    boost = math.exp(MAX_GROWTH_EXPONENT) if opts.prescription == "deformed_algebra" else 1.0
+    ln_a_end_classical = float(np.interp(ctab.t_inflation_end, ctab.t, ctab.ln_a))
+    n_b_star = float(tab.ln_a[-1] - tab.ln_a[tab.bounce_index()]) + n_cap - n_star
+    ln_k_lqc = (math.log(pivot) - n_b_star
+                - math.log(float(np.interp(ln_a_end_classical - n_star, ctab.ln_a, ctab.H))
+                           / math.sqrt(8 * math.pi * (tab.critical_density
+                                                      - tab.V[tab.bounce_index()]))))
+    sm = ScaleMap(n_star, n_b_star, pivot, ln_k_lqc - math.log(tab.k_lqc), ln_k_lqc, math.nan)
+    notes = [sm.bounce_scale_note(),
+             f"inflation outlasts the integration cap of {tab.ln_a[-1]:.0f} e-folds after the "
+             f"bounce; slow roll adds {n_cap:.0f} more, so N_B* ~ {n_b_star:.0f} and the window "
+             "spectra are those of the slow-roll attractor (modes started inside the Hubble "
+             "radius during inflation, bounce untouched)"]
+    if opts.prescription == "deformed_algebra":
+        notes.append("deformed algebra: every window mode lies so far above k_LQC that its "
+                     "Euclidean growth exceeds e^600; the power is given as the standard one x "
+                     "e^600, a lower bound")
+    spectrum = BounceSpectrum(kb, std.scalar * boost, std.tensor * boost, tab.k_lqc,
+                              opts.prescription, opts.state, std.sign_convention,
+                              std.scalar_modes, std.tensor_modes, std.notes, std.settings)
+    return BounceRun(ctab, spectrum, sm, k_mpc, tuple(notes))
+
+
 def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | None = None,
                reheating: tuple[float, float] | None = None, pivot: float = 0.05,
-               h0: float | None = None) -> BounceRun:
+               h0: float | None = None, potential: Any = None) -> BounceRun:
     """Spectra of one background in bounce units and in Mpc^-1."""
+    if not np.isfinite(tab.t_inflation_end):
+        return _beyond_cap(tab, potential, opts, n_star, reheating, pivot, h0)
     if n_star is None:
         if reheating is None:
             raise InputError("[reheating] needs n_star, or equation_of_state and density")
@@ -188,7 +267,7 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
     return BounceRun(tab, spectrum, sm, k_mpc[keep], tuple(notes))
 
 
-def _background(config: Table, past_density: float) -> tuple[BackgroundTable, list[str]]:
+def _background(config: Table, past_density: float) -> tuple[BackgroundTable, list[str], Any]:
     """Bounce state from the background layer's configuration, then our own dense table."""
     from ..background.setup import background_from_config  # lands with the engine
 
@@ -213,8 +292,9 @@ def _background(config: Table, past_density: float) -> tuple[BackgroundTable, li
                                  float(s["phidot"]))
         notes.append(f"bounce state taken from the {traj.dynamics} engine run "
                      f"(status {traj.status})")
-    tab = integrate_background(pot, rc, phi_b, phidot_b, past_density=past_density)
-    return tab, notes
+    tab = integrate_background(pot, rc, phi_b, phidot_b, past_density=past_density,
+                               max_efolds=3000.0)
+    return tab, notes, pot
 
 
 def bounce_spectra_from_config(config: Table) -> Any:
@@ -244,6 +324,6 @@ def run_from_config(config: Table) -> BounceRun:
     opts = PerturbationOptions.from_table(pt)
     rt = config.table("reheating", REHEATING_KEYS, required=True)
     n_star, reh, pivot, h0 = reheating_from_table(rt)
-    tab, notes = _background(config, opts.past_density)
-    run = run_bounce(tab, opts, n_star, reh, pivot, h0)
+    tab, notes, pot = _background(config, opts.past_density)
+    run = run_bounce(tab, opts, n_star, reh, pivot, h0, potential=pot)
     return BounceRun(run.table, run.spectrum, run.scales, run.k_mpc, (*run.notes, *notes))
