@@ -97,3 +97,20 @@ def test_plateau_beyond_cap_gives_slow_roll_window():
         assert "outlasts the integration cap" in run.notes[1]
         if presc == "deformed_algebra":
             assert s["ln_1e10_As"] > 500  # lower bound e^600 x standard: far beyond any data
+
+
+@pytest.mark.parametrize("name, verdict", [("bounce_dressed_metric", "allowed"),
+                                           ("bounce_deformed_algebra", "excluded")])
+def test_examples_score(name, verdict):
+    # full configuration: background layer setup -> modes -> spectra -> likelihood
+    pytest.importorskip("bouncelike.background.setup")
+    from pathlib import Path
+
+    from bouncelike.config import load_run_config
+    from bouncelike.likelihood.gaussian import likelihood_from_config
+    from bouncelike.models import spectra_from_config
+
+    cfg = load_run_config(Path(__file__).resolve().parents[1] / "examples" / f"{name}.toml")
+    spectra = spectra_from_config(cfg)
+    assert any("bounce scale k_LQC" in n for n in spectra.notes)
+    assert likelihood_from_config(cfg).score(spectra).verdict == verdict
