@@ -251,6 +251,13 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
                          " k_LQC were started inside the Hubble radius during inflation "
                          "(adiabatic vacuum; the bounce leaves them untouched)")
     kb = np.exp(np.minimum(ln_kb, 700))
+    ad = np.concatenate([sp.scalar_modes.start_adiabaticity, sp.tensor_modes.start_adiabaticity])
+    ad = ad[np.isfinite(ad)]
+    if opts.state == "remote_past" and len(ad):
+        notes.append(f"remote-past state set at rho = {opts.past_density:g} (Planck units): "
+                     f"background rate / mode frequency <= {ad.max():.2g} there")
+    notes.append(f"Wronskian conserved to {sp.max_wronskian_error:.1e} (relative to its "
+                 "round-off floor)")
     notes = [sm.bounce_scale_note(), *sp.notes, *notes]
     if opts.prescription == "deformed_algebra":
         notes.append("deformed-algebra scalars: regular variables (R, s = p - k^2 g R) near "
