@@ -224,6 +224,22 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
     ftab = tab.section(0, min(i_cut, len(tab.t) - 1))
     sp = bounce_spectra(ftab, np.exp(ln_kb[through]), prescription=opts.prescription, **kw)
     scal[through], tens[through] = sp.scalar, sp.tensor
+    if opts.prescription == "dressed_metric":
+        # show what the sign ambiguity of the regular potential does (physics notes s.4)
+        other = "classical" if opts.sign_convention == "published" else "published"
+        from .modes import ModeSolver
+        from .prescriptions import mode_system
+        from .states import make_state
+
+        alt = ModeSolver(mode_system(ftab, "scalar", opts.prescription, other,
+                                     opts.switch_density), step=opts.step,
+                         adiabatic_ratio=opts.adiabatic_ratio, freeze=opts.freeze).solve(
+            np.exp(ln_kb[through]), make_state(opts.state, bog))
+        dev = np.abs(alt.power / sp.scalar - 1)
+        j = int(np.argmax(dev))
+        notes.append(f"sign convention: '{other}' instead of '{opts.sign_convention}' changes "
+                     f"P_s by up to {dev[j]:.2%} (at k = {np.exp(ln_kb[through][j]) / k_lqc:.3g}"
+                     " k_LQC); tensors do not depend on it")
     late = ~through
     if late.any():
         # far-ultraviolet modes: started late inside the Hubble radius during inflation on a
