@@ -59,7 +59,7 @@ def test_spectrum_command_writes_outputs(tmp_path, monkeypatch, capsys):
 
     tab = bounce_background()
     run = run_bounce(tab, PerturbationOptions(k_count=24), n_star=55.0)
-    monkeypatch.setattr(forward, "run_from_config", lambda config: run)
+    monkeypatch.setattr(forward, "run_from_config", lambda config, show_progress=False: run)
     cfg = tmp_path / "b.toml"
     cfg.write_text('[model]\nspectra = "bounce"\n')
     code = cli.main(["spectrum", str(cfg), "--output", str(tmp_path / "out"), "--json",
@@ -116,3 +116,17 @@ def test_examples_score(name, verdict):
     spectra = spectra_from_config(cfg)
     assert any("bounce scale k_LQC" in n for n in spectra.notes)
     assert likelihood_from_config(cfg).score(spectra).verdict == verdict
+
+
+def test_spectrum_command_bad_input_exits_2(tmp_path, capsys):
+    from bouncelike import cli
+
+    cfg = tmp_path / "bad.toml"
+    cfg.write_text('[model]\nspectra = "bounce"\n[perturbations]\nprescription = "other"\n')
+    assert cli.main(["spectrum", str(cfg), "--output", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert "perturbations.prescription" in err and len(err.strip().splitlines()) == 1
+    assert not (tmp_path / "o").exists()
+    cfg.write_text('[model]\nspectra = "bounce"\n')
+    assert cli.main(["spectrum", str(cfg), "--output", str(tmp_path / "o")]) == 2
+    assert "reheating" in capsys.readouterr().err

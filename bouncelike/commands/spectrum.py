@@ -21,7 +21,7 @@ def add_arguments(parser) -> None:
     parser.add_argument("--output", default=None, help="output folder "
                         "(default bouncelike-out/<config stem>/)")
     parser.add_argument("--json", action="store_true", help="print the summary as JSON")
-    parser.add_argument("--quiet", action="store_true", help="no progress messages")
+    parser.add_argument("--quiet", action="store_true", help="no progress bar")
 
 
 def pivot_summary(k: np.ndarray, ps: np.ndarray, pt: np.ndarray, pivot: float,
@@ -80,11 +80,7 @@ def run(args) -> int:
     from ..perturbations.forward import run_from_config
 
     config = load_run_config(args.config)
-    if not args.quiet:
-        import sys
-
-        print("bouncelike spectrum: evolving background and modes ...", file=sys.stderr)
-    br = run_from_config(config)
+    br = run_from_config(config, show_progress=not args.quiet)
     sp = br.spectrum
     summary = pivot_summary(br.k_mpc, sp.scalar, sp.tensor, br.scales.pivot)
     out = Path(args.output) if args.output else Path("bouncelike-out") / Path(args.config).stem

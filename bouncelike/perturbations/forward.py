@@ -188,7 +188,8 @@ def _beyond_cap(tab: BackgroundTable, potential: Any, opts: PerturbationOptions,
 
 def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | None = None,
                reheating: tuple[float, float] | None = None, pivot: float = 0.05,
-               h0: float | None = None, potential: Any = None) -> BounceRun:
+               h0: float | None = None, potential: Any = None,
+               show_progress: bool = False) -> BounceRun:
     """Spectra of one background in bounce units and in Mpc^-1."""
     if not np.isfinite(tab.t_inflation_end):
         return _beyond_cap(tab, potential, opts, n_star, reheating, pivot, h0)
@@ -222,7 +223,8 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
     cut = np.nonzero(ln_aH[i_infl:] >= ln_kb[through].max() - math.log(opts.freeze) + 1)[0]
     i_cut = i_infl + int(cut[0]) + 1 if len(cut) else len(tab.t) - 1
     ftab = tab.section(0, min(i_cut, len(tab.t) - 1))
-    sp = bounce_spectra(ftab, np.exp(ln_kb[through]), prescription=opts.prescription, **kw)
+    sp = bounce_spectra(ftab, np.exp(ln_kb[through]), prescription=opts.prescription,
+                        show_progress=show_progress, **kw)
     scal[through], tens[through] = sp.scalar, sp.tensor
     if opts.prescription == "dressed_metric":
         # show what the sign ambiguity of the regular potential does (physics notes s.4)
@@ -342,11 +344,12 @@ def reheating_from_table(t: Table) -> tuple[float | None, tuple[float, float] | 
     raise InputError("[reheating] needs n_star, or equation_of_state and density")
 
 
-def run_from_config(config: Table) -> BounceRun:
+def run_from_config(config: Table, show_progress: bool = False) -> BounceRun:
     pt = config.table("perturbations", PERTURBATION_KEYS)
     opts = PerturbationOptions.from_table(pt)
     rt = config.table("reheating", REHEATING_KEYS, required=True)
     n_star, reh, pivot, h0 = reheating_from_table(rt)
     tab, notes, pot = _background(config, opts.past_density)
-    run = run_bounce(tab, opts, n_star, reh, pivot, h0, potential=pot)
+    run = run_bounce(tab, opts, n_star, reh, pivot, h0, potential=pot,
+                     show_progress=show_progress)
     return BounceRun(run.table, run.spectrum, run.scales, run.k_mpc, (*run.notes, *notes))

@@ -250,7 +250,8 @@ class ModeSolver:
                 if b > a and phase[b] - phase[a] > self.min_jump_phase]
 
     # -- solving -------------------------------------------------------------------------------
-    def solve(self, ks: np.ndarray, initial, max_steps: int = 50_000_000) -> ModeResult:
+    def solve(self, ks: np.ndarray, initial, max_steps: int = 50_000_000,
+              bar=None) -> ModeResult:
         """Evolve every k from the state given by ``initial(solver, k) -> (i0, x, pi, adiab)``."""
         ks = np.asarray(ks, dtype=float)
         nk = len(ks)
@@ -312,6 +313,8 @@ class ModeSolver:
             power[m] = k**3 * form.amp[i_end] * abs(x) ** 2
             t_end[m] = self.t[i_end]
             x_end[m] = x
+            if bar is not None:
+                bar.update(1)
         return ModeResult(ks, power, frozen, werr, wscale, steps, jumped, t_end, x_end, adiab,
                           self.system.description,
                           {"step": self.step, "adiabatic_ratio": self.adiabatic_ratio,

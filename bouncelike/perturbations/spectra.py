@@ -48,14 +48,18 @@ def bounce_spectra(table: BackgroundTable, k: np.ndarray, *, prescription: str =
                    state: str = "remote_past", sign_convention: str = "published",
                    bogoliubov: Bogoliubov | None = None, step: float = 0.08,
                    adiabatic_ratio: float = 40.0, freeze: float = 1e-3,
-                   switch_density: float = 1e-4) -> BounceSpectrum:
+                   switch_density: float = 1e-4, show_progress: bool = False) -> BounceSpectrum:
     """Scalar and tensor spectra at the wavenumbers ``k`` (bounce units, a_B = 1)."""
     k = np.asarray(k, dtype=float)
     init = make_state(state, bogoliubov)
     kw = {"step": step, "adiabatic_ratio": adiabatic_ratio, "freeze": freeze}
-    tens = ModeSolver(mode_system(table, "tensor", prescription), **kw).solve(k, init)
+    from ..progress import progress
+
+    bar = progress(total=2 * len(k), desc="modes", enabled=show_progress)
+    tens = ModeSolver(mode_system(table, "tensor", prescription), **kw).solve(k, init, bar=bar)
     ssys = mode_system(table, "scalar", prescription, sign_convention, switch_density)
-    scal = ModeSolver(ssys, **kw).solve(k, init)
+    scal = ModeSolver(ssys, **kw).solve(k, init, bar=bar)
+    bar.close()
     notes = [tens.description, scal.description]
     nf = int((~scal.frozen).sum() + (~tens.frozen).sum())
     if nf:
