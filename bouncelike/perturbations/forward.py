@@ -297,6 +297,11 @@ def _background(config: Table, past_density: float) -> tuple[BackgroundTable, li
     from ..background.setup import background_from_config  # lands with the engine
 
     setup = background_from_config(config)
+    name = getattr(setup.dynamics, "NAME", "")
+    if name != "isotropic":
+        raise InputError(f"background.dynamics = '{name}' is not supported by the bounce spectra "
+                         "model; allowed: isotropic (modes live on the isotropic effective "
+                         "background)")
     pot = setup.potential
     rc = float(setup.dynamics.critical_density)
     notes = []
