@@ -28,6 +28,11 @@ Initial data (:mod:`bouncelike.background.initial`):
   (2013) 123509 (x = m phi / sqrt(2 rho_c) = sqrt(rho/rho_c) sin(delta)).
 * ``ClassicalStart(phi, phidot)``: general relativity (1/rho_c = 0), expanding, no bounce.
 
+Inflation is the longest accelerated (addot > 0), potential-dominated phase after the bounce:
+the run continues after an end of inflation until the field has passed twice through the
+minimum phi = 0 (see :func:`bouncelike.background.kernels.integrate`), so a brief acceleration
+while the field turns on a steep wall does not hide the plateau inflation that follows.
+
 ln a = 0 and t = 0 at the start. Custom (Python) potentials are integrated by the same algorithm
 run as plain Python, about a hundred times slower; the result message says so.
 """
@@ -203,12 +208,17 @@ class IsotropicDynamics:
             return y0, mode, -1.0, inv, False
         if isinstance(initial, ClassicalStart):
             y0 = np.array([0.0, float(initial.phi), float(initial.phidot), 0.0])
+            if not 0.5 * y0[2] ** 2 + float(potential.V(y0[1])) > 0:
+                raise InputError(
+                    "'background.classical.phi' and 'background.classical.phidot' give zero "
+                    "energy density; allowed: a state with rho > 0"
+                )
             return y0, 0, 1.0, 0.0, True
         raise InputError(f"unknown initial data {type(initial).__name__}")
 
     # -- running ----------------------------------------------------------------------------
     def _run(self, potential: Any, initial: Any, settings: IntegrationSettings,
-             store: bool) -> tuple[np.ndarray, np.ndarray, int, str]:
+             store: bool, substeps: int = 0) -> tuple[np.ndarray, np.ndarray, int, str]:
         y0, mode, s, inv, bounced = self.initial_state(potential, initial)
         kind, params = potential.kernel
         module, engine = K, "compiled"
@@ -218,7 +228,7 @@ class IsotropicDynamics:
             int(kind), np.asarray(params, dtype=float), y0, int(mode), float(s), float(inv),
             bool(bounced), float(settings.rtol), float(settings.atol),
             float(settings.max_inflation_efolds), float(settings.max_time), int(MAX_STEPS),
-            bool(store),
+            bool(store), int(substeps),
         )
         return summary, rec, int(n), engine
 
@@ -232,10 +242,17 @@ class IsotropicDynamics:
                settings: IntegrationSettings | None = None) -> BackgroundTrajectory:
         """Evolve one initial datum; physical outcomes are statuses, never exceptions."""
         settings = settings or IntegrationSettings()
-        summary, rec, n, engine = self._run(potential, initial, settings, store=True)
+        substeps = 0
+        if settings.dense_points > 0:
+            # a first pass counts the steps; the second records points inside each step from
+            # the integrator's 7th-order continuous extension to reach ``dense_points``
+            steps = int(self._run(potential, initial, settings, store=False)[0][K.S_STEPS])
+            substeps = int(min(50, max(0, math.ceil(settings.dense_points / max(steps, 1)) - 1)))
+        summary, rec, n, engine = self._run(potential, initial, settings, store=True,
+                                            substeps=substeps)
         classical = isinstance(initial, ClassicalStart)
         rho_c = math.inf if classical else self.critical_density
-        arrays = _dense(rec[:n], potential, rho_c, settings.dense_points)
+        arrays = _dense(rec[:n], potential)
         events, efolds = events_and_efolds(summary)
         status = "no_bounce" if classical else STATUS_NAMES[int(summary[K.S_STATUS])]
         message = describe_outcome(summary, classical, engine)
@@ -254,6 +271,7 @@ class IsotropicDynamics:
                 "rejected_steps": int(summary[K.S_REJECTED]),
                 "rhs_evaluations": int(summary[K.S_RHS]),
                 "stop_reason": REASONS[int(summary[K.S_REASON])],
+                "accelerated_phases": int(summary[K.S_N_PHASES]),
                 "phi_bounce": float(summary[K.S_PHI_BOUNCE]),
                 "phidot_bounce": float(summary[K.S_PHIDOT_BOUNCE]),
             },
@@ -319,33 +337,14 @@ def describe_outcome(summary: np.ndarray, classical: bool, engine: str) -> str:
     return "; ".join(parts)
 
 
-def _dense(rec: np.ndarray, potential: Any, rho_c: float, dense_points: int) -> dict:
-    """Trajectory arrays from the recorded steps, refined by Hermite interpolation if asked."""
+def _dense(rec: np.ndarray, potential: Any) -> dict:
+    """Trajectory arrays from the recorded points, in time order, one record per time."""
+    rec = rec[np.argsort(rec[:, 0], kind="stable")]
     # keep the last record of repeated times (a mode switch records the state twice)
     t = rec[:, 0]
     keep = np.ones(len(t), dtype=bool)
     keep[:-1] = t[1:] > t[:-1]
-    rec = rec[keep]
-    t, lna, H, Hdot, phi, phidot, phiddot = rec.T
-    if dense_points and len(t) >= 2 and len(t) < dense_points:
-        u = np.union1d(np.arange(len(t), dtype=float), np.linspace(0, len(t) - 1, dense_points))
-        i = np.clip(np.floor(u).astype(int), 0, len(t) - 2)
-        s = u - i
-        h = t[i + 1] - t[i]
-
-        def herm(y: np.ndarray, d: np.ndarray) -> np.ndarray:
-            h00 = (1 + 2 * s) * (1 - s) ** 2
-            h10 = s * (1 - s) ** 2
-            h01 = s**2 * (3 - 2 * s)
-            h11 = s**2 * (s - 1)
-            return h00 * y[i] + h10 * h * d[i] + h01 * y[i + 1] + h11 * h * d[i + 1]
-
-        t_new = t[i] + s * h
-        lna, H, phi, phidot = herm(lna, H), herm(H, Hdot), herm(phi, phidot), herm(phidot, phiddot)
-        t = t_new
-        rho = 0.5 * phidot**2 + potential.V(phi)
-        Hdot = raychaudhuri(phidot, rho, rho_c)
-        phiddot = -3.0 * H * phidot - potential.dV(phi)
+    t, lna, H, Hdot, phi, phidot, phiddot = rec[keep].T
     V = potential.V(phi)
     kinetic = 0.5 * phidot**2
     rho = kinetic + V

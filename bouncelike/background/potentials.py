@@ -137,7 +137,9 @@ class Starobinsky:
             if r >= 1.0:
                 raise InputError(
                     f"the Starobinsky plateau V_inf = {self.plateau:.4g} is below the requested "
-                    f"potential energy {value:.4g}; lower the density or raise 'potential.mass'"
+                    f"potential energy {value:.4g} on the plateau side (phi > 0); allowed: "
+                    "V < V_inf there (lower the density or bounce potential fraction, or raise "
+                    "'potential.mass')"
                 )
             return -math.log1p(-r) / STAROBINSKY_SLOPE
         return -math.log1p(r) / STAROBINSKY_SLOPE
