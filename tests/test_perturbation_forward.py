@@ -130,3 +130,23 @@ def test_spectrum_command_bad_input_exits_2(tmp_path, capsys):
     cfg.write_text('[model]\nspectra = "bounce"\n')
     assert cli.main(["spectrum", str(cfg), "--output", str(tmp_path / "o")]) == 2
     assert "reheating" in capsys.readouterr().err
+
+
+def test_contracting_start_on_negative_branch_gives_slow_roll(tmp_path):
+    # A contracting start lands on the phi < 0 side (phidot H > 0 during inflation): both sign
+    # conventions must treat inflation classically, n_s = 1 - 2/(N + 1/2), r = 8/(N + 1/2)
+    # (Encyclopaedia Inflationaris, arXiv:1303.3787) with the bounce far below the window.
+    from bouncelike.commands.spectrum import pivot_summary
+    from bouncelike.config import load_run_config
+    from bouncelike.perturbations.forward import run_from_config
+
+    cfg = tmp_path / "c.toml"
+    cfg.write_text('[model]\nspectra = "bounce"\n[potential]\nname = "quadratic"\n'
+                   'mass = 1.2e-6\n[background]\ndynamics = "isotropic"\nstart = "contracting"\n'
+                   '[background.contracting]\ndensity = 1e-14\nphase = 1.0\n'
+                   '[perturbations]\nk_count = 16\n[reheating]\nn_star = 55.0\n')
+    run = run_from_config(load_run_config(cfg))
+    assert run.table.phi[-1] < 0
+    s = pivot_summary(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor, 0.05)
+    assert s["n_s"] == pytest.approx(1 - 2 / 55.5, abs=1.5e-3)
+    assert s["r"] == pytest.approx(8 / 55.5, rel=0.02)

@@ -26,8 +26,11 @@ Forms (Omega = 1 - 2 rho/rho_c)
   CQG 30 (2013) 085014; Agullo & Morris, PRD 92 (2015) 124040). Since v'' = -(k^2 - a''/a +
   a^2 U) v, (a^2 Q')' = -(k^2 + a^2 U) a^2 Q exactly: no a''/a is needed. amp = (H/phidot)^2
   /(2 pi^2) (P_R = k^3/(2 pi^2) (H/phidot)^2 |Q|^2).
-  ``sign_convention``: "published" takes s = -1 everywhere (the form as printed, right where
-  phidot H < 0); "classical" takes s = sign(phidot H), which reproduces the classical
+  ``sign_convention``: "published" holds s fixed through the whole evolution at its value in
+  the slow-roll phase, sign(phidot H) at the end of inflation: that is the printed s = -1 for
+  the printed orientation (field rolling down phi > 0 with phidot < 0 after the bounce) and its
+  mirror image phi -> -phi otherwise, so that inflation itself is always treated classically;
+  "classical" takes s = sign(phidot H) at every instant, which reproduces the classical
   z''/z = a''/a - a^2 U with z = a phidot/H away from the bounce (physics notes s.4). The two
   differ only where V_phi != 0 and phidot H > 0 (for a field thrown up its potential after the
   bounce, or in the contracting branch).
@@ -91,12 +94,23 @@ class ModeSystem:
     extras: dict = field(default_factory=dict)
 
 
+def _slow_roll_orientation(tab: BackgroundTable) -> float:
+    """sign(phidot H) during inflation: at the end of inflation, else at the last node."""
+    if np.isfinite(tab.t_inflation_end):
+        i = int(np.argmin(np.abs(tab.t - tab.t_inflation_end)))
+    else:
+        i = len(tab.t) - 1
+    while i > 0 and tab.phidot[i] * tab.H[i] == 0:
+        i -= 1
+    return float(np.sign(tab.phidot[i] * tab.H[i])) or -1.0
+
+
 def bounce_potential(tab: BackgroundTable, sign_convention: str) -> np.ndarray:
     """U = f V + 2 s sqrt(f) V_phi + V_phiphi, f = 24 pi phidot^2/rho (AAN 2013)."""
     rho = tab.rho
     f = 24 * math.pi * tab.phidot**2 / rho
     if sign_convention == "published":
-        s = -np.ones_like(f)
+        s = np.full_like(f, _slow_roll_orientation(tab))
     elif sign_convention == "classical":
         s = np.sign(tab.phidot * tab.H)
     else:
