@@ -9,7 +9,8 @@ background to < 1e-3; between ~3 and 10 k_LQC to ~5-9%; below ~3 k_LQC the oscil
 are set by the conformal time between the bounce and the onset of inflation, i.e. by the bounce
 field value and the mass, and no function of x alone reproduces them (O(1) differences).
 ``x_certified`` is the smallest x above which the spread of T across the sample backgrounds stays
-within ``tolerance``; the fast model flags any window reaching below it.
+within ``tolerance`` (0.5%, half the 1% target); the fast model flags any window reaching below
+it.
 
 :class:`BounceSpectraModel` evaluates a power law times T in well under a millisecond.
 """
@@ -108,7 +109,12 @@ def exact_transfer(mass: float, phi_b: float, prescription: str, state: str,
 
 
 def build_transfer(prescription: str = "dressed_metric", state: str = "remote_past",
-                   tolerance: float = 0.01) -> TransferTable:
+                   tolerance: float = 0.005) -> TransferTable:
+    """Average T over the sample; certify where the sample spread stays below ``tolerance``.
+
+    The spread threshold (0.5%) is half the 1% target so that backgrounds outside the sample
+    (the random points of :func:`certificate`) stay within the target.
+    """
     rows = [exact_transfer(m, f, prescription, state) for m in SAMPLE_MASSES
             for f in SAMPLE_BOUNCE_FIELDS]
     ls = np.array([r[0] for r in rows])
@@ -198,6 +204,6 @@ def certificate(n_points: int = 4, seed: int = 0, prescription: str = "dressed_m
         worst_cert, worst_unc = max(worst_cert, ec), max(worst_unc, eu)
         points.append({"mass": m, "phi_b": phi_b, "x_min": lo, "max_error_certified": ec,
                        "max_error_uncertified": eu})
-    return {"x_certified": tab.x_certified, "tolerance": tab.tolerance,
+    return {"x_certified": tab.x_certified, "tolerance": 0.01, "spread_threshold": tab.tolerance,
             "max_error_certified": worst_cert, "max_error_uncertified": worst_unc,
             "points": points}
