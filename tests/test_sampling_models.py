@@ -194,3 +194,26 @@ def test_bounce_dressed_metric_model_and_short_run(tmp_path, capsys):
     score = lk.from_names(["planck2018_base"]).score(m.spectra(dict(p, log10_k_lqc=-1.0)))
     assert score.verdict == "excluded"
     assert (tmp_path / "chains" / "bounce" / "report" / "efolds.png").is_file()
+
+
+def test_featured_spectrum_not_represented_by_summary_is_not_scored():
+    pytest.importorskip("bouncelike.perturbations.transfer",
+                        reason="bounce transfer model not built")
+    from bouncelike.likelihood.gaussian import GaussianLikelihood
+    from bouncelike.sampling.driver import NOT_REPRESENTED, ModelPosterior, failure_code
+    from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior
+
+    m = parametric_model("bounce_dressed_metric")
+    prior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric.toml", m.parameter_names,
+                       m.derived_names)
+    lk = GaussianLikelihood.from_names(["planck2018_base", "bk18"])
+    theta = np.array([3.044, 0.965, 0.01, -1.0])  # bounce scale inside the window: features
+    params = prior.full_parameters(theta)
+    assert not all(s.fit_ok for s in lk.summaries(m.spectra(params)))
+    strict = ModelPosterior(prior, m, lk)(theta)
+    assert strict[0] == -np.inf and strict[-1] == failure_code(
+        "NumericalFailure: " + NOT_REPRESENTED)
+    loose = ModelPosterior(prior, m, lk, require_summary_fit=False)(theta)
+    assert np.isfinite(loose[0]) and loose[-1] == 0.0
+    smooth = np.array([3.044, 0.965, 0.01, -6.0])  # far below the window: a power law there
+    assert np.isfinite(ModelPosterior(prior, m, lk)(smooth)[0])

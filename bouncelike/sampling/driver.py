@@ -59,6 +59,9 @@ def failure_code(text: str) -> float:
 
 
 NONFINITE = "non-finite log-likelihood"
+NOT_REPRESENTED = ("spectrum not represented by the pivot summary (the cubic in ln k fitted "
+                   "around a pivot misses ln P by more than the likelihood's tolerance): not "
+                   "scored")
 
 
 class Posterior:
@@ -117,15 +120,31 @@ class Posterior:
 
 class ModelPosterior(Posterior):
     """Posterior of a parametric model (:mod:`bouncelike.sampling.parametric`) scored by a
-    likelihood object with ``.log_likelihood(spectra)`` (:mod:`bouncelike.likelihood`)."""
+    likelihood object with ``.log_likelihood(spectra)`` (:mod:`bouncelike.likelihood`).
 
-    def __init__(self, prior: Prior, model: Any, likelihood: Any):
+    ``require_summary_fit``: the Gaussian likelihood scores the amplitude, tilt, running and r
+    of a cubic in ln k fitted around each pivot. A featured spectrum (bounce features in the
+    window) that this cubic does not represent within the likelihood's tolerance cannot be
+    scored faithfully; with this flag such a point gets log-likelihood -inf and its reason is
+    counted ("not represented by the pivot summary"), instead of a verdict computed from
+    numbers that do not describe it. Spectra with an exact re-expansion (power laws) always
+    pass.
+    """
+
+    def __init__(self, prior: Prior, model: Any, likelihood: Any,
+                 require_summary_fit: bool = True):
         self.model = model
         self.likelihood = likelihood
+        self.require_summary_fit = require_summary_fit
         super().__init__(prior, self._log_likelihood, model.derived)
 
     def _log_likelihood(self, params: dict[str, float]) -> float:
-        return self.likelihood.log_likelihood(self.model.spectra(params))
+        spectra = self.model.spectra(params)
+        if self.require_summary_fit and not hasattr(spectra, "summary_at"):
+            for s in self.likelihood.summaries(spectra):
+                if not s.fit_ok:
+                    raise NumericalFailure(NOT_REPRESENTED)
+        return self.likelihood.log_likelihood(spectra)
 
 
 @dataclass(frozen=True)
@@ -357,9 +376,11 @@ def _fresh_start(posterior: Posterior, settings: SamplerSettings, cpool: Countin
         lp[bad], blobs[bad] = _evaluate(cpool, posterior, p0[bad])
     if not np.all(np.isfinite(lp)):
         reasons = "; ".join(sorted(set(cpool.texts.values()))) or "zero posterior density"
+        hint = (" or set sampling.require_summary_fit = false to score featured spectra by "
+                "their pivot summary anyway" if NOT_REPRESENTED in reasons else "")
         raise InputError(f"could not place {int((~np.isfinite(lp)).sum())} walkers where the "
                          f"posterior is non-zero after 50 draws from the prior ({reasons}); "
-                         "check the prior ranges")
+                         f"check the prior ranges{hint}")
     seed32 = int(rng.integers(0, 2**32 - 1))
     ndim, nb = prior.ndim, len(posterior.blob_names)
     return chains.Checkpoint(

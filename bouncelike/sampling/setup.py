@@ -18,6 +18,8 @@ The ``[sampling]`` section::
                                  # working directory
     workers = 1                  # local worker processes (MPI ranks under mpiexec)
     progress = true
+    require_summary_fit = true   # featured spectra the pivot summary cannot represent get
+                                 # log-likelihood -inf (counted), see ModelPosterior
 
 The likelihood comes from ``[likelihood]`` (:func:`bouncelike.likelihood.gaussian.
 likelihood_from_config`). ``[report]`` is read by :mod:`bouncelike.reporting.report`.
@@ -41,7 +43,7 @@ from .priors import Prior, load_prior, prior_from_text, resolve_prior_path
 
 SAMPLING_KEYS = ("prior", "model", "walkers", "max_steps", "min_steps", "tau_multiple",
                  "tau_tolerance", "checkpoint_every", "seed", "run_name", "chains_dir",
-                 "workers", "progress")
+                 "workers", "progress", "require_summary_fit")
 
 
 @dataclass
@@ -116,10 +118,12 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
 
     report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
     likelihood = likelihood_of(config, base)
-    posterior = ModelPosterior(prior, model, likelihood)
+    require_fit = t.boolean("require_summary_fit", True)
+    posterior = ModelPosterior(prior, model, likelihood, require_fit)
     folder = Path(output) if output is not None else chains_dir / run_name
-    fingerprint = _fingerprint(prior.text, model_name, config.data.get("likelihood", {}),
-                               settings)
+    fingerprint = _fingerprint(prior.text, model_name,
+                               {"likelihood": config.data.get("likelihood", {}),
+                                "require_summary_fit": require_fit}, settings)
     manifest = {
         "format": "bouncelike posterior run, version 1",
         "run_name": folder.name,
@@ -134,6 +138,7 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
         "sampler": {"library": "emcee", "moves": "affine-invariant stretch move (a = 2)",
                     "settings": {**settings.fingerprint_items(),
                                  "max_steps": settings.max_steps}},
+        "require_summary_fit": require_fit,
         "tolerances": {
             "tau_multiple": settings.tau_multiple, "tau_tolerance": settings.tau_tolerance,
             "autocorrelation_window_c": 5,
@@ -162,7 +167,8 @@ def rebuild_from_manifest(manifest: dict[str, Any]) -> tuple[Prior, Any, Any, Mo
 
     report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
     likelihood = likelihood_of(config, base)
-    return prior, model, likelihood, ModelPosterior(prior, model, likelihood)
+    require_fit = bool(manifest.get("require_summary_fit", True))
+    return prior, model, likelihood, ModelPosterior(prior, model, likelihood, require_fit)
 
 
 def _fingerprint(prior_text: str, model: str, likelihood: Any, s: SamplerSettings) -> str:
