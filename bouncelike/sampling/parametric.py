@@ -15,6 +15,10 @@ and MPI ranks). A failure of the forward model raises
 parameter outside the model's domain); the driver turns it into a log-likelihood of -inf and
 counts the reason.
 
+Optional: ``optional_parameter_names`` (parameters a prior may leave out) and
+``check_prior(names)`` (raises InputError unless the given parameter names form a valid
+choice), as the physical bounce models (:mod:`bouncelike.sampling.bounce_physical`) use them.
+
 Registering a model: add ``name -> "module:factory"`` to :data:`PARAMETRIC_MODELS`, where
 ``factory()`` returns the model object, and ship a prior file naming it in ``priors/``. The
 bounce models wrap the perturbations package's fast evaluator (``BounceSpectraModel``: a power
@@ -214,7 +218,28 @@ PARAMETRIC_MODELS: dict[str, str] = {
     "slow_roll_starobinsky": "bouncelike.sampling.parametric:StarobinskySlowRoll",
     "bounce_dressed_metric": "bouncelike.sampling.parametric:BounceDressedMetric",
     "bounce_deformed_algebra": "bouncelike.sampling.parametric:BounceDeformedAlgebra",
+    "bounce_physical_dressed_metric":
+        "bouncelike.sampling.bounce_physical:PhysicalBounceDressedMetric",
+    "bounce_physical_deformed_algebra":
+        "bouncelike.sampling.bounce_physical:PhysicalBounceDeformedAlgebra",
 }
+
+
+def model_prior(model: Any, path: Any) -> Any:
+    """Load and validate the prior file ``path`` for ``model`` (its optional parameters and
+    its own check included)."""
+    from .priors import load_prior
+
+    prior = load_prior(path, model.parameter_names, model.derived_names,
+                       optional_parameters=getattr(model, "optional_parameter_names", ()))
+    check_model_prior(model, prior)
+    return prior
+
+
+def check_model_prior(model: Any, prior: Any) -> None:
+    check = getattr(model, "check_prior", None)
+    if check is not None:
+        check(tuple(p.name for p in prior.parameters if p.role != "derived"))
 
 
 def parametric_model(name: str) -> Any:

@@ -264,7 +264,8 @@ def resolve_prior_path(name: str, base: Path | None = None) -> Path:
 
 
 def load_prior(path: str | Path, model_parameters: tuple[str, ...] | None = None,
-               derived_parameters: tuple[str, ...] | None = None) -> Prior:
+               derived_parameters: tuple[str, ...] | None = None,
+               optional_parameters: tuple[str, ...] = ()) -> Prior:
     """Read and validate a prior file.
 
     Parameters
@@ -273,11 +274,12 @@ def load_prior(path: str | Path, model_parameters: tuple[str, ...] | None = None
     model_parameters : when given, every sampled or fixed parameter must be one of these and
         each of them must appear in the file.
     derived_parameters : when given, every derived parameter must be one of these.
+    optional_parameters : model parameters the file may leave out.
     """
     path = Path(path)
     data = read_toml(path, "prior file")
     return parse_prior(data, str(path), path.read_text(encoding="utf-8"), model_parameters,
-                       derived_parameters)
+                       derived_parameters, optional_parameters)
 
 
 def prior_from_text(text: str, source: str = "<text>", **kw: Any) -> Prior:
@@ -291,7 +293,8 @@ def prior_from_text(text: str, source: str = "<text>", **kw: Any) -> Prior:
 
 def parse_prior(data: dict[str, Any], source: str, text: str = "",
                 model_parameters: tuple[str, ...] | None = None,
-                derived_parameters: tuple[str, ...] | None = None) -> Prior:
+                derived_parameters: tuple[str, ...] | None = None,
+                optional_parameters: tuple[str, ...] = ()) -> Prior:
     """Validate the parsed contents of a prior file."""
     path = source
     top = Table(data, "", ("prior", "parameters"))
@@ -319,7 +322,7 @@ def parse_prior(data: dict[str, Any], source: str, text: str = "",
                     f"{', '.join(model_parameters)}")
         given = {p.name for p in params}
         for n in model_parameters:
-            if n not in given:
+            if n not in given and n not in optional_parameters:
                 raise InputError(f"missing table '[parameters.{n}]' (model '{model}' needs "
                                  "it: give role = 'sampled' or 'fixed')")
     if derived_parameters is not None:

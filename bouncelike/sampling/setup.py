@@ -38,8 +38,8 @@ from .. import __version__
 from ..config import Table, load_run_config, read_toml
 from ..errors import InputError
 from .driver import ModelPosterior, SamplerSettings
-from .parametric import PARAMETRIC_MODELS, parametric_model
-from .priors import Prior, load_prior, prior_from_text, resolve_prior_path
+from .parametric import PARAMETRIC_MODELS, check_model_prior, model_prior, parametric_model
+from .priors import Prior, prior_from_text, resolve_prior_path
 
 SAMPLING_KEYS = ("prior", "model", "walkers", "max_steps", "min_steps", "tau_multiple",
                  "tau_tolerance", "checkpoint_every", "seed", "run_name", "chains_dir",
@@ -110,7 +110,7 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
         raise InputError(f"'sampling.model' = '{model_name}' but prior file '{prior_path}' is "
                          f"for model '{head_model}'")
     model = parametric_model(model_name)
-    prior = load_prior(prior_path, model.parameter_names, model.derived_names)
+    prior = model_prior(model, prior_path)
     if settings.walkers < 2 * prior.ndim:
         raise InputError(f"'sampling.walkers' = {settings.walkers} is too small; allowed: >= "
                          f"{2 * prior.ndim} (2 x the {prior.ndim} sampled parameters)")
@@ -161,7 +161,9 @@ def rebuild_from_manifest(manifest: dict[str, Any]) -> tuple[Prior, Any, Any, Mo
     model = parametric_model(manifest["model"])
     prior = prior_from_text(manifest["prior_file_text"], manifest["prior"].get("source", ""),
                             model_parameters=model.parameter_names,
-                            derived_parameters=model.derived_names)
+                            derived_parameters=model.derived_names,
+                            optional_parameters=getattr(model, "optional_parameter_names", ()))
+    check_model_prior(model, prior)
     base = Path(manifest.get("config_file", ".")).parent
     from ..reporting.report import report_settings
 

@@ -1,0 +1,288 @@
+"""Bounce models for sampling in physical parameters, background included.
+
+One evaluation goes, for V = m^2 phi^2 / 2 on the effective isotropic bounce:
+
+1. background: the compiled engine (:class:`bouncelike.background.isotropic.IsotropicDynamics`)
+   from the bounce, :class:`~bouncelike.background.initial.BounceStart` with the potential
+   fraction x_V = V(phi_B)/rho_c (phidot > 0), to the end of inflation (~0.2 ms). A background
+   that fails or does not inflate, or whose inflation does not end, raises
+   :class:`~bouncelike.errors.NumericalFailure` (log-likelihood -inf, reason counted);
+2. e-folds: bounce -> end of inflation, N_* from the parameters or from the reheating history
+   (Liddle & Leach estimate, :func:`bouncelike.perturbations.mapping.liddle_leach_n_star`), and
+   N_B* = (bounce -> end) - N_* with the comoving bounce scale k_LQC in Mpc^-1
+   (:func:`bouncelike.perturbations.mapping.scale_map`; physics notes, section 5);
+3. the standard (no-bounce) spectrum at the pivot's exit k_* = a_* H_*, read off the trajectory
+   with the Hubble-flow parameters eps = -Hdot/H^2, eta = -phiddot/(H phidot) (Stewart & Lyth,
+   Phys. Lett. B 302 (1993) 171, in the form of Lidsey et al., Rev. Mod. Phys. 69 (1997) 373,
+   from memory; Planck units, m_Pl = 1, C = -2 + ln 2 + gamma_E):
+
+       P_s = [1 - (2C + 1) eps + C eta]^2 H^4 / (4 pi^2 phidot^2)
+       P_t = [1 - (C + 1) eps]^2 16 H^2 / pi
+       n_s - 1 = 2 eta - 4 eps,   r = P_t / P_s  (tensor tilt by consistency, -r/8);
+
+   running is not carried (second order in slow roll, ~ -7e-4 for this potential);
+4. spectra: that power law times the cached transfer of the bounce through
+   :class:`bouncelike.perturbations.transfer.BounceSpectraModel` (its public ``spectra`` and
+   ``derived``), handing it the power-law numbers, log10 k_LQC and any background quantity its
+   ``parameter_names`` ask for (the conformal duration of the bounce-to-end stretch,
+   ``log10_conformal_duration``, when the cache depends on it).
+
+Parameters (a prior file gives each as sampled or fixed)
+--------------------------------------------------------
+background (exactly one)  ``log10_potential_fraction``  log10 V(phi_B)/rho_c
+                          ``N_inflation``  inflationary e-folds; the potential fraction is found
+                          by a secant search (a few background runs); this is what a prior from
+                          the oscillation phase of the contracting branch constrains
+                          (``efolds_from_phase``)
+inflaton                  ``mass`` (m_Pl units)
+bounce                    ``critical_density`` (Planck units; 0.40937 for gamma = 0.2375)
+reheating (one choice)    ``N_star``, or ``equation_of_state`` w and ``log10_reheating_density``
+                          (log10 rho_reh, Planck units)
+
+Derived (stored with the samples when the prior lists them): ``N_inflation`` or
+``log10_potential_fraction`` (whichever is not sampled), ``N_bounce_end`` (e-folds bounce -> end
+of inflation), ``N_star`` (when reheating fixes it), ``N_B_star``, ``log10_k_lqc``,
+``ln_1e10_As``, ``A_s``, ``n_s``, ``r``, ``epsilon_star``, ``x_window_min`` and ``certified``
+(1 where the cached transfer is certified over the observable window).
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from ..errors import InputError, NumericalFailure
+
+PIVOT = 0.05
+#: C = -2 + ln 2 + Euler's gamma (Stewart & Lyth 1993)
+C_SL = -2.0 + math.log(2.0) + 0.5772156649015329
+BACKGROUND_CHOICES = ("log10_potential_fraction", "N_inflation")
+REHEATING_KEYS = ("N_star", "equation_of_state", "log10_reheating_density")
+#: fast-model parameters this module supplies itself
+_SUPPLIED = ("ln_1e10_As", "n_s", "r", "log10_k_lqc")
+
+
+class _PhysicalBounce:
+    prescription = ""
+    parameter_names = ("log10_potential_fraction", "N_inflation", "mass", "critical_density",
+                       "N_star", "equation_of_state", "log10_reheating_density")
+    optional_parameter_names = ("log10_potential_fraction", "N_inflation", "N_star",
+                                "equation_of_state", "log10_reheating_density")
+    derived_names = ("log10_potential_fraction", "N_inflation", "N_bounce_end", "N_star",
+                     "N_B_star", "log10_k_lqc", "log10_conformal_duration", "ln_1e10_As",
+                     "A_s", "n_s", "r", "epsilon_star", "x_window_min", "certified")
+    labels = {
+        "log10_potential_fraction": r"\log_{10}(V_B/\rho_c)", "N_inflation": r"N_\mathrm{inf}",
+        "mass": r"m/m_\mathrm{Pl}", "critical_density": r"\rho_c", "N_star": "N_*",
+        "equation_of_state": r"w_\mathrm{reh}",
+        "log10_reheating_density": r"\log_{10}\rho_\mathrm{reh}",
+        "N_bounce_end": r"N_{B,\mathrm{end}}", "N_B_star": r"N_{B*}",
+        "log10_k_lqc": r"\log_{10}(k_\mathrm{LQC}/\mathrm{Mpc}^{-1})",
+        "log10_conformal_duration": r"\log_{10} D", "ln_1e10_As": r"\ln(10^{10} A_s)",
+        "A_s": "A_s", "n_s": "n_s", "r": "r", "epsilon_star": r"\epsilon_*",
+        "x_window_min": r"k_\mathrm{min}/k_\mathrm{LQC}", "certified": r"\mathrm{certified}",
+    }
+
+    def __init__(self) -> None:
+        self._fast_model: Any = None
+        self._last: tuple[Any, dict[str, float]] | None = None
+
+    def __getstate__(self) -> dict[str, Any]:
+        return {}  # workers rebuild the cached transfer
+
+    def __setstate__(self, state: dict[str, Any]) -> None:
+        self._fast_model = None
+        self._last = None
+
+    # -- prior checks ---------------------------------------------------------------------
+    def check_prior(self, names: Any) -> None:
+        """The prior gives exactly one background choice and one reheating choice."""
+        names = set(names)
+        bg = [n for n in BACKGROUND_CHOICES if n in names]
+        if len(bg) != 1:
+            raise InputError(f"model '{self.name}' needs exactly one of [parameters."
+                             "log10_potential_fraction] or [parameters.N_inflation] (sampled "
+                             f"or fixed); got {', '.join(bg) or 'neither'}")
+        reh = [n for n in REHEATING_KEYS if n in names]
+        if reh not in (["N_star"], ["equation_of_state", "log10_reheating_density"]):
+            raise InputError(f"model '{self.name}' needs [parameters.N_star], or both "
+                             "[parameters.equation_of_state] and "
+                             "[parameters.log10_reheating_density]; got "
+                             f"{', '.join(reh) or 'none'}")
+
+    # -- evaluation -----------------------------------------------------------------------
+    def _fast(self) -> Any:
+        if self._fast_model is None:
+            from ..perturbations.transfer import BounceSpectraModel
+
+            self._fast_model = BounceSpectraModel(prescription=self.prescription, pivot=PIVOT)
+        return self._fast_model
+
+    def spectra(self, p: dict[str, float]) -> Any:
+        fast_params, _ = self._evaluate(p)
+        return self._fast().spectra(fast_params)
+
+    def derived(self, p: dict[str, float]) -> dict[str, float]:
+        return dict(self._evaluate(p)[1])
+
+    def _evaluate(self, p: dict[str, float]) -> tuple[dict[str, float], dict[str, float]]:
+        key = tuple(sorted(p.items()))
+        if self._last is not None and self._last[0] == key:
+            return self._last[1]
+        out = self._compute(p)
+        self._last = (key, out)
+        return out
+
+    def _compute(self, p: dict[str, float]) -> tuple[dict[str, float], dict[str, float]]:
+        from ..background.potentials import Quadratic
+        from ..perturbations.background import from_trajectory
+        from ..perturbations.mapping import liddle_leach_n_star, scale_map
+
+        mass = p["mass"]
+        rho_c = p["critical_density"]
+        if not (mass > 0 and rho_c > 0):
+            raise InputError("'mass' and 'critical_density' must be > 0")
+        pot = Quadratic(mass=mass)
+        dyn = _dynamics(rho_c)
+        if "N_inflation" in p:
+            lx = _potential_fraction_for(dyn, pot, p["N_inflation"])
+        else:
+            lx = p["log10_potential_fraction"]
+        traj = _background(dyn, pot, lx)
+        tab = from_trajectory(traj, pot)
+        if "N_star" in p:
+            n_star = p["N_star"]
+        else:
+            n_star = liddle_leach_n_star(tab, p["equation_of_state"],
+                                         10.0 ** p["log10_reheating_density"], PIVOT)
+        sm = scale_map(tab, n_star, PIVOT)  # raises when N_* does not fit after the bounce
+        obs = pivot_observables(tab, sm.ln_a_pivot)
+        log10_k = float(sm.ln_k_lqc_mpc) / math.log(10.0)
+        fast_params = {"ln_1e10_As": obs["ln_1e10_As"], "n_s": obs["n_s"], "r": obs["r"],
+                       "log10_k_lqc": log10_k}
+        extra = [n for n in self._fast().parameter_names if n not in _SUPPLIED]
+        log10_d = math.nan
+        for name in extra:
+            if name == "log10_conformal_duration":
+                from ..perturbations.transfer import conformal_duration
+
+                log10_d = math.log10(conformal_duration(tab))
+                fast_params[name] = log10_d
+            else:  # pragma: no cover - a new cache dependence needs its glue here
+                raise NumericalFailure(f"the bounce transfer asks for '{name}', which the "
+                                       "physical model does not supply")
+        fd = self._fast().derived(fast_params)
+        derived = {
+            "log10_potential_fraction": lx,
+            "N_inflation": traj.efolds.inflation,
+            "N_bounce_end": traj.efolds.bounce_to_inflation_end,
+            "N_star": n_star, "N_B_star": sm.n_bounce_pivot, "log10_k_lqc": log10_k,
+            "log10_conformal_duration": log10_d,
+            "ln_1e10_As": obs["ln_1e10_As"], "A_s": obs["A_s"], "n_s": obs["n_s"],
+            "r": obs["r"], "epsilon_star": obs["epsilon"],
+            "x_window_min": float(fd["x_window_min"]), "certified": float(bool(fd["certified"])),
+        }
+        return fast_params, derived
+
+
+class PhysicalBounceDressedMetric(_PhysicalBounce):
+    name = "bounce_physical_dressed_metric"
+    prescription = "dressed_metric"
+
+
+class PhysicalBounceDeformedAlgebra(_PhysicalBounce):
+    name = "bounce_physical_deformed_algebra"
+    prescription = "deformed_algebra"
+
+
+_DYNAMICS: dict[float, Any] = {}
+
+
+def _dynamics(rho_c: float) -> Any:
+    from ..background.isotropic import IsotropicDynamics
+
+    if rho_c not in _DYNAMICS:
+        if len(_DYNAMICS) > 64:
+            _DYNAMICS.clear()
+        _DYNAMICS[rho_c] = IsotropicDynamics(rho_c)
+    return _DYNAMICS[rho_c]
+
+
+def _settings() -> Any:
+    from ..background.initial import IntegrationSettings
+
+    # accepted steps only (the Hermite interpolation of the trajectory fills in between);
+    # an inflationary cap far above any window placement
+    return IntegrationSettings(dense_points=0, max_inflation_efolds=2000.0)
+
+
+def _background(dyn: Any, pot: Any, log10_fraction: float) -> Any:
+    """The trajectory from the bounce; NumericalFailure unless inflation starts and ends."""
+    from ..background.initial import BounceStart
+
+    if not log10_fraction < 0:
+        raise InputError(f"'log10_potential_fraction' = {log10_fraction:g} is out of range; "
+                         "allowed: < 0")
+    traj = dyn.evolve(pot, BounceStart(10.0 ** log10_fraction, 1), _settings())
+    if traj.status != "inflated":
+        raise NumericalFailure(f"background {traj.status}: {traj.message}")
+    return traj
+
+
+def _inflation_efolds(dyn: Any, pot: Any, log10_fraction: float) -> float:
+    from ..background.initial import BounceStart
+    from ..background.isotropic import inflationary_efolds
+
+    s = dyn.evolve_summary(pot, BounceStart(10.0 ** log10_fraction, 1), _settings())
+    return float(inflationary_efolds(s))
+
+
+def _potential_fraction_for(dyn: Any, pot: Any, n_target: float, tol: float = 1e-4) -> float:
+    """log10 x_V giving ``n_target`` inflationary e-folds (secant in ln N vs ln x_V).
+
+    Start: slow roll from phi_B, N ~ 2 pi phi^2 (Planck units) with phi_B^2 = 2 x_V rho_c/m^2,
+    lowered by the kinetic era (factor 0.1, measured on the engine); N grows monotonically with
+    x_V over the inflating range.
+    """
+    if not n_target > 1:
+        raise InputError(f"'N_inflation' = {n_target:g} is out of range; allowed: > 1")
+    m2 = float(pot.mass) ** 2
+    x0 = math.log10(0.1 * n_target * m2 / (4 * math.pi * dyn.critical_density))
+    ln_t = math.log(n_target)
+    x1 = x0 + 0.05
+    f0 = math.log(max(_inflation_efolds(dyn, pot, x0), 1e-3)) - ln_t
+    f1 = math.log(max(_inflation_efolds(dyn, pot, x1), 1e-3)) - ln_t
+    for _ in range(30):
+        if abs(f1) < tol:
+            return x1
+        slope = (f1 - f0) / (x1 - x0) if x1 != x0 else 0.0
+        step = -f1 / slope if slope > 0 else 0.3 * (-1 if f1 > 0 else 1)
+        x0, f0 = x1, f1
+        x1 = min(x1 + max(min(step, 2.0), -2.0), -1e-6)
+        f1 = math.log(max(_inflation_efolds(dyn, pot, x1), 1e-3)) - ln_t
+    raise NumericalFailure(f"no potential fraction gives N_inflation = {n_target:g}")
+
+
+def pivot_observables(tab: Any, ln_a_pivot: float) -> dict[str, float]:
+    """Standard spectra at the pivot's exit (ln a = ``ln_a_pivot``, after the bounce)."""
+    ib = tab.bounce_index() if tab.has_bounce else 0
+    ln_a = tab.ln_a[ib + 1:]
+    order = np.argsort(ln_a)
+    la = ln_a[order]
+
+    def at(arr: np.ndarray) -> float:
+        return float(np.interp(ln_a_pivot, la, np.asarray(arr)[ib + 1:][order]))
+
+    H, Hdot, phidot, phiddot = at(tab.H), at(tab.Hdot), at(tab.phidot), at(tab.phiddot)
+    if not (H > 0 and phidot != 0):
+        raise NumericalFailure("pivot exit outside the inflationary stretch")
+    eps = -Hdot / H**2
+    eta = -phiddot / (H * phidot)
+    if not 0 < eps < 1:
+        raise NumericalFailure(f"pivot exit not during inflation (epsilon_H = {eps:.3g})")
+    p_s = (1 - (2 * C_SL + 1) * eps + C_SL * eta) ** 2 * H**4 / (4 * math.pi**2 * phidot**2)
+    p_t = (1 - (C_SL + 1) * eps) ** 2 * 16 * H**2 / math.pi
+    return {"A_s": p_s, "ln_1e10_As": math.log(1e10 * p_s), "n_s": 1 + 2 * eta - 4 * eps,
+            "r": p_t / p_s, "epsilon": eps, "H": H}
