@@ -4,8 +4,10 @@ The built-in scenario (our own, illustrative): is a plateau potential preferred 
 quadratic one by Planck 2018 + BICEP/Keck 2018, and how close to the observable window may a
 bounce put its scale? It scores the Starobinsky model at N_* = 55, samples the slow-roll
 posteriors of both potentials (N_* and the amplitude free) and, when the bounce transfer model
-is part of the build, the dressed-metric bounce model (bounce scale free), and reports
-verdicts, the evidence ratio of the two potentials (a discrete setting), tables and figures.
+is part of the build, the dressed-metric bounce model in physical parameters with its
+background (bounce potential fraction, inflaton mass and N_* free; the e-folds, N_B*, the
+bounce scale and the pivot observables derived from each background), and reports verdicts,
+the evidence ratio of the two potentials (a discrete setting), tables and figures.
 """
 
 from __future__ import annotations
@@ -24,8 +26,8 @@ RUNS = (
     ("starobinsky", "starobinsky_slow_roll", 3, ["chains/quadratic"],
      ["N_star", "ln_1e10_As"], 40, None),
     ("quadratic", "quadratic_slow_roll", 4, [], ["N_star", "ln_1e10_As"], 40, None),
-    ("bounce", "bounce_dressed_metric", 5, [], ["log10_k_lqc", "n_s"], 30,
-     "bouncelike.perturbations.transfer"),
+    ("bounce", "bounce_dressed_metric_physical", 5, [], ["log10_potential_fraction", "mass"],
+     30, "bouncelike.perturbations.transfer"),
 )
 
 

@@ -145,7 +145,9 @@ def log_evidence(log_likelihood: Callable[[np.ndarray], float], prior: Any,
                          np.log(0.5) + log_pi)
     log_l = np.array([log_likelihood(p) if math.isfinite(lp) else -math.inf
                       for p, lp in zip(pts, log_pi, strict=False)])
-    log_w = np.where(np.isfinite(log_pi) & np.isfinite(log_l), log_l + log_pi - log_q, -np.inf)
+    with np.errstate(invalid="ignore"):
+        log_w = np.where(np.isfinite(log_pi) & np.isfinite(log_l), log_l + log_pi - log_q,
+                         -np.inf)
     ln_z = float(logsumexp(log_w) - math.log(n))
     w = np.exp(log_w - log_w.max()) if np.isfinite(log_w.max()) else np.zeros(n)
     rel = float(np.std(w) / (np.mean(w) * math.sqrt(n))) if np.mean(w) > 0 else math.inf
