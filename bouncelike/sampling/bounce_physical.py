@@ -5,7 +5,8 @@ One evaluation goes, for V = m^2 phi^2 / 2 on the effective isotropic bounce:
 1. background: the compiled engine (:class:`bouncelike.background.isotropic.IsotropicDynamics`)
    from the bounce, :class:`~bouncelike.background.initial.BounceStart` with the potential
    fraction x_V = V(phi_B)/rho_c (phidot > 0), to the end of inflation (~0.2 ms). A background
-   that fails or does not inflate, or whose inflation does not end, raises
+   that fails or does not inflate, whose inflation does not end (2000 e-fold cap), or that
+   inflates for fewer e-folds after the bounce than N_* raises
    :class:`~bouncelike.errors.NumericalFailure` (log-likelihood -inf, reason counted);
 2. e-folds: bounce -> end of inflation, N_* from the parameters or from the reheating history
    (Liddle & Leach estimate, :func:`bouncelike.perturbations.mapping.liddle_leach_n_star`), and
@@ -157,7 +158,11 @@ class _PhysicalBounce:
         else:
             n_star = liddle_leach_n_star(tab, p["equation_of_state"],
                                          10.0 ** p["log10_reheating_density"], PIVOT)
-        sm = scale_map(tab, n_star, PIVOT)  # raises when N_* does not fit after the bounce
+        n_be = float(traj.efolds.bounce_to_inflation_end)
+        if not n_star < n_be:
+            raise NumericalFailure(f"too little inflation: {n_be:.3g} e-folds from the bounce to "
+                                   f"the end of inflation, not more than N_* = {n_star:.3g}")
+        sm = scale_map(tab, n_star, PIVOT)
         obs = pivot_observables(tab, sm.ln_a_pivot)
         log10_k = float(sm.ln_k_lqc_mpc) / math.log(10.0)
         fast_params = {"ln_1e10_As": obs["ln_1e10_As"], "n_s": obs["n_s"], "r": obs["r"],
@@ -177,7 +182,7 @@ class _PhysicalBounce:
         derived = {
             "log10_potential_fraction": lx,
             "N_inflation": traj.efolds.inflation,
-            "N_bounce_end": traj.efolds.bounce_to_inflation_end,
+            "N_bounce_end": n_be,
             "N_star": n_star, "N_B_star": sm.n_bounce_pivot, "log10_k_lqc": log10_k,
             "log10_conformal_duration": log10_d,
             "ln_1e10_As": obs["ln_1e10_As"], "A_s": obs["A_s"], "n_s": obs["n_s"],
