@@ -6,13 +6,20 @@ Prints, each against a straightforward baseline measured in the same run:
    path; target <= 50 us) against the full score of the same spectra (summaries, pulls,
    p-value: what a naive sampler would call);
 2. a bounce model's evaluation (cached bounce transfer; target <= 5 ms median) against the
-   full forward model (background and mode integration) of a bounce example;
+   full forward model (background and mode integration) of a bounce example; 2b. the same for
+   the bounce model in physical parameters, background included (engine run from the bounce,
+   e-folds, pivot spectrum, bounce scale, cached transfer, likelihood), and its variant that
+   finds the potential fraction for a given number of inflationary e-folds;
 3. wall time of the power-law posterior (Planck 2018 + BK18) to convergence, and the
    sampler's overhead as the ratio of wall time to the likelihood time it contains; the same
-   for the bounce example's posterior (target <= 5 min on 2 cores);
+   for the bounce example's posterior (3b) and for the physical bounce example,
+   examples/sample_bounce_physical.toml, on 2 worker processes (3c; target <= 5 min on 2
+   cores);
 4. process-pool efficiency on 2 workers, T_serial / (2 T_pool), for a likelihood of
    millisecond cost (tabulated spectra of 4000 points, summarised by the fitting path as a
-   bounce model's spectra are; target >= 80%), with a check that both chains are identical.
+   bounce model's spectra are) and for the physical bounce model (target >= 80%), with a
+   check that both chains are identical, against a plain multiprocessing map of a CPU-bound
+   task of the same cost.
 
 Run: python3 benchmarks/sampling_speed.py [--quick]
 """
@@ -45,7 +52,11 @@ from bouncelike.sampling.driver import (  # noqa: E402
     install_posterior,
     run_sampler,
 )
-from bouncelike.sampling.parametric import PowerLawModel, parametric_model  # noqa: E402
+from bouncelike.sampling.parametric import (  # noqa: E402
+    PowerLawModel,
+    model_prior,
+    parametric_model,
+)
 from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior  # noqa: E402
 
 
@@ -82,6 +93,49 @@ def _spin_reps(seconds: float) -> int:
     t0 = time.perf_counter()
     _spin(100000)
     return max(1, int(100000 * seconds / (time.perf_counter() - t0)))
+
+
+def pool_efficiency(label, post, theta, steps, tmp):
+    """Serial vs 2 worker processes on one posterior, and a plain multiprocessing baseline."""
+    import multiprocessing as mp
+
+    t_eval = per_call(post, theta, 50)
+    s2 = SamplerSettings(walkers=32, max_steps=steps, min_steps=steps, tau_multiple=50,
+                         tau_tolerance=0.05, checkpoint_every=steps, seed=2)
+    name = label.split()[0]
+    t0 = time.perf_counter()
+    run_sampler(post, s2, tmp / f"serial_{name}", show_progress=False)
+    t_serial = time.perf_counter() - t0
+    install_posterior(post)  # the workers inherit the posterior at fork
+    pool = ProcessPool(2)
+    try:
+        t0 = time.perf_counter()
+        run_sampler(post, s2, tmp / f"pool_{name}", pool=pool, show_progress=False)
+        t_pool = time.perf_counter() - t0
+    finally:
+        pool.close()
+    same = (tmp / f"serial_{name}" / "chain.csv").read_bytes() == (
+        tmp / f"pool_{name}" / "chain.csv").read_bytes()
+    eff = t_serial / (2 * t_pool)
+    # baseline: a plain multiprocessing map of a CPU-bound task of the same cost, in maps of
+    # the same size (walkers / 2) -- what the machine allows right now
+    n_maps = 2 * (steps + 1)
+    reps = _spin_reps(t_eval)
+    t0 = time.perf_counter()
+    for _ in range(n_maps):
+        [_spin(reps) for _ in range(16)]
+    b_serial = time.perf_counter() - t0
+    with mp.get_context("fork").Pool(2) as plain:
+        t0 = time.perf_counter()
+        for _ in range(n_maps):
+            plain.map(_spin, [reps] * 16)
+        b_pool = time.perf_counter() - t0
+    b_eff = b_serial / (2 * b_pool)
+    print(f"   {label}: evaluation {t_eval * 1e3:.2f} ms; serial {t_serial:.2f} s, 2 workers "
+          f"{t_pool:.2f} s: speed-up {t_serial / t_pool:.2f}x, efficiency {eff:.0%} "
+          f"(target >= 80%: {'met' if eff >= 0.8 else 'NOT met'}); chains identical: {same}")
+    print(f"   baseline, plain multiprocessing map of a {t_eval * 1e3:.2f} ms CPU-bound task: "
+          f"efficiency {b_eff:.0%}; ratio ours / baseline = {eff / b_eff:.2f}")
 
 
 def main() -> int:
@@ -140,6 +194,62 @@ def main() -> int:
             print(f"   baseline, full forward model (background + modes) of "
                   f"{example.name}: {full:.2f} s; ratio {full / med:.0f}x")
 
+    print("2b. bounce model in physical parameters, background included (dressed metric)")
+    phys_post = None
+    full_time = None
+    if bounce_post is not None:
+        from bouncelike.config import load_run_config
+        from bouncelike.models import spectra_from_config
+
+        pmodel = parametric_model("bounce_physical_dressed_metric")
+        pprior = model_prior(pmodel, SHIPPED_PRIORS / "bounce_dressed_metric_physical.toml")
+        phys_post = ModelPosterior(pprior, pmodel, lk)
+        rng = np.random.default_rng(1)
+        pts = pprior.draw(rng, 300)
+        phys_post(pts[0])  # compile and load once
+        times = []
+        for th in pts:
+            t0 = time.perf_counter()
+            phys_post(th)
+            times.append(time.perf_counter() - t0)
+        med_p = float(np.median(times))
+        print(f"   log-posterior, median over 300 prior draws: {med_p * 1e3:.2f} ms "
+              f"(90th percentile {np.percentile(times, 90) * 1e3:.2f} ms; target <= 5 ms: "
+              f"{'met' if med_p <= 5e-3 else 'NOT met'})")
+        # baseline: the full forward model (background + exact mode integration) of one
+        # point of the same model
+        cfg_text = (
+            '[model]\nspectra = "bounce"\n[potential]\nname = "quadratic"\nmass = 1.28e-6\n'
+            '[background]\ndynamics = "isotropic"\nstart = "bounce"\n'
+            'critical_density = 0.40937\n[background.bounce]\npotential_fraction = 2.5e-12\n'
+            'phidot_sign = 1\n[perturbations]\nprescription = "dressed_metric"\n'
+            '[reheating]\nn_star = 57.0\n')
+        tmpc = Path(tempfile.mkdtemp(prefix="bouncelike-bench-"))
+        try:
+            (tmpc / "full.toml").write_text(cfg_text)
+            t0 = time.perf_counter()
+            lk.log_likelihood(spectra_from_config(load_run_config(tmpc / "full.toml")))
+            full_time = time.perf_counter() - t0
+        finally:
+            shutil.rmtree(tmpc, ignore_errors=True)
+        print(f"   baseline, full forward model (background + mode integration + likelihood) "
+              f"of one point: {full_time:.2f} s; ratio baseline / physical model "
+              f"{full_time / med_p:.0f}x")
+        nprior = model_prior(pmodel, SHIPPED_PRIORS / "bounce_dressed_metric_phase.toml")
+        npost = ModelPosterior(nprior, pmodel, lk)
+        times = []
+        for th in nprior.draw(np.random.default_rng(2), 100):
+            t0 = time.perf_counter()
+            npost(th)
+            times.append(time.perf_counter() - t0)
+        med_n = float(np.median(times))
+        print(f"   variant with N_inflation sampled (phase prior; secant search of the potential "
+              f"fraction): median {med_n * 1e3:.2f} ms (target <= 5 ms: "
+              f"{'met' if med_n <= 5e-3 else 'NOT met'}); ratio baseline / variant "
+              f"{full_time / med_n:.0f}x")
+    else:
+        print("   not available: bouncelike.perturbations.transfer is not in this build")
+
     print("3. power-law posterior to convergence (Planck 2018 + BK18)")
     tmp = Path(tempfile.mkdtemp(prefix="bouncelike-bench-"))
     try:
@@ -169,49 +279,42 @@ def main() -> int:
                   f"{'met' if wall_b <= 300 else 'NOT met'}); ratio to target "
                   f"{wall_b / 300:.2f}")
 
+        if phys_post is not None:
+            from bouncelike.config import load_run_config
+            from bouncelike.sampling.setup import SAMPLING_KEYS, sampler_settings
+
+            example = ROOT / "examples" / "sample_bounce_physical.toml"
+            ps = sampler_settings(load_run_config(example).table("sampling", SAMPLING_KEYS))
+            print(f"3c. physical bounce posterior to convergence ({example.name} settings: "
+                  f"{ps.walkers} walkers, tau multiple {ps.tau_multiple:g}), 2 worker "
+                  "processes")
+            install_posterior(phys_post)
+            pool = ProcessPool(2)
+            try:
+                t0 = time.perf_counter()
+                rp = run_sampler(phys_post, ps, tmp / "physical", pool=pool,
+                                 show_progress=False)
+                wall_p = time.perf_counter() - t0
+            finally:
+                pool.close()
+            print(f"   {rp.status} after {rp.steps} steps, {rp.evaluations} evaluations, "
+                  f"max tau {np.max(rp.tau):.1f}, min ESS {np.min(rp.ess):.0f}, failed "
+                  f"evaluations {sum(rp.failures.values())}")
+            print(f"   wall time {wall_p:.1f} s (target <= 300 s: "
+                  f"{'met' if wall_p <= 300 else 'NOT met'}); ratio to target "
+                  f"{wall_p / 300:.2f}; baseline: the same evaluations with the full forward "
+                  f"model would take ~{rp.evaluations * full_time / 2 / 3600:.0f} h on 2 "
+                  "workers")
+
         print("4. process-pool efficiency, 2 workers, millisecond likelihood")
         tab = TabulatedPowerLaw()
         post_tab = ModelPosterior(prior, tab, lk)
-        t_tab = per_call(post_tab, theta, 50)
         steps = 15 if args.quick else 40
-        s2 = SamplerSettings(walkers=32, max_steps=steps, min_steps=steps, tau_multiple=50,
-                             tau_tolerance=0.05, checkpoint_every=steps, seed=2)
-        t0 = time.perf_counter()
-        run_sampler(post_tab, s2, tmp / "serial", show_progress=False)
-        t_serial = time.perf_counter() - t0
-        install_posterior(post_tab)  # the workers inherit the posterior at fork
-        pool = ProcessPool(2)
-        try:
-            t0 = time.perf_counter()
-            run_sampler(post_tab, s2, tmp / "pool", pool=pool, show_progress=False)
-            t_pool = time.perf_counter() - t0
-        finally:
-            pool.close()
-        same = (tmp / "serial" / "chain.csv").read_bytes() == (
-            tmp / "pool" / "chain.csv").read_bytes()
-        eff = t_serial / (2 * t_pool)
-        # baseline: a plain multiprocessing map of a CPU-bound task of the same cost, in
-        # maps of the same size (walkers / 2) -- what the machine allows right now
-        n_maps = 2 * (steps + 1)
-        reps = _spin_reps(t_tab)
-        import multiprocessing as mp
-
-        t0 = time.perf_counter()
-        for _ in range(n_maps):
-            [_spin(reps) for _ in range(16)]
-        b_serial = time.perf_counter() - t0
-        with mp.get_context("fork").Pool(2) as plain:
-            t0 = time.perf_counter()
-            for _ in range(n_maps):
-                plain.map(_spin, [reps] * 16)
-            b_pool = time.perf_counter() - t0
-        b_eff = b_serial / (2 * b_pool)
-        print(f"   evaluation {t_tab * 1e3:.2f} ms; serial {t_serial:.2f} s, 2 workers "
-              f"{t_pool:.2f} s: speed-up {t_serial / t_pool:.2f}x, efficiency {eff:.0%} "
-              f"(target >= 80%: {'met' if eff >= 0.8 else 'NOT met'}); chains identical: "
-              f"{same}")
-        print(f"   baseline, plain multiprocessing map of a {t_tab * 1e3:.2f} ms CPU-bound "
-              f"task: efficiency {b_eff:.0%}; ratio ours / baseline = {eff / b_eff:.2f}")
+        pool_efficiency("tabulated power law (4000 points)", post_tab, theta, steps, tmp)
+        if phys_post is not None:
+            th0 = phys_post.prior.initial_walkers(np.random.default_rng(0), 1)[0]
+            pool_efficiency("physical bounce model (background included)", phys_post, th0,
+                            steps, tmp)
         print("   (other load on the machine counts against both: compare with the baseline, "
               "or rerun on an idle machine)")
     finally:
