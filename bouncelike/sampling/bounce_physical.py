@@ -244,29 +244,48 @@ def _inflation_efolds(dyn: Any, pot: Any, log10_fraction: float) -> float:
     return float(inflationary_efolds(s))
 
 
-def _potential_fraction_for(dyn: Any, pot: Any, n_target: float, tol: float = 1e-4) -> float:
-    """log10 x_V giving ``n_target`` inflationary e-folds (secant in ln N vs ln x_V).
+_LAST_SOLUTION: list[tuple[float, float, float, float]] = []
 
-    Start: slow roll from phi_B, N ~ 2 pi phi^2 (Planck units) with phi_B^2 = 2 x_V rho_c/m^2,
-    lowered by the kinetic era (factor 0.1, measured on the engine); N grows monotonically with
-    x_V over the inflating range.
+
+def _potential_fraction_for(dyn: Any, pot: Any, n_target: float, tol: float = 1e-4) -> float:
+    """log10 x_V giving ``n_target`` inflationary e-folds (secant in ln N vs log10 x_V).
+
+    First guess: slow roll from phi_B, N ~ 2 pi phi_B^2 (Planck units) with
+    phi_B^2 = 2 x_V rho_c / m^2, lowered by the kinetic era (factor 0.1, measured on the
+    engine); after one solution, the previous one rescaled by the same law (walkers move little
+    between evaluations). N grows monotonically with x_V over the inflating range.
     """
     if not n_target > 1:
         raise InputError(f"'N_inflation' = {n_target:g} is out of range; allowed: > 1")
-    m2 = float(pot.mass) ** 2
-    x0 = math.log10(0.1 * n_target * m2 / (4 * math.pi * dyn.critical_density))
+    m = float(pot.mass)
+    rc = float(dyn.critical_density)
+    if _LAST_SOLUTION:
+        n0, m0, rc0, lx0 = _LAST_SOLUTION[0]
+        x0 = lx0 + math.log10(n_target / n0) + 2 * math.log10(m / m0) - math.log10(rc / rc0)
+    else:
+        x0 = math.log10(0.1 * n_target * m * m / (4 * math.pi * rc))
+    x0 = min(x0, -1e-3)
     ln_t = math.log(n_target)
-    x1 = x0 + 0.05
-    f0 = math.log(max(_inflation_efolds(dyn, pot, x0), 1e-3)) - ln_t
-    f1 = math.log(max(_inflation_efolds(dyn, pot, x1), 1e-3)) - ln_t
+
+    def f(lx: float) -> float:
+        return math.log(max(_inflation_efolds(dyn, pot, lx), 1e-3)) - ln_t
+
+    f0 = f(x0)
+    if abs(f0) < tol:
+        _LAST_SOLUTION[:] = [(n_target, m, rc, x0)]
+        return x0
+    # d ln N / d log10 x_V ~ ln 10 (N proportional to x_V)
+    x1 = min(x0 - f0 / math.log(10.0), -1e-6)
+    f1 = f(x1)
     for _ in range(30):
         if abs(f1) < tol:
+            _LAST_SOLUTION[:] = [(n_target, m, rc, x1)]
             return x1
         slope = (f1 - f0) / (x1 - x0) if x1 != x0 else 0.0
         step = -f1 / slope if slope > 0 else 0.3 * (-1 if f1 > 0 else 1)
         x0, f0 = x1, f1
         x1 = min(x1 + max(min(step, 2.0), -2.0), -1e-6)
-        f1 = math.log(max(_inflation_efolds(dyn, pot, x1), 1e-3)) - ln_t
+        f1 = f(x1)
     raise NumericalFailure(f"no potential fraction gives N_inflation = {n_target:g}")
 
 
