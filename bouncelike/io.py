@@ -15,6 +15,15 @@ from pathlib import Path
 from typing import Any
 
 
+def _current_umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
+_UMASK = _current_umask()
+
+
 def _atomic(path: str | Path, write: Callable[[str], None]) -> Path:
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
@@ -22,6 +31,7 @@ def _atomic(path: str | Path, write: Callable[[str], None]) -> Path:
     os.close(fd)
     try:
         write(tmp)
+        os.chmod(tmp, 0o666 & ~_UMASK)  # mkstemp creates 0600; give the usual permissions
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):

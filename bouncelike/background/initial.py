@@ -11,8 +11,8 @@ Three ways to start (Planck units, m_Pl = 1):
   y = phidot/sqrt(2 rho_c) (Linsefors & Barrau, Phys. Rev. D 87 (2013) 123509). For a general
   potential the phase is the energy angle: sqrt(V) = sqrt(rho_0) sin(delta),
   phidot/sqrt(2) = sqrt(rho_0) cos(delta), with phi on the branch sign(phi) = sign(sin(delta)).
-  ``log10_density_spread`` > 0 draws rho_0 log-uniformly over that many decades below
-  ``density`` (physics notes, section 2) when sampled by the distribution code.
+  The duration-of-inflation distribution can smear rho_0 log-uniformly over a few decades
+  (``[efolds] density_decades``; physics notes, section 2).
 * :class:`ClassicalStart` -- general relativity without a bounce, from (phi, phidot), expanding.
 """
 

@@ -1,1 +1,14 @@
-"""perturbations layer."""
+"""Perturbations through the bounce: modes, initial states, spectra, mapping, fast model.
+
+Modules
+-------
+background     dense background tables (analytic providers, own integration, engine trajectories)
+prescriptions  mode equations of the dressed-metric and deformed-algebra prescriptions as
+               regular linear Hamiltonian systems (registry: PRESCRIPTIONS)
+modes          symplectic numba integrator + WKB jumps across adiabatic eras (ModeSolver)
+states         initial states by name (STATES) and Bogoliubov rotations
+spectra        P_s(k), P_t(k) in bounce units (a_B = 1)
+mapping        bounce units -> comoving Mpc^-1 via N_* (given or Liddle & Leach)
+forward        [perturbations] / [reheating] -> TabulatedSpectra ("bounce" model)
+transfer       cached transfer T(k/k_LQC) with error certificate; BounceSpectraModel
+"""

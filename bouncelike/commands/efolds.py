@@ -1,0 +1,228 @@
+"""``bouncelike efolds CONFIG.toml``: predicted distribution of inflationary e-folds.
+
+Reads ``[potential]``, ``[background]`` (dynamics, critical density, integration settings; the
+``start`` is ignored: the prior sets the initial data) and ``[efolds]``::
+
+    [efolds]
+    n_samples = 1000          # draws of the prior
+    seed = 0                  # one generator, drawn up front: identical for any worker count
+    threshold = 60.0          # e-folds observations need (fraction above is reported)
+    prior = "phase"           # phase | bounce_fraction
+    density = 1e-16           # phase prior: top of the rho_0 window (Planck units)
+    density_decades = 2.0     # phase prior: log-uniform width below density (0: fixed surface)
+    # fraction_min = 1e-13    # bounce_fraction prior: x = V_B / rho_c range
+    # fraction_max = 1e-9
+    # fraction_scale = "log"  # log | linear
+    workers = 1               # local processes (MPI ranks when run under mpiexec)
+    bins = 60                 # histogram bins
+    convergence_samples = 100 # re-run this many draws with rho_0 two decades lower
+
+Writes ``efolds_samples.csv``, ``efolds.pdf``, ``efolds.png`` and ``efolds_summary.json`` to
+``--output`` (default ``bouncelike-out/<config stem>/``), after everything is computed.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import time
+from pathlib import Path
+from typing import Any
+
+NAME = "efolds"
+HELP = "distribution of the number of inflationary e-folds after the bounce"
+
+EFOLDS_KEYS = ("n_samples", "seed", "threshold", "prior", "density", "density_decades",
+               "fraction_min", "fraction_max", "fraction_scale", "workers", "bins",
+               "convergence_samples")
+
+
+def add_arguments(parser: Any) -> None:
+    parser.add_argument("config", help="run configuration (TOML) with [potential], "
+                        "[background] and [efolds]")
+    parser.add_argument("--output", metavar="DIR", default=None,
+                        help="output folder (default bouncelike-out/<config stem>/)")
+    parser.add_argument("--json", action="store_true",
+                        help="print one JSON object instead of the table")
+    parser.add_argument("--workers", type=int, default=None, metavar="N",
+                        help="local worker processes (overrides [efolds] workers)")
+    parser.add_argument("--quiet", action="store_true", help="hide the progress bar")
+
+
+def _options(config: Any, workers_cli: int | None) -> dict[str, Any]:
+    from ..background.efolds import prior_from_config
+    from ..errors import InputError
+
+    table = config.table("efolds", EFOLDS_KEYS)
+    opts = {
+        "n_samples": table.integer("n_samples", 1000, minimum=1, maximum=10**7),
+        "seed": table.integer("seed", 0, minimum=0),
+        "threshold": table.number("threshold", 60.0, minimum=0.0),
+        "workers": table.integer("workers", 1, minimum=1, maximum=1024),
+        "bins": table.integer("bins", 60, minimum=2, maximum=10**4),
+        "convergence_samples": table.integer("convergence_samples", 100, minimum=0),
+        "prior": prior_from_config(table),
+    }
+    if workers_cli is not None:
+        if workers_cli < 1:
+            raise InputError(f"'--workers' = {workers_cli} is out of range; allowed: >= 1")
+        opts["workers"] = workers_cli
+    return opts
+
+
+def summary_lines(dist: Any, setup: Any) -> list[str]:
+    """The human-readable summary table."""
+    from ..background.efolds import nanmedian
+
+    pot = setup.potential
+    params = ", ".join(f"{k} = {v:g}" if isinstance(v, float) else f"{k} = {v}"
+                       for k, v in pot.parameters.items())
+    prior = dist.prior
+    if prior["name"] == "phase":
+        lo, hi = prior["window"]
+        where = (f"rho_0 = {hi:.3g} (fixed surface)" if prior["density_decades"] == 0
+                 else f"rho_0 log-uniform in [{lo:.3g}, {hi:.3g}]")
+        prior_text = (f"flat phase on [0, 2 pi), {where}; "
+                      f"H/omega at the top {dist.hubble_to_frequency:.3g}")
+    else:
+        prior_text = (f"{prior['fraction_scale']}-uniform V_B/rho_c in "
+                      f"[{prior['fraction_min']:.3g}, {prior['fraction_max']:.3g}]")
+    c = dist.status_counts
+    pct = "  ".join(f"{q}%: {v:.2f}" for q, v in dist.percentiles.items())
+    sq = dist.sqrt_potential_fraction_percentiles()
+    lines = [
+        f"Duration of inflation: {pot.name} ({params}), dynamics {dist.settings['dynamics']}, "
+        f"rho_c = {dist.settings['critical_density']:.6g}",
+        f"prior: {prior_text}",
+        f"samples: {dist.n_samples} (inflated {c['inflated']}, no inflation {c['no_inflation']}, "
+        f"e-fold cap {c['efold_cap']}, failed {c['failed']}), seed {dist.seed}",
+        "",
+        f"  inflationary e-folds     median {dist.median:.2f}   mode {dist.mode:.2f}",
+        f"  percentiles              {pct}",
+        f"  fraction above {dist.threshold:g}      {dist.fraction_above_threshold:.4f}",
+        f"  sqrt(V_B / rho_c)        median {sq['50']:.3g}  "
+        f"(5%-95%: {sq['5']:.3g} - {sq['95']:.3g})",
+        f"  bounce -> end e-folds    median {nanmedian(dist.bounce_to_end):.2f}",
+    ]
+    if dist.convergence:
+        cv = dist.convergence
+        lines.append(
+            f"  convergence in rho_0     window moved {cv['shift_decades']:g} decades lower: "
+            f"median {cv['median']:.2f} -> {cv['median_shifted']:.2f} "
+            f"(change {cv['median_change']:.2f} e-folds, {cv['n']} samples)"
+        )
+    lines.append(f"  max constraint residual  {dist.max_constraint_residual:.2g}")
+    if c["efold_cap"]:
+        lines.append(f"  note: {c['efold_cap']} runs reached the cap of "
+                     f"{dist.settings['max_inflation_efolds']:g} e-folds; they count at the cap, "
+                     "so statistics at or near it are lower bounds")
+    if prior["name"] == "phase" and not (dist.hubble_to_frequency < 0.1):
+        lines.append("  warning: H/omega at the top of the rho_0 window is not small; lower "
+                     "'efolds.density'")
+    return lines
+
+
+def make_figure(dist: Any, title: str) -> Any:
+    """Histogram with percentiles and the observational threshold marked."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    import numpy as np
+
+    values = dist.usable()
+    fig, ax = plt.subplots(figsize=(6.4, 4.2))
+    counts, edges = dist.histogram
+    if len(values):
+        ax.stairs(counts, edges, fill=True, alpha=0.5, color="C0", label="samples")
+    styles = {"5": ":", "16": "--", "50": "-", "84": "--", "95": ":"}
+    for q, v in dist.percentiles.items():
+        if math.isfinite(v):
+            ax.axvline(v, color="C0", ls=styles[q], lw=1.2,
+                       label=f"{q}th percentile" if q != "50" else "median")
+    ax.axvline(dist.threshold, color="C3", lw=1.6, ls="-.",
+               label=f"threshold {dist.threshold:g} e-folds")
+    if len(values):
+        lo = min(float(np.min(values)), dist.threshold)
+        hi = max(float(np.max(values)), dist.threshold)
+        pad = 0.05 * (hi - lo if hi > lo else 1.0)
+        ax.set_xlim(lo - pad, hi + pad)
+    ax.set_xlabel("inflationary e-folds N")
+    ax.set_ylabel("samples per bin")
+    ax.set_title(title, fontsize=10)
+    ax.legend(fontsize=8, loc="best")
+    fig.tight_layout()
+    return fig
+
+
+def run(args: Any) -> int:
+    from ..background.efolds import efolds_distribution
+    from ..background.initial import ClassicalStart, IntegrationSettings
+    from ..background.setup import background_from_config
+    from ..config import load_run_config
+    from ..io import (
+        json_safe,
+        save_figure_atomic,
+        write_csv_atomic,
+        write_json_atomic,
+    )
+    from ..parallel import make_pool
+
+    config = load_run_config(args.config)
+    setup = background_from_config(config)
+    opts = _options(config, args.workers)
+    out_dir = Path(args.output) if args.output else Path("bouncelike-out") / Path(args.config).stem
+
+    # compile (or load the compiled kernel) before any worker process is forked
+    setup.dynamics.evolve(setup.potential, ClassicalStart(1.0, 0.0),
+                          IntegrationSettings(max_time=1e-6, dense_points=0))
+    started = time.perf_counter()
+    pool = make_pool(opts["workers"])
+    try:
+        dist = efolds_distribution(
+            setup.dynamics, setup.potential, opts["prior"], opts["n_samples"], opts["seed"],
+            pool=pool, settings=setup.settings, threshold=opts["threshold"], bins=opts["bins"],
+            convergence_samples=opts["convergence_samples"], progress=not args.quiet,
+        )
+    finally:
+        pool.close()
+    elapsed = time.perf_counter() - started
+
+    import pandas as pd
+
+    columns = {"sample": range(dist.n_samples)}
+    columns.update({k: v for k, v in dist.draws.items()})
+    columns.update({
+        "status": dist.statuses,
+        "efolds_inflation": dist.samples,
+        "efolds_bounce_to_end": dist.bounce_to_end,
+        "potential_fraction_at_bounce": dist.potential_fractions,
+    })
+    frame = pd.DataFrame(columns)
+    lines = summary_lines(dist, setup)
+    fig = make_figure(dist, lines[0].replace("Duration of inflation: ", ""))
+    result = dist.as_dict()
+    result["elapsed_seconds"] = elapsed
+    result["workers"] = int(getattr(pool, "workers", 1))
+    files = {
+        "samples": out_dir / "efolds_samples.csv",
+        "figure_pdf": out_dir / "efolds.pdf",
+        "figure_png": out_dir / "efolds.png",
+        "summary": out_dir / "efolds_summary.json",
+    }
+    result["files"] = {k: str(v) for k, v in files.items()}
+
+    write_csv_atomic(files["samples"], frame, float_format="%.10g")
+    save_figure_atomic(fig, files["figure_pdf"])
+    save_figure_atomic(fig, files["figure_png"], dpi=150)
+    write_json_atomic(files["summary"], json_safe(result))
+    import matplotlib.pyplot as plt
+
+    plt.close(fig)
+    if args.json:
+        print(json.dumps(json_safe(result)))
+    else:
+        print("\n".join(lines))
+        print(f"\n  time {elapsed:.2f} s on {result['workers']} worker(s); wrote "
+              + ", ".join(str(p) for p in files.values()))
+    return 0

@@ -1,0 +1,118 @@
+"""``bouncelike score CONFIG.toml``: score one configuration against published constraints.
+
+The spectra come from ``[model] spectra = "power_law" | "slow_roll" | "bounce"`` (see
+:mod:`bouncelike.models`), the constraint sets from ``[likelihood]``
+(:func:`bouncelike.likelihood.gaussian.likelihood_from_config`). Prints a table of terms, the total
+chi-square, p-value and verdict, fit-quality warnings and notes; ``--json`` prints the same as
+one JSON object. Nothing is written to disk.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from pathlib import Path
+from typing import Any
+
+from ..config import load_run_config
+from ..errors import NumericalFailure
+from ..io import json_safe
+from ..likelihood.gaussian import Score, likelihood_from_config
+from ..likelihood.sets import QUANTITY_LABELS
+from ..models import spectra_from_config
+
+NAME = "score"
+HELP = "score one configuration against published CMB constraints (table or --json)"
+
+
+def add_arguments(parser: Any) -> None:
+    parser.add_argument("config", help="run configuration (TOML)")
+    parser.add_argument("--json", action="store_true", help="print one JSON object instead")
+
+
+def _num(x: float | None, digits: int = 4) -> str:
+    if x is None or (isinstance(x, float) and not math.isfinite(x)):
+        return "-"
+    return f"{x:.{digits}g}"
+
+
+def _published(term: Any) -> str:
+    if term.kind == "upper_limit":
+        return (f"< {term.published:g} ({100 * term.confidence:g}%, half-Gaussian "
+                f"sigma {term.sigma:.3g})")
+    return f"{term.published:g} +- {term.error_or_limit:g}"
+
+
+def format_score(score: Score, title: str = "") -> str:
+    """The human-readable score table."""
+    header = ("quantity", "k_* [1/Mpc]", "predicted", "published (68% error or limit)", "pull",
+              "chi2", "source")
+    rows = [
+        (
+            QUANTITY_LABELS.get(t.quantity, t.quantity),
+            f"{t.pivot:g}",
+            _num(t.predicted, 5),
+            _published(t),
+            f"{t.pull:+.2f}",
+            f"{t.chi2:.3f}",
+            t.source,
+        )
+        for t in score.terms
+    ]
+    widths = [max(len(r[i]) for r in [header, *rows]) for i in range(len(header))]
+    lines = []
+    if title:
+        lines += [title, ""]
+    lines.append("  ".join(h.ljust(w) for h, w in zip(header, widths, strict=True)).rstrip())
+    lines.append("  ".join("-" * w for w in widths))
+    for r in rows:
+        lines.append("  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)).rstrip())
+    lines.append("")
+    lines.append(
+        f"total chi2 = {score.chi2:.3f}, dof = {score.dof}, p-value = {score.p_value:.3g}"
+    )
+    if score.verdict == "excluded":
+        verdict = f"EXCLUDED at {100 * score.excluded_at:g}%"
+    else:
+        verdict = "allowed (not excluded at 95%)"
+    if not score.fit_ok:
+        verdict += "  [UNRELIABLE: fit quality failed, see warnings]"
+    lines.append(f"verdict: {verdict}")
+    fq = []
+    for f in score.fit_quality:
+        state = "ok" if f["fit_ok"] else "FAILED"
+        if f["method"] == "exact":
+            fq.append(f"k = {f['pivot']:g}: exact re-expansion")
+        else:
+            fq.append(
+                f"k = {f['pivot']:g}: cubic fit rms {f['fit_rms']:.2g} "
+                f"(tolerance {f['tolerance']:g}) {state}"
+            )
+    lines.append("fit quality: " + "; ".join(fq))
+    if score.notes:
+        lines.append("notes:")
+        lines.extend(f"  - {n}" for n in score.notes)
+    return "\n".join(lines)
+
+
+def run(args: Any) -> int:
+    path = Path(args.config)
+    config = load_run_config(path)
+    spectra = spectra_from_config(config)
+    likelihood = likelihood_from_config(config, base_dir=path.parent)
+    try:
+        score = likelihood.score(spectra)
+    except NumericalFailure as exc:
+        print(f"bouncelike: numerical failure: {exc}", file=sys.stderr)
+        return 1
+    label = getattr(spectra, "label", "") or type(spectra).__name__
+    if args.json:
+        out = score.as_dict()
+        out["config"] = str(path)
+        out["model"] = spectra.describe() if hasattr(spectra, "describe") else {"label": label}
+        print(json.dumps(json_safe(out), indent=2))
+    else:
+        title = f"{label} ({path.name}) against: {', '.join(score.sets)}"
+        print(format_score(score, title))
+    return 0

@@ -1,0 +1,120 @@
+"""``bouncelike spectrum CONFIG.toml``: primordial spectra of a bounce configuration.
+
+Writes ``spectrum.csv`` (k in Mpc^-1, k/k_LQC, P_s, P_t), ``spectrum.pdf`` and ``spectrum.png``
+(P_s and P_t against k with the observable window, the pivot, the bounce scale and the
+power-law reference of the pivot summary) and ``spectrum.json``; ``--json`` prints the summary.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+
+NAME = "spectrum"
+HELP = "primordial scalar and tensor spectra of a bounce configuration (table, figure, summary)"
+
+
+def add_arguments(parser) -> None:
+    parser.add_argument("config", help="run configuration (TOML) with [model] spectra = 'bounce'")
+    parser.add_argument("--output", default=None, help="output folder "
+                        "(default bouncelike-out/<config stem>/)")
+    parser.add_argument("--json", action="store_true", help="print the summary as JSON")
+    parser.add_argument("--quiet", action="store_true", help="no progress bar")
+
+
+def pivot_summary(k: np.ndarray, ps: np.ndarray, pt: np.ndarray, pivot: float,
+                  half_width: float = 1.0) -> dict:
+    """Local quadratic fit of ln P_s in ln(k/k_*) over +-half_width: A_s, n_s, running; r."""
+    x = np.log(k / pivot)
+    m = np.abs(x) <= half_width
+    if m.sum() < 4:
+        return {"pivot": pivot, "fit_ok": False}
+    c = np.polyfit(x[m], np.log(ps[m]), 2)
+    ln_as = c[2]
+    r = float(np.exp(np.interp(0.0, x, np.log(pt)) - ln_as))
+    resid = np.log(ps[m]) - np.polyval(c, x[m])
+    return {"pivot": pivot, "ln_1e10_As": float(ln_as + math.log(1e10)),
+            "n_s": float(1 + c[1]), "running": float(2 * c[0]), "r": r,
+            "fit_rms": float(np.sqrt(np.mean(resid**2))), "fit_ok": bool(
+                np.sqrt(np.mean(resid**2)) < 1e-2)}
+
+
+def _figure(run, summary: dict):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from ..perturbations.mapping import OBSERVABLE_WINDOW
+
+    k, sp = run.k_mpc, run.spectrum
+    fig, ax = plt.subplots(figsize=(7, 4.5))
+    ax.loglog(k, sp.scalar, label="$P_s$ (scalar)")
+    ax.loglog(k, sp.tensor, label="$P_t$ (tensor)")
+    if summary.get("fit_ok") is not None and "n_s" in summary:
+        kp = summary["pivot"]
+        ref = np.exp(summary["ln_1e10_As"]) * 1e-10 * (k / kp) ** (summary["n_s"] - 1)
+        ax.loglog(k, ref, "k--", lw=0.8, label=f"power law, $n_s$={summary['n_s']:.4f}")
+        ax.loglog(k, summary["r"] * ref, "k:", lw=0.8, label=f"r x power law, r={summary['r']:.3g}")
+        ax.axvline(kp, color="grey", lw=0.8)
+    ax.axvspan(*OBSERVABLE_WINDOW, color="tab:green", alpha=0.12, label="observable window")
+    if k.min() <= run.scales.k_lqc_mpc <= k.max():
+        ax.axvline(run.scales.k_lqc_mpc, color="tab:red", lw=0.8, ls="-.", label="$k_{LQC}$")
+    ax.set_xlabel("k [Mpc$^{-1}$]")
+    ax.set_ylabel("power spectrum")
+    ax.set_title(f"{sp.prescription.replace('_', ' ')}, state {sp.state}")
+    finite = np.concatenate([sp.scalar, sp.tensor])
+    ax.set_ylim(max(finite.min() * 0.5, 1e-300), min(finite.max() * 2, 1e300))
+    ax.legend(fontsize=7)
+    fig.tight_layout()
+    return fig
+
+
+def run(args) -> int:
+    import pandas as pd
+
+    from ..config import load_run_config
+    from ..io import json_safe, save_figure_atomic, write_csv_atomic, write_json_atomic
+    from ..perturbations.forward import run_from_config
+
+    config = load_run_config(args.config)
+    br = run_from_config(config, show_progress=not args.quiet)
+    sp = br.spectrum
+    summary = pivot_summary(br.k_mpc, sp.scalar, sp.tensor, br.scales.pivot)
+    out = Path(args.output) if args.output else Path("bouncelike-out") / Path(args.config).stem
+    frame = pd.DataFrame({"k_mpc": br.k_mpc, "k_over_k_lqc": sp.k / sp.k_lqc,
+                          "P_s": sp.scalar, "P_t": sp.tensor})
+    fig = _figure(br, summary)
+    result = {"pivot_summary": summary, "k_lqc_mpc": br.scales.k_lqc_mpc,
+              "log10_k_lqc_mpc": br.scales.ln_k_lqc_mpc / math.log(10),
+              "n_star": br.scales.n_star, "n_bounce_to_pivot": br.scales.n_bounce_pivot,
+              "prescription": sp.prescription, "state": sp.state,
+              "sign_convention": sp.sign_convention,
+              "max_wronskian_error": sp.max_wronskian_error,
+              "background": br.table.label, **{f"background_{k}": v for k, v in
+                                               br.table.info.items()},
+              "notes": list(br.notes),
+              "files": [str(out / n) for n in ("spectrum.csv", "spectrum.pdf", "spectrum.png",
+                                               "spectrum.json")]}
+    write_csv_atomic(out / "spectrum.csv", frame, index=False)
+    save_figure_atomic(fig, out / "spectrum.pdf")
+    save_figure_atomic(fig, out / "spectrum.png", dpi=120)
+    write_json_atomic(out / "spectrum.json", json_safe(result))
+    if args.json:
+        import json
+
+        print(json.dumps(json_safe(result)))
+    else:
+        s = summary
+        print(f"k_LQC = 10^{br.scales.ln_k_lqc_mpc / math.log(10):.2f} Mpc^-1; "
+              f"N_* = {br.scales.n_star:.2f}, "
+              f"N_B* = {br.scales.n_bounce_pivot:.2f}")
+        if "n_s" in s:
+            print(f"pivot {s['pivot']:g} Mpc^-1: ln(1e10 A_s) = {s['ln_1e10_As']:.4f}, "
+                  f"n_s = {s['n_s']:.4f}, running = {s['running']:.2e}, r = {s['r']:.3g}")
+        for n in br.notes:
+            print("note:", n)
+        print(f"wrote {out}/spectrum.{{csv,pdf,png,json}}")
+    return 0

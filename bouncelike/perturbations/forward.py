@@ -1,0 +1,360 @@
+"""Forward bounce model: configuration -> background -> modes -> spectra in Mpc^-1.
+
+``[perturbations]`` keys (all optional):
+
+=====================  ==========================================================================
+prescription           "dressed_metric" (default) | "deformed_algebra"
+state                  "remote_past" (default) | "bounce_adiabatic4"
+sign_convention        "published" (default, s = -1) | "classical" (s = sign(phidot H))
+k_min, k_max           feature range in units of k_LQC (default 0.01, 100)
+k_count                wavenumbers over [k_min, k_max] (default 120); 40 more cover the
+                       observable window 1e-5-1 Mpc^-1 when it lies outside that range
+bogoliubov_beta        beta_0 of a Bogoliubov rotation (default 0: none)
+bogoliubov_scale       k_beta in units of k_LQC (default 1)
+bogoliubov_phase       theta (radians, default 0)
+past_density           density (Planck units) where the remote-past state is set (default 1e-11)
+freeze                 k/(aH) at which modes are read off (default 1e-3)
+adiabatic_ratio        W / rate above which a stretch is adiabatic (default 40)
+step                   integrator step x frequency (default 0.08)
+switch_density         deformed-algebra scalars: regular variables where rho > this x rho_c
+=====================  ==========================================================================
+
+``[reheating]``: ``n_star`` (e-folds from the pivot's exit to the end of inflation) or
+``equation_of_state`` w and ``density`` rho_reh (Planck units) for the Liddle & Leach estimate;
+``pivot`` (Mpc^-1, default 0.05); ``hubble_constant`` (km/s/Mpc, default Planck 2018).
+
+Deformed-algebra modes whose Euclidean growth exp(2 k int sqrt(-Omega) d eta) would exceed
+e^600 are not integrated: their power is the standard one times e^600, a lower bound (noted).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from ..config import Table
+from ..errors import InputError
+from .background import BackgroundTable, integrate_background
+from .mapping import ScaleMap, liddle_leach_n_star, scale_map
+from .prescriptions import PRESCRIPTIONS, SIGN_CONVENTIONS
+from .spectra import BounceSpectrum, bounce_spectra
+from .states import STATES, Bogoliubov
+
+PERTURBATION_KEYS = ("prescription", "state", "sign_convention", "k_min", "k_max", "k_count",
+                     "bogoliubov_beta", "bogoliubov_scale", "bogoliubov_phase", "past_density",
+                     "freeze", "adiabatic_ratio", "step", "switch_density")
+REHEATING_KEYS = ("n_star", "equation_of_state", "density", "pivot", "hubble_constant")
+WINDOW_GRID = (1e-5, 1.0, 40)
+MAX_GROWTH_EXPONENT = 600.0
+
+
+@dataclass(frozen=True)
+class PerturbationOptions:
+    prescription: str = "dressed_metric"
+    state: str = "remote_past"
+    sign_convention: str = "published"
+    k_min: float = 0.01
+    k_max: float = 100.0
+    k_count: int = 120
+    bogoliubov_beta: float = 0.0
+    bogoliubov_scale: float = 1.0
+    bogoliubov_phase: float = 0.0
+    past_density: float = 1e-11
+    freeze: float = 1e-3
+    adiabatic_ratio: float = 40.0
+    step: float = 0.08
+    switch_density: float = 1e-4
+
+    @classmethod
+    def from_table(cls, t: Table) -> PerturbationOptions:
+        d = cls()
+        opts = cls(
+            prescription=t.string("prescription", d.prescription, choices=PRESCRIPTIONS),
+            state=t.string("state", d.state, choices=STATES),
+            sign_convention=t.string("sign_convention", d.sign_convention,
+                                     choices=SIGN_CONVENTIONS),
+            k_min=t.positive("k_min", d.k_min), k_max=t.positive("k_max", d.k_max),
+            k_count=t.integer("k_count", d.k_count, minimum=4),
+            bogoliubov_beta=t.number("bogoliubov_beta", d.bogoliubov_beta, minimum=0.0),
+            bogoliubov_scale=t.positive("bogoliubov_scale", d.bogoliubov_scale),
+            bogoliubov_phase=t.number("bogoliubov_phase", d.bogoliubov_phase),
+            past_density=t.positive("past_density", d.past_density),
+            freeze=t.number("freeze", d.freeze, minimum=1e-8, maximum=0.1),
+            adiabatic_ratio=t.number("adiabatic_ratio", d.adiabatic_ratio, minimum=5.0),
+            step=t.number("step", d.step, minimum=1e-3, maximum=0.5),
+            switch_density=t.number("switch_density", d.switch_density, minimum=1e-12,
+                                    maximum=0.1))
+        if opts.k_max <= opts.k_min:
+            raise InputError("perturbations.k_max must exceed perturbations.k_min")
+        return opts
+
+
+@dataclass(frozen=True)
+class BounceRun:
+    """Everything computed for one bounce configuration."""
+
+    table: BackgroundTable
+    spectrum: BounceSpectrum
+    scales: ScaleMap
+    k_mpc: np.ndarray
+    notes: tuple[str, ...]
+
+
+def euclidean_growth_rate(tab: BackgroundTable) -> float:
+    """2 int sqrt(-Omega) d eta over the Euclidean phase (WKB growth exponent per unit k)."""
+    integrand = np.where(tab.Omega < 0, np.sqrt(np.abs(tab.Omega)), 0.0) / tab.a
+    return float(2 * np.trapezoid(integrand, tab.t))
+
+
+def slow_roll_end(potential: Any, phi: float) -> float:
+    """Field value where epsilon_V = (V'/V)^2/(16 pi) = 1, rolling down from ``phi``."""
+    from scipy.optimize import brentq
+
+    s = math.copysign(1.0, float(potential.dV(phi)))
+
+    def eps(x):
+        return (float(potential.dV(x)) / float(potential.V(x))) ** 2 / (16 * math.pi) - 1.0
+
+    if eps(phi) >= 0:
+        raise InputError("slow roll: the field is not inflating at the integration cap")
+    prev, step, x = phi, 1e-3 * max(abs(phi), 1.0), phi
+    while eps(x) < 0:
+        prev = x
+        x -= s * step
+        step *= 1.5
+        if abs(x - phi) > 1e3:
+            raise InputError("slow roll: no end of inflation found along the potential")
+    return brentq(eps, prev, x)
+
+
+def slow_roll_efolds(potential: Any, phi: float, phi_end: float) -> float:
+    """N(phi) = 8 pi int_{phi_end}^{phi} V/V' dphi (Planck units)."""
+    from scipy.integrate import quad
+
+    return 8 * math.pi * quad(lambda y: float(potential.V(y)) / float(potential.dV(y)),
+                              phi_end, phi, limit=400)[0]
+
+
+def _beyond_cap(tab: BackgroundTable, potential: Any, opts: PerturbationOptions,
+                n_star: float | None, reheating, pivot: float, h0: float | None) -> BounceRun:
+    """Inflation outlasts the integration cap: window spectra of the slow-roll attractor."""
+    from scipy.optimize import brentq
+
+    if potential is None:
+        raise InputError("inflation does not end within the background: cannot place N_*")
+    phi_cap = float(tab.phi[-1])
+    phi_end = slow_roll_end(potential, phi_cap)
+    n_cap = slow_roll_efolds(potential, phi_cap, phi_end)
+    target = 95.0
+    if n_cap < target + 5:
+        raise InputError("inflation does not end within the background: cannot place N_*")
+    phi_x = brentq(lambda y: slow_roll_efolds(potential, y, phi_end) - target, phi_end, phi_cap)
+    v0 = -float(potential.dV(phi_x)) / math.sqrt(24 * math.pi * float(potential.V(phi_x)))
+    ctab = integrate_background(potential, math.inf, phi_x, v0)
+    if n_star is None:
+        n_star = liddle_leach_n_star(ctab, reheating[0], reheating[1], pivot, h0)
+    sm_c = scale_map(ctab, n_star, pivot)
+    lo, hi, n = WINDOW_GRID
+    k_mpc = np.geomspace(lo, hi, n)
+    kb = sm_c.to_bounce(k_mpc)
+    std = bounce_spectra(ctab, kb, prescription="dressed_metric", state="remote_past",
+                         sign_convention="classical", step=opts.step,
+                         adiabatic_ratio=opts.adiabatic_ratio, freeze=opts.freeze)
+    boost = math.exp(MAX_GROWTH_EXPONENT) if opts.prescription == "deformed_algebra" else 1.0
+    ln_a_end_classical = float(np.interp(ctab.t_inflation_end, ctab.t, ctab.ln_a))
+    n_b_star = float(tab.ln_a[-1] - tab.ln_a[tab.bounce_index()]) + n_cap - n_star
+    ln_k_lqc = (math.log(pivot) - n_b_star
+                - math.log(float(np.interp(ln_a_end_classical - n_star, ctab.ln_a, ctab.H))
+                           / math.sqrt(8 * math.pi * (tab.critical_density
+                                                      - tab.V[tab.bounce_index()]))))
+    sm = ScaleMap(n_star, n_b_star, pivot, ln_k_lqc - math.log(tab.k_lqc), ln_k_lqc, math.nan)
+    notes = [sm.bounce_scale_note(),
+             f"inflation outlasts the integration cap of {tab.ln_a[-1]:.0f} e-folds after the "
+             f"bounce; slow roll adds {n_cap:.0f} more, so N_B* ~ {n_b_star:.0f} and the window "
+             "spectra are those of the slow-roll attractor (modes started inside the Hubble "
+             "radius during inflation, bounce untouched)"]
+    if opts.prescription == "deformed_algebra":
+        notes.append("deformed algebra: every window mode lies so far above k_LQC that its "
+                     "Euclidean growth exceeds e^600; the power is given as the standard one x "
+                     "e^600, a lower bound")
+    spectrum = BounceSpectrum(kb, std.scalar * boost, std.tensor * boost, tab.k_lqc,
+                              opts.prescription, opts.state, std.sign_convention,
+                              std.scalar_modes, std.tensor_modes, std.notes, std.settings)
+    return BounceRun(ctab, spectrum, sm, k_mpc, tuple(notes))
+
+
+def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | None = None,
+               reheating: tuple[float, float] | None = None, pivot: float = 0.05,
+               h0: float | None = None, potential: Any = None,
+               show_progress: bool = False) -> BounceRun:
+    """Spectra of one background in bounce units and in Mpc^-1."""
+    if not np.isfinite(tab.t_inflation_end):
+        return _beyond_cap(tab, potential, opts, n_star, reheating, pivot, h0)
+    if n_star is None:
+        if reheating is None:
+            raise InputError("[reheating] needs n_star, or equation_of_state and density")
+        n_star = liddle_leach_n_star(tab, reheating[0], reheating[1], pivot, h0)
+    sm = scale_map(tab, n_star, pivot)
+    k_lqc = tab.k_lqc
+    ln_feat = np.log(np.geomspace(opts.k_min, opts.k_max, opts.k_count) * k_lqc)
+    lo, hi, n = WINDOW_GRID
+    ln_win = np.log(np.geomspace(lo, hi, n)) - sm.ln_mpc_per_bounce_unit
+    ln_kb = np.unique(np.concatenate([ln_feat, ln_win[(ln_win < ln_feat[0])
+                                                      | (ln_win > ln_feat[-1])]]))
+    notes = []
+    rate = euclidean_growth_rate(tab) if opts.prescription == "deformed_algebra" else 0.0
+    ln_aH = tab.ln_a + np.log(np.maximum(tab.H, 1e-300))
+    post = np.arange(len(tab.t)) > tab.bounce_index()
+    i_infl = int(np.nonzero(post)[0][np.argmin(ln_aH[post])])
+    # modes through the bounce: a = e^{ln a} stays finite and no e^600 growth
+    through = (ln_kb - math.log(opts.freeze) + 2 < 600) & (rate * np.exp(np.minimum(
+        ln_kb, 600)) <= MAX_GROWTH_EXPONENT)
+    if opts.prescription == "deformed_algebra":
+        through &= ln_kb <= ln_feat[-1] + 2
+    scal, tens = np.empty(len(ln_kb)), np.empty(len(ln_kb))
+    bog = (Bogoliubov(opts.bogoliubov_beta, opts.bogoliubov_scale * k_lqc,
+                      opts.bogoliubov_phase) if opts.bogoliubov_beta > 0 else None)
+    kw = {"state": opts.state, "sign_convention": opts.sign_convention, "bogoliubov": bog,
+          "step": opts.step, "adiabatic_ratio": opts.adiabatic_ratio, "freeze": opts.freeze,
+          "switch_density": opts.switch_density}
+    cut = np.nonzero(ln_aH[i_infl:] >= ln_kb[through].max() - math.log(opts.freeze) + 1)[0]
+    i_cut = i_infl + int(cut[0]) + 1 if len(cut) else len(tab.t) - 1
+    ftab = tab.section(0, min(i_cut, len(tab.t) - 1))
+    sp = bounce_spectra(ftab, np.exp(ln_kb[through]), prescription=opts.prescription,
+                        show_progress=show_progress, **kw)
+    scal[through], tens[through] = sp.scalar, sp.tensor
+    if opts.prescription == "dressed_metric":
+        # show what the sign ambiguity of the regular potential does (physics notes s.4)
+        other = "classical" if opts.sign_convention == "published" else "published"
+        from .modes import ModeSolver
+        from .prescriptions import mode_system
+        from .states import make_state
+
+        alt = ModeSolver(mode_system(ftab, "scalar", opts.prescription, other,
+                                     opts.switch_density), step=opts.step,
+                         adiabatic_ratio=opts.adiabatic_ratio, freeze=opts.freeze).solve(
+            np.exp(ln_kb[through]), make_state(opts.state, bog))
+        dev = np.abs(alt.power / sp.scalar - 1)
+        j = int(np.argmax(dev))
+        notes.append(f"sign convention: '{other}' instead of '{opts.sign_convention}' changes "
+                     f"P_s by up to {dev[j]:.2%} (at k = {np.exp(ln_kb[through][j]) / k_lqc:.3g}"
+                     " k_LQC); tensors do not depend on it")
+    late = ~through
+    if late.any():
+        # far-ultraviolet modes: started late inside the Hubble radius during inflation on a
+        # section of the background with a renormalised scale factor (standard evolution)
+        i0 = np.nonzero((np.arange(len(tab.t)) >= i_infl)
+                        & (ln_aH >= ln_kb[late].min() - math.log(10 * opts.adiabatic_ratio)))[0]
+        i1 = np.nonzero(ln_aH >= ln_kb[late].max() - math.log(opts.freeze) + 1)[0]
+        if len(i0) == 0 or len(i1) == 0 or i0[0] == i_infl:
+            raise InputError("the observable window cannot be reached on this background "
+                             "(inflation too short after the bounce for the late start)")
+        shift = -float(tab.ln_a[i0[0]])
+        stab = tab.section(int(i0[0]), int(i1[0]), shift)
+        std = bounce_spectra(stab, np.exp(ln_kb[late] + shift), prescription="dressed_metric",
+                             **{**kw, "state": "remote_past", "bogoliubov": None,
+                                "sign_convention": "classical"})
+        boost = math.exp(MAX_GROWTH_EXPONENT) if opts.prescription == "deformed_algebra" else 1.0
+        scal[late], tens[late] = std.scalar * boost, std.tensor * boost
+        if opts.prescription == "deformed_algebra":
+            notes.append(f"deformed algebra: {int(late.sum())} modes above "
+                         f"k = {math.exp(ln_kb[late].min()) / k_lqc:.3g} k_LQC grow by more "
+                         "than e^600 in the Euclidean phase; their power is given as the "
+                         "standard one x e^600, a lower bound")
+        else:
+            notes.append(f"{int(late.sum())} modes above {math.exp(ln_kb[late].min()) / k_lqc:.3g}"
+                         " k_LQC were started inside the Hubble radius during inflation "
+                         "(adiabatic vacuum; the bounce leaves them untouched)")
+    kb = np.exp(np.minimum(ln_kb, 700))
+    ad = np.concatenate([sp.scalar_modes.start_adiabaticity, sp.tensor_modes.start_adiabaticity])
+    ad = ad[np.isfinite(ad)]
+    if opts.state == "remote_past" and len(ad):
+        notes.append(f"remote-past state set at rho = {opts.past_density:g} (Planck units): "
+                     f"background rate / mode frequency <= {ad.max():.2g} there")
+    notes.append(f"Wronskian conserved to {sp.max_wronskian_error:.1e} (relative to its "
+                 "round-off floor)")
+    notes = [sm.bounce_scale_note(), *sp.notes, *notes]
+    if opts.prescription == "deformed_algebra":
+        notes.append("deformed-algebra scalars: regular variables (R, s = p - k^2 g R) near "
+                     "the bounce, Q with Omega k^2 and the classical potential where rho < "
+                     f"{opts.switch_density:g} rho_c")
+    k_mpc = np.exp(ln_kb + sm.ln_mpc_per_bounce_unit)
+    keep = k_mpc > 1e-250
+    if not keep.all():
+        notes.append(f"{int((~keep).sum())} wavenumbers below 1e-250 Mpc^-1 dropped from the "
+                     "table")
+    spectrum = BounceSpectrum(kb[keep], scal[keep], tens[keep], k_lqc, opts.prescription,
+                              opts.state, sp.sign_convention, sp.scalar_modes, sp.tensor_modes,
+                              sp.notes, sp.settings)
+    return BounceRun(tab, spectrum, sm, k_mpc[keep], tuple(notes))
+
+
+def _background(config: Table, past_density: float) -> tuple[BackgroundTable, list[str], Any]:
+    """Bounce state from the background layer's configuration, then our own dense table."""
+    from ..background.setup import background_from_config  # lands with the engine
+
+    setup = background_from_config(config)
+    name = getattr(setup.dynamics, "NAME", "")
+    if name != "isotropic":
+        raise InputError(f"background.dynamics = '{name}' is not supported by the bounce spectra "
+                         "model; allowed: isotropic (modes live on the isotropic effective "
+                         "background)")
+    pot = setup.potential
+    rc = float(setup.dynamics.critical_density)
+    notes = []
+    init = setup.initial
+    from ..background.initial import BounceStart
+
+    if isinstance(init, BounceStart):
+        sign = 1.0 if init.phidot_sign >= 0 else -1.0
+        phi_b = float(pot.field_at(init.potential_fraction * rc, sign))
+        phidot_b = sign * math.sqrt(2 * rc * (1 - init.potential_fraction))
+    else:
+        traj = setup.dynamics.evolve(pot, init, setup.settings)
+        if not np.isfinite(traj.events.t_bounce):
+            raise InputError(f"the background has no bounce ({traj.message})")
+        s = traj.state_at(traj.events.t_bounce)
+        phi_b = float(s["phi"])
+        phidot_b = math.copysign(math.sqrt(max(2 * (rc - float(pot.V(phi_b))), 0.0)),
+                                 float(s["phidot"]))
+        notes.append(f"bounce state taken from the {traj.dynamics} engine run "
+                     f"(status {traj.status})")
+    tab = integrate_background(pot, rc, phi_b, phidot_b, past_density=past_density,
+                               max_efolds=3000.0)
+    return tab, notes, pot
+
+
+def bounce_spectra_from_config(config: Table) -> Any:
+    """``[model] spectra = "bounce"``: TabulatedSpectra in Mpc^-1 with notes."""
+    run = run_from_config(config)
+    from ..spectra.tabulated import TabulatedSpectra
+
+    return TabulatedSpectra(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor,
+                            notes=run.notes, label=f"bounce ({run.spectrum.prescription})")
+
+
+def reheating_from_table(t: Table) -> tuple[float | None, tuple[float, float] | None, float,
+                                            float | None]:
+    pivot = t.positive("pivot", 0.05)
+    h0 = t.positive("hubble_constant", None) if "hubble_constant" in t else None
+    if "n_star" in t:
+        if "equation_of_state" in t or "density" in t:
+            raise InputError("reheating: give either n_star or equation_of_state + density")
+        return t.positive("n_star"), None, pivot, h0
+    if "equation_of_state" in t and "density" in t:
+        return None, (t.number("equation_of_state"), t.positive("density")), pivot, h0
+    raise InputError("[reheating] needs n_star, or equation_of_state and density")
+
+
+def run_from_config(config: Table, show_progress: bool = False) -> BounceRun:
+    pt = config.table("perturbations", PERTURBATION_KEYS)
+    opts = PerturbationOptions.from_table(pt)
+    rt = config.table("reheating", REHEATING_KEYS, required=True)
+    n_star, reh, pivot, h0 = reheating_from_table(rt)
+    tab, notes, pot = _background(config, opts.past_density)
+    run = run_bounce(tab, opts, n_star, reh, pivot, h0, potential=pot,
+                     show_progress=show_progress)
+    return BounceRun(run.table, run.spectrum, run.scales, run.k_mpc, (*run.notes, *notes))

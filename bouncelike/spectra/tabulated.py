@@ -1,0 +1,162 @@
+"""Tabulated primordial spectra with log-log interpolation.
+
+A forward model (for example the bounce) produces P_s and P_t on a grid of comoving wavenumbers
+in Mpc^-1. :class:`TabulatedSpectra` interpolates ln P linearly in ln k. Outside the table it
+refuses (``InputError`` naming the table range) unless constructed with ``extrapolate=True``,
+in which case the end segments are continued as power laws and a note says so.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from ..errors import InputError
+from ..units import wavenumber_in_mpc
+
+
+def _as_positive_array(name: str, values: Any, allow_zero: bool) -> np.ndarray:
+    arr = np.array(wavenumber_in_mpc(values) if name == "k" else values, dtype=float)
+    if arr.ndim != 1:
+        raise InputError(f"tabulated '{name}' must be a one-dimensional array")
+    if not np.all(np.isfinite(arr)):
+        raise InputError(f"tabulated '{name}' must contain finite numbers only")
+    bad = arr < 0 if allow_zero else arr <= 0
+    if np.any(bad):
+        allowed = ">= 0" if allow_zero else "> 0"
+        raise InputError(f"tabulated '{name}' must be {allowed} everywhere")
+    return arr
+
+
+@dataclass(frozen=True, eq=False)
+class TabulatedSpectra:
+    """Spectra given on a table of comoving wavenumbers.
+
+    Parameters
+    ----------
+    k : array
+        Strictly increasing comoving wavenumbers in Mpc^-1 (or an astropy Quantity), at least 2.
+    scalar, tensor : array
+        P_s(k) > 0 and P_t(k) (> 0 everywhere, or identically zero for no tensors).
+    notes : tuple of str
+        Remarks printed under the score table (e.g. where the bounce scale falls).
+    label : str
+        Short description of the model that produced the table.
+    extrapolate : bool
+        Continue the end segments as power laws outside the table instead of refusing.
+    """
+
+    k: np.ndarray
+    scalar_values: np.ndarray
+    tensor_values: np.ndarray
+    notes: tuple[str, ...] = field(default=())
+    label: str = ""
+    extrapolate: bool = False
+
+    def __init__(
+        self,
+        k: Any,
+        scalar: Any,
+        tensor: Any,
+        notes: tuple[str, ...] | list[str] = (),
+        label: str = "",
+        extrapolate: bool = False,
+    ):
+        k_arr = _as_positive_array("k", k, allow_zero=False)
+        ps = _as_positive_array("scalar", scalar, allow_zero=False)
+        pt = _as_positive_array("tensor", tensor, allow_zero=True)
+        if k_arr.size < 2:
+            raise InputError("tabulated 'k' needs at least 2 wavenumbers")
+        if ps.shape != k_arr.shape or pt.shape != k_arr.shape:
+            raise InputError(
+                f"tabulated 'scalar' and 'tensor' must have the same length as 'k' ({k_arr.size})"
+            )
+        if np.any(np.diff(k_arr) <= 0):
+            raise InputError("tabulated 'k' must be strictly increasing")
+        if np.any(pt == 0) and not np.all(pt == 0):
+            raise InputError("tabulated 'tensor' must be > 0 everywhere or identically zero")
+        notes = tuple(str(n) for n in notes)
+        if extrapolate:
+            notes = notes + (
+                f"spectra extrapolated as power laws outside the table "
+                f"[{k_arr[0]:.3g}, {k_arr[-1]:.3g}] Mpc^-1",
+            )
+        for name, arr in (("k", k_arr), ("scalar_values", ps), ("tensor_values", pt)):
+            arr.setflags(write=False)
+            object.__setattr__(self, name, arr)
+        object.__setattr__(self, "notes", notes)
+        object.__setattr__(self, "label", str(label))
+        object.__setattr__(self, "extrapolate", bool(extrapolate))
+        object.__setattr__(self, "_ln_k", np.log(k_arr))
+        object.__setattr__(self, "_ln_ps", np.log(ps))
+        zero_t = bool(np.all(pt == 0))
+        object.__setattr__(self, "_ln_pt", None if zero_t else np.log(pt))
+
+    @property
+    def k_min(self) -> float:
+        return float(self.k[0])
+
+    @property
+    def k_max(self) -> float:
+        return float(self.k[-1])
+
+    @property
+    def has_tensors(self) -> bool:
+        return self._ln_pt is not None
+
+    def _ln_k_query(self, k: Any) -> np.ndarray:
+        kq = wavenumber_in_mpc(k)
+        if np.any(~(kq > 0)):
+            raise InputError("wavenumbers k must be positive and finite (Mpc^-1)")
+        ln_kq = np.log(kq)
+        if not self.extrapolate:
+            # a relative slack of 1e-12 absorbs rounding at the table edges
+            lo, hi = self._ln_k[0] - 1e-12, self._ln_k[-1] + 1e-12
+            if np.any(ln_kq < lo) or np.any(ln_kq > hi):
+                raise InputError(
+                    f"k outside the tabulated range [{self.k_min:.4g}, {self.k_max:.4g}] Mpc^-1 "
+                    f"(requested {float(np.min(kq)):.4g}..{float(np.max(kq)):.4g}); "
+                    "extend the table or construct with extrapolate=True"
+                )
+        return ln_kq
+
+    def _interp(self, ln_kq: np.ndarray, ln_p: np.ndarray) -> np.ndarray:
+        x, y = self._ln_k, ln_p
+        out = np.interp(ln_kq, x, y)
+        if self.extrapolate:
+            lo = ln_kq < x[0]
+            hi = ln_kq > x[-1]
+            if np.any(lo):
+                slope = (y[1] - y[0]) / (x[1] - x[0])
+                out[lo] = y[0] + slope * (ln_kq[lo] - x[0])
+            if np.any(hi):
+                slope = (y[-1] - y[-2]) / (x[-1] - x[-2])
+                out[hi] = y[-1] + slope * (ln_kq[hi] - x[-1])
+        return np.exp(out)
+
+    def scalar(self, k: Any) -> np.ndarray:
+        """P_s(k), log-log interpolated, for comoving k in Mpc^-1."""
+        ln_kq = np.atleast_1d(self._ln_k_query(k)).astype(float)
+        out = self._interp(ln_kq, self._ln_ps)
+        return out.reshape(np.shape(wavenumber_in_mpc(k)))
+
+    def tensor(self, k: Any) -> np.ndarray:
+        """P_t(k), log-log interpolated (zeros when the table has no tensors)."""
+        ln_kq = np.atleast_1d(self._ln_k_query(k)).astype(float)
+        if self._ln_pt is None:
+            out = np.zeros_like(ln_kq)
+        else:
+            out = self._interp(ln_kq, self._ln_pt)
+        return out.reshape(np.shape(wavenumber_in_mpc(k)))
+
+    def describe(self) -> dict[str, Any]:
+        return {
+            "model": "tabulated",
+            "label": self.label,
+            "k_min": self.k_min,
+            "k_max": self.k_max,
+            "points": int(self.k.size),
+            "extrapolate": self.extrapolate,
+        }

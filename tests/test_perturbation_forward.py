@@ -1,0 +1,152 @@
+"""Mapping to Mpc^-1, forward model on an integrated bounce, and the spectrum command."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pytest
+from perturbations_helpers import bounce_background
+
+from bouncelike.perturbations.forward import PerturbationOptions, run_bounce
+from bouncelike.perturbations.mapping import liddle_leach_n_star, scale_map
+
+
+def test_scale_map_relation():
+    # ln(k_*/k_LQC) = N_B* + ln(H_*/sqrt(8 pi (rho_c - V_B))) (physics notes s.5)
+    tab = bounce_background()
+    sm = scale_map(tab, 55.0)
+    i = np.argmin(np.abs(tab.ln_a - sm.ln_a_pivot))
+    ib = tab.bounce_index()
+    rhs = sm.n_bounce_pivot + math.log(tab.H[i] / math.sqrt(8 * math.pi * (
+        tab.critical_density - tab.V[ib])))
+    assert math.log(sm.pivot / sm.k_lqc_mpc) == pytest.approx(rhs, abs=1e-3)
+
+
+def test_liddle_leach_range():
+    # Liddle & Leach (PRD 68 (2003) 103503): N_* ~ 50-60 for GUT-scale inflation with
+    # instant to matter-like reheating; w = 1/3 removes the reheating term exactly.
+    tab = bounce_background()
+    n_inst = liddle_leach_n_star(tab, 1 / 3, 1e-20)
+    i_end = np.argmin(np.abs(tab.t - tab.t_inflation_end))
+    n_rad = liddle_leach_n_star(tab, 1 / 3, float(tab.rho[i_end]))
+    assert n_inst == pytest.approx(n_rad, abs=1e-9)
+    assert 50 < n_inst < 62
+    assert liddle_leach_n_star(tab, 0.0, 1e-20) < n_inst
+
+
+@pytest.mark.parametrize("presc", ["dressed_metric", "deformed_algebra"])
+def test_forward_model_covers_window_and_notes_bounce_scale(presc):
+    tab = bounce_background()
+    run = run_bounce(tab, PerturbationOptions(prescription=presc, k_count=24), n_star=55.0)
+    assert run.k_mpc.min() < 1e-4 and run.k_mpc.max() > 0.2
+    assert np.all(np.diff(run.k_mpc) > 0)
+    assert "bounce scale k_LQC" in run.notes[0] and "observable window" in run.notes[0]
+    assert np.all(np.isfinite(run.spectrum.scalar)) and np.all(run.spectrum.tensor > 0)
+    j = np.argmin(np.abs(run.k_mpc - 0.05))
+    if presc == "dressed_metric":
+        assert any(n.startswith("sign convention: 'classical'") for n in run.notes)
+    if presc == "deformed_algebra":
+        # UV growth: k_* ~ 23 k_LQC here, far above the dressed-metric (standard) value
+        dm = run_bounce(tab, PerturbationOptions(k_count=24), n_star=55.0)
+        assert run.spectrum.tensor[j] > 1e6 * dm.spectrum.tensor[j]
+
+
+def test_spectrum_command_writes_outputs(tmp_path, monkeypatch, capsys):
+    from bouncelike import cli
+    from bouncelike.perturbations import forward
+
+    tab = bounce_background()
+    run = run_bounce(tab, PerturbationOptions(k_count=24), n_star=55.0)
+    monkeypatch.setattr(forward, "run_from_config", lambda config, show_progress=False: run)
+    cfg = tmp_path / "b.toml"
+    cfg.write_text('[model]\nspectra = "bounce"\n')
+    code = cli.main(["spectrum", str(cfg), "--output", str(tmp_path / "out"), "--json",
+                     "--quiet"])
+    assert code == 0
+    out = json.loads(capsys.readouterr().out)
+    for name in ("spectrum.csv", "spectrum.pdf", "spectrum.png", "spectrum.json"):
+        assert (tmp_path / "out" / name).is_file()
+    assert out["k_lqc_mpc"] == pytest.approx(run.scales.k_lqc_mpc)
+    # m^2 phi^2 with N_* = 55 at k_* >> k_LQC: slow-roll values (Encyclopaedia Inflationaris)
+    assert out["pivot_summary"]["n_s"] == pytest.approx(1 - 2 / 55.5, abs=5e-3)
+
+
+def test_plateau_beyond_cap_gives_slow_roll_window():
+    # Starobinsky plateau thrown up at the bounce: inflation outlasts the cap; the window
+    # spectra are the slow-roll ones, n_s ~ 1 - 2/N, r ~ 12/N^2 (Encyclopaedia Inflationaris,
+    # arXiv:1303.3787; leading order in 1/N), and the bounce scale lies far below the window.
+    from bouncelike.background.potentials import Starobinsky
+    from bouncelike.commands.spectrum import pivot_summary
+    from bouncelike.perturbations.background import integrate_background
+    from bouncelike.units import critical_density
+
+    rc = critical_density()
+    pot = Starobinsky(mass=2.45e-6)
+    xv = 0.5 * pot.plateau / rc
+    phi_b = pot.field_at(xv * rc, 1.0)
+    tab = integrate_background(pot, rc, phi_b, math.sqrt(2 * rc * (1 - xv)),
+                               past_density=1e-11, max_efolds=400.0)
+    assert not np.isfinite(tab.t_inflation_end)
+    for presc in ("dressed_metric", "deformed_algebra"):
+        run = run_bounce(tab, PerturbationOptions(prescription=presc), n_star=55.0,
+                         potential=pot)
+        s = pivot_summary(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor, 0.05)
+        assert s["n_s"] == pytest.approx(1 - 2 / 55, abs=2.5e-3)
+        assert s["r"] == pytest.approx(12 / 55**2, rel=0.15)
+        assert run.scales.ln_k_lqc_mpc < math.log(1e-4) - 100
+        assert "outlasts the integration cap" in run.notes[1]
+        if presc == "deformed_algebra":
+            assert s["ln_1e10_As"] > 500  # lower bound e^600 x standard: far beyond any data
+
+
+@pytest.mark.parametrize("name, verdict", [("bounce_dressed_metric", "allowed"),
+                                           ("bounce_deformed_algebra", "excluded")])
+def test_examples_score(name, verdict):
+    # full configuration: background layer setup -> modes -> spectra -> likelihood
+    pytest.importorskip("bouncelike.background.setup")
+    from pathlib import Path
+
+    from bouncelike.config import load_run_config
+    from bouncelike.likelihood.gaussian import likelihood_from_config
+    from bouncelike.models import spectra_from_config
+
+    cfg = load_run_config(Path(__file__).resolve().parents[1] / "examples" / f"{name}.toml")
+    spectra = spectra_from_config(cfg)
+    assert any("bounce scale k_LQC" in n for n in spectra.notes)
+    assert likelihood_from_config(cfg).score(spectra).verdict == verdict
+
+
+def test_spectrum_command_bad_input_exits_2(tmp_path, capsys):
+    from bouncelike import cli
+
+    cfg = tmp_path / "bad.toml"
+    cfg.write_text('[model]\nspectra = "bounce"\n[perturbations]\nprescription = "other"\n')
+    assert cli.main(["spectrum", str(cfg), "--output", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert "perturbations.prescription" in err and len(err.strip().splitlines()) == 1
+    assert not (tmp_path / "o").exists()
+    cfg.write_text('[model]\nspectra = "bounce"\n')
+    assert cli.main(["spectrum", str(cfg), "--output", str(tmp_path / "o")]) == 2
+    assert "reheating" in capsys.readouterr().err
+
+
+def test_contracting_start_on_negative_branch_gives_slow_roll(tmp_path):
+    # A contracting start lands on the phi < 0 side (phidot H > 0 during inflation): both sign
+    # conventions must treat inflation classically, n_s = 1 - 2/(N + 1/2), r = 8/(N + 1/2)
+    # (Encyclopaedia Inflationaris, arXiv:1303.3787) with the bounce far below the window.
+    from bouncelike.commands.spectrum import pivot_summary
+    from bouncelike.config import load_run_config
+    from bouncelike.perturbations.forward import run_from_config
+
+    cfg = tmp_path / "c.toml"
+    cfg.write_text('[model]\nspectra = "bounce"\n[potential]\nname = "quadratic"\n'
+                   'mass = 1.2e-6\n[background]\ndynamics = "isotropic"\nstart = "contracting"\n'
+                   '[background.contracting]\ndensity = 1e-14\nphase = 1.0\n'
+                   '[perturbations]\nk_count = 16\n[reheating]\nn_star = 55.0\n')
+    run = run_from_config(load_run_config(cfg))
+    assert run.table.phi[-1] < 0
+    s = pivot_summary(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor, 0.05)
+    assert s["n_s"] == pytest.approx(1 - 2 / 55.5, abs=1.5e-3)
+    assert s["r"] == pytest.approx(8 / 55.5, rel=0.02)
