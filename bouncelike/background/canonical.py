@@ -89,6 +89,7 @@ class RawRun:
     status: str = "failed"
     message: str = ""
     steps: int = 0
+    rhs_evaluations: int = 0
 
 
 def field_from_phase(potential: Any, density: float, phase: float) -> tuple[float, float]:
@@ -160,7 +161,11 @@ def integrate(
     t_bound = settings.max_time
 
     def make_solver(t0: float, y: np.ndarray, ph: int, tol: Any) -> DOP853:
-        return DOP853(lambda _t, yy: system.rhs(yy, ph), t0, y, t_bound, rtol=rtol, atol=tol)
+        def fun(_t: float, yy: np.ndarray) -> np.ndarray:
+            run.rhs_evaluations += 1
+            return system.rhs(yy, ph)
+
+        return DOP853(fun, t0, y, t_bound, rtol=rtol, atol=tol)
 
     solver = make_solver(0.0, np.asarray(y0, float), phase, atol if phase == PRE else atol_post)
     o = system.observe(solver.y, phase)
@@ -310,6 +315,7 @@ def assemble(
         frac = float(obs[ib, POT] / obs[ib, RHO])
     else:
         frac = math.nan
+    extras = {**extras, "rhs_evaluations": run.rhs_evaluations}
     return BackgroundTrajectory(
         dynamics=name,
         t=t,
