@@ -32,7 +32,7 @@ order-one error of H once theta ~ 1e-10).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -142,6 +142,7 @@ class CondensateDynamics:
     critical_density: float
     rescale: float = 1.0
     condensate_term: float = 0.0
+    canonical: bool = False  # force the canonical integrator even without the extra term
 
     NAME = "condensate"
     CONFIG_KEYS = ("rescale", "condensate_term")
@@ -202,10 +203,32 @@ class CondensateDynamics:
             "'condensate'; allowed: bounce, contracting"
         )
 
+    @property
+    def uses_isotropic_engine(self) -> bool:
+        """Without the extra term the dynamics *is* the isotropic one with rho_c -> rho_c':
+        the compiled isotropic engine is used (``canonical = True`` forces this module's
+        canonical integrator, e.g. to cross-check the two)."""
+        return self.condensate_term == 0.0 and not self.canonical
+
+    def _isotropic(self) -> Any:
+        from .isotropic import IsotropicDynamics
+
+        return IsotropicDynamics(self.effective_critical_density)
+
+    @property
+    def evolve_summary(self) -> Any:
+        """The isotropic engine's fast summary (absent with the condensate term)."""
+        if not self.uses_isotropic_engine:
+            raise AttributeError("evolve_summary")
+        return self._isotropic().evolve_summary
+
     def evolve(
         self, potential: Any, initial: Any, settings: IntegrationSettings | None = None
     ) -> BackgroundTrajectory:
         settings = settings or IntegrationSettings()
+        if self.uses_isotropic_engine:
+            tr = self._isotropic().evolve(potential, initial, settings)
+            return replace(tr, dynamics=self.NAME, settings={**tr.settings, **self.describe()})
         y0, phase = self.initial_state(potential, initial)
         system = self.system(potential)
         atol, atol_post = cn.tolerances(settings, y0)
@@ -229,6 +252,7 @@ class CondensateDynamics:
             "rescale": self.rescale,
             "base_critical_density": self.critical_density,
             "condensate_term": self.condensate_term,
+            "engine": "isotropic (compiled)" if self.uses_isotropic_engine else "canonical",
             "equations": "H^2 = (8 pi/3) rho (1 - rho/rho_c' + q/v), rho_c' = rescale * rho_c, "
             "v = (a/a_0)^3 (a_0 on the initial surface)",
             "contracting_start": "energy angle at density rho_0 as for the isotropic dynamics: "
