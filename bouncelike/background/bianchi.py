@@ -140,6 +140,27 @@ class BianchiSystem:
     gl: float  # gamma * lambda = sqrt(3 / (8 pi rho_c))
     potential: Any
 
+    def shear_squared(self, y: np.ndarray, phase: int) -> float:
+        """sigma^2 = sum_i (H_i - H)^2 = (1/3) sum_{i<j} (H_i - H_j)^2 without cancellation:
+        gamma lambda (H_i - H_j) = sin(x_i - x_j) + 2 sin x_k sin((x_i + x_j)/2)
+        sin((x_i - x_j)/2) (from the cyclic formula; x_i - x_j = dx_i - dx_j exactly)."""
+        sx, _, dx = self.angles(y, phase)
+        w = self._raw_angles(y, phase, dx)  # pi - x_i before the bounce, x_i after it
+        total = 0.0
+        for i, j, k in ((0, 1, 2), (1, 2, 0), (2, 0, 1)):
+            d = dx[i] - dx[j]
+            diff = math.sin(d) + 2.0 * sx[k] * math.sin(0.5 * (w[i] + w[j])) * math.sin(0.5 * d)
+            total += (diff / self.gl) ** 2
+        return total / 3.0
+
+    def _raw_angles(self, y: np.ndarray, phase: int, dx: np.ndarray) -> np.ndarray:
+        if phase == cn.PRE:
+            return math.exp(y[0]) - dx
+        if phase == cn.LATE:
+            rho = 0.5 * y[5] ** 2 + float(self.potential.V(y[4]))
+            return solve_mean_angle(3.0 * rho / self.rho_c, dx) + dx
+        return math.exp(y[0]) + dx
+
     def angles(self, y: np.ndarray, phase: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(sin x_i, cos x_i, x_i - xbar)."""
         dx = _offsets(y[1], y[2], y[3])
@@ -315,9 +336,9 @@ class BianchiIDynamics:
         )
 
     def _extras(self, system: BianchiSystem, run: cn.RawRun, y0: np.ndarray) -> dict[str, Any]:
-        rates = np.array([system.rates(y, p) for y, p in zip(run.y, run.phase, strict=True)])
-        mean = rates.mean(axis=1, keepdims=True)
-        sigma2 = np.sum((rates - mean) ** 2, axis=1)
+        pairs = list(zip(run.y, run.phase, strict=True))
+        rates = np.array([system.rates(y, p) for y, p in pairs])
+        sigma2 = np.array([system.shear_squared(y, p) for y, p in pairs])
         ys = np.array(run.y)
         drift = {}
         for k, name in ((1, "k12"), (2, "k23")):
