@@ -9,7 +9,9 @@ term that decays with the volume:
 
 with rho_c' = ``rescale`` x rho_c (``rescale`` the one required parameter) and q the optional
 condensate term (``condensate_term``, dimensionless, its value relative to the general-relativity
-term on the initial surface, where a = a_0; default 0). Written as
+term on the initial surface, where a = a_0; default 0). The volume shrinks by about 1e9 between
+rho_0 = 1e-16 and the bounce (m = 1.21e-6), so q ~ 1e-12 already moves the bounce by 1e-3;
+q ~ 1e-3 would push it far above the Planck density and the run reports "failed". Written as
 H^2 = (8 pi/3) rho A (1 - rho / (rho_c' A)) with A = 1 + q / v it keeps the loop form, so the
 state is the angle theta with sin^2(theta) = rho / (rho_c' A):
 
