@@ -63,7 +63,7 @@ from ..units import IMMIRZI_DEFAULT
 from ..units import critical_density as lqc_critical_density
 from . import canonical as cn
 from .condensate import bounce_field
-from .initial import BounceStart, ContractingStart, IntegrationSettings
+from .initial import BounceStart, ClassicalStart, ContractingStart, IntegrationSettings
 from .result import BackgroundTrajectory
 
 
@@ -243,9 +243,19 @@ class AsymmetricDynamics:
                                        initial.phidot_sign)
             theta_b = math.asin(math.sqrt(1.0 / (2.0 * (1.0 + self.gamma**2))))
             return np.array([math.log(theta_b), 0.0, phi, phidot]), cn.POST
+        if isinstance(initial, ClassicalStart):  # expanding, general-relativity branch
+            phi, phidot = cn.classical_field(initial)
+            rho = 0.5 * phidot**2 + float(potential.V(phi))
+            if not 0.0 < rho < cn.LATE_FRACTION * self.maximum_density:
+                raise InputError(
+                    f"classical start density {rho:g} is out of range; allowed: > 0 and < "
+                    f"{cn.LATE_FRACTION * self.maximum_density:g}"
+                )
+            y = np.array([0.0, 0.0, phi, phidot])
+            return system.to_late(y), cn.LATE
         raise InputError(
             f"'background.start' = '{type(initial).__name__}' is not available for dynamics "
-            "'asymmetric'; allowed: bounce, contracting"
+            "'asymmetric'; allowed: bounce, classical, contracting"
         )
 
     def evolve(
@@ -255,11 +265,12 @@ class AsymmetricDynamics:
         y0, phase = self.initial_state(potential, initial)
         system = self.system(potential)
         atol, atol_post = cn.tolerances(settings, y0)
+        classical = isinstance(initial, ClassicalStart)
         run = cn.integrate(
             system, y0, phase, settings, atol=atol, atol_post=atol_post,
-            late_density=cn.LATE_FRACTION * self.maximum_density,
+            late_density=cn.LATE_FRACTION * self.maximum_density, classical=classical,
         )
-        return cn.assemble(
+        tr = cn.assemble(
             self.NAME,
             run,
             self.critical_density,
@@ -269,6 +280,7 @@ class AsymmetricDynamics:
                                                                  self.gamma)},
             settings={**settings.as_dict(), "initial": repr(initial), **self.describe()},
         )
+        return cn.as_classical(tr) if classical else tr
 
     def describe(self) -> dict[str, Any]:
         return {

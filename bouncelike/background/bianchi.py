@@ -63,7 +63,7 @@ import numpy as np
 from ..errors import InputError
 from ..units import critical_density as lqc_critical_density
 from . import canonical as cn
-from .initial import IntegrationSettings
+from .initial import ClassicalStart, IntegrationSettings
 from .result import BackgroundTrajectory
 
 
@@ -290,6 +290,16 @@ class BianchiIDynamics:
         return BianchiSystem(self.critical_density, self.gamma_lambda, potential)
 
     def initial_state(self, potential: Any, initial: Any) -> np.ndarray:
+        if isinstance(initial, ClassicalStart):  # isotropic, expanding, no bounce
+            phi, phidot = cn.classical_field(initial)
+            rho = 0.5 * phidot**2 + float(potential.V(phi))
+            if not 0.0 < rho < cn.LATE_FRACTION * self.critical_density:
+                raise InputError(
+                    f"classical start density {rho:g} is out of range; allowed: > 0 and < "
+                    f"{cn.LATE_FRACTION * self.critical_density:g}"
+                )
+            xbar = solve_mean_angle(3.0 * rho / self.critical_density, np.zeros(3))
+            return np.array([math.log(xbar), 0.0, 0.0, 0.0, phi, phidot])
         start = cn.require_contracting(self.NAME, initial)
         rho_c = self.critical_density
         if not 0.0 < start.density < 1e-2 * rho_c:
@@ -321,12 +331,14 @@ class BianchiIDynamics:
         for k in (1, 2):  # conserved differences: relative accuracy
             scale = abs(y0[k]) if y0[k] != 0.0 else 1.0
             atol[k] = atol_post[k] = settings.rtol * scale
+        classical = isinstance(initial, ClassicalStart)
         run = cn.integrate(
-            system, y0, cn.PRE, settings, atol=atol, atol_post=atol_post,
-            late_density=cn.LATE_FRACTION * self.critical_density,
+            system, y0, cn.LATE if classical else cn.PRE, settings, atol=atol,
+            atol_post=atol_post, late_density=cn.LATE_FRACTION * self.critical_density,
+            classical=classical,
         )
         extras = self._extras(system, run, y0)
-        return cn.assemble(
+        tr = cn.assemble(
             self.NAME,
             run,
             self.critical_density,
@@ -334,6 +346,7 @@ class BianchiIDynamics:
             extras=extras,
             settings={**settings.as_dict(), "initial": repr(initial), **self.describe()},
         )
+        return cn.as_classical(tr) if classical else tr
 
     def _extras(self, system: BianchiSystem, run: cn.RawRun, y0: np.ndarray) -> dict[str, Any]:
         pairs = list(zip(run.y, run.phase, strict=True))

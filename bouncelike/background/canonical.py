@@ -146,6 +146,7 @@ def integrate(
     atol: np.ndarray | float | None = None,
     atol_post: np.ndarray | float | None = None,
     late_density: float = 0.0,
+    classical: bool = False,
 ) -> RawRun:
     """Step the system from ``y0`` (at t = 0) until the end of inflation or a cap.
 
@@ -176,8 +177,11 @@ def integrate(
     ev = run.events
     started = False
     ln_a_start = math.nan
+    if classical and _start_indicator(o) > 0.0:
+        started, ln_a_start = True, o[LN_A]
+        ev["t_inflation_start"], ev["ln_a_inflation_start"] = 0.0, o[LN_A]
 
-    if phase == POST:  # started at the bounce
+    if phase != PRE and not classical:  # started at the bounce
         ev["t_bounce"], ev["ln_a_bounce"] = 0.0, o[LN_A]
         ev["bounce_state"] = solver.y.copy()
         if _start_indicator(o) > 0.0:
@@ -366,3 +370,17 @@ def residuals(system: CanonicalSystem, run: RawRun) -> np.ndarray:
     return np.array(
         [system.constraint_residual(y, p) for y, p in zip(run.y, run.phase, strict=True)]
     )
+
+
+def classical_field(initial: Any) -> tuple[float, float]:
+    """(phi, phidot) of a :class:`~bouncelike.background.initial.ClassicalStart`."""
+    return float(initial.phi), float(initial.phidot)
+
+
+def as_classical(trajectory: BackgroundTrajectory) -> BackgroundTrajectory:
+    """Mark a run started without a bounce as ``no_bounce`` (result conventions)."""
+    from dataclasses import replace
+
+    return replace(trajectory, status="no_bounce",
+                   message="classical start in the expanding branch: no bounce by construction; "
+                   + trajectory.message)
