@@ -176,6 +176,50 @@ class BianchiSystem:
         return np.sin(x), np.cos(x), dx
 
     def rhs(self, y: np.ndarray, phase: int) -> np.ndarray:
+        """Right-hand side in plain floats (the same formulas as :func:`angle_rates` and
+        :func:`directional_rates`, unrolled: this is the inner loop)."""
+        k12, k23, ln_a, phi, phidot = y[1], y[2], y[3], y[4], y[5]
+        f = math.exp(-3.0 * ln_a) / 3.0
+        d1, d2, d3 = (2.0 * k12 + k23) * f, (k23 - k12) * f, -(k12 + 2.0 * k23) * f
+        v = float(self.potential.V(phi))
+        if phase == cn.PRE:
+            zb = math.exp(y[0])
+            s1, s2, s3 = math.sin(zb - d1), math.sin(zb - d2), math.sin(zb - d3)
+            c1, c2, c3 = -math.cos(zb - d1), -math.cos(zb - d2), -math.cos(zb - d3)
+        else:
+            if phase == cn.LATE:
+                rho = 0.5 * phidot * phidot + v
+                xb = solve_mean_angle(3.0 * rho / self.rho_c, np.array([d1, d2, d3]))
+            else:
+                xb = math.exp(y[0])
+            s1, s2, s3 = math.sin(xb + d1), math.sin(xb + d2), math.sin(xb + d3)
+            c1, c2, c3 = math.cos(xb + d1), math.cos(xb + d2), math.cos(xb + d3)
+        gl = self.gl
+        two_gl = 2.0 * gl
+        a1, a2, a3 = s2 + s3, s1 + s3, s1 + s2
+        big_s = s1 * s2 + s2 * s3 + s3 * s1
+        matter = 4.0 * math.pi * gl * (0.5 * phidot * phidot - v)
+        xd1 = -(big_s + (d1 - d2) * c2 * a2 + (d1 - d3) * c3 * a3) / two_gl - matter
+        xd2 = -(big_s + (d2 - d3) * c3 * a3 + (d2 - d1) * c1 * a1) / two_gl - matter
+        xd3 = -(big_s + (d3 - d1) * c1 * a1 + (d3 - d2) * c2 * a2) / two_gl - matter
+        sym = (c1 * a1 + c2 * a2 + c3 * a3) / two_gl
+        h1 = (c2 * a2 + c3 * a3 - c1 * a1) / two_gl
+        h2 = (c3 * a3 + c1 * a1 - c2 * a2) / two_gl
+        h3 = (c1 * a1 + c2 * a2 - c3 * a3) / two_gl
+        three_h = h1 + h2 + h3
+        xbar_dot = (xd1 + xd2 + xd3) / 3.0
+        if phase == cn.PRE:
+            udot = -xbar_dot / zb
+        elif phase == cn.POST:
+            udot = xbar_dot / xb
+        else:
+            udot = 0.0
+        phiddot = -three_h * phidot - float(self.potential.dV(phi))
+        return np.array([udot, k12 * (three_h - sym), k23 * (three_h - sym), three_h / 3.0,
+                         phidot, phiddot])
+
+    def rhs_reference(self, y: np.ndarray, phase: int) -> np.ndarray:
+        """The right-hand side through the array helpers (kept to cross-check :meth:`rhs`)."""
         sx, cx, dx = self.angles(y, phase)
         phi, phidot = y[4], y[5]
         v = float(self.potential.V(phi))
