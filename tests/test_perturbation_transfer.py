@@ -57,6 +57,9 @@ def test_deformed_algebra_growth_rate_is_the_wkb_exponent():
     for f in ("scalar", "tensor"):
         slope = np.polyfit(t.x[uv], 2 * t.ln_alpha[f][uv], 1)[0]
         assert slope == pytest.approx(t.growth_per_x, rel=0.05)
+    # scalars and tensors share the exponent: their ratio tends to a constant of order one
+    # (scalar UV rise: Schander, Barrau, Bolliet et al. arXiv:1508.06786)
+    assert abs(t.uv_tensor_scalar_log_ratio) < 0.5
 
 
 def test_fast_model_reduces_to_power_law_far_above_bounce():
