@@ -94,6 +94,7 @@ class Decomposition:
     ln_power: np.ndarray       # bounce spectrum (exact)
     ln_standard: np.ndarray    # P_std: adiabatic vacuum started after the bounce (exact)
     duration: float
+    start_adiabaticity: np.ndarray | None = None  # rate/frequency where the state is set
 
     @property
     def ln_transfer(self) -> np.ndarray:
@@ -138,7 +139,8 @@ def decompose(tab, x: np.ndarray, field_: str, prescription: str = "dressed_metr
     ratio = beta / alpha
     return Decomposition(x, np.log(np.abs(alpha)), np.abs(ratio),
                          np.angle(ratio) - 2 * np.angle(ref.x_end), np.log(full.power),
-                         np.log(ref.power), conformal_duration(tab, sol.eta))
+                         np.log(ref.power), conformal_duration(tab, sol.eta),
+                         full.start_adiabaticity)
 
 
 def _theta(dec: Decomposition, tilt: np.ndarray) -> np.ndarray:
