@@ -104,3 +104,17 @@ def test_transfer_check_command(capsys):
                      "--json"]) == 0
     out = json.loads(capsys.readouterr().out)
     assert out["max_error_above"]["0.1"] <= 0.01
+
+
+def test_dense_figure_spectrum_resolves_the_oscillations():
+    # the feature oscillations have period pi/(x D) in x (module docstring of transfer.py):
+    # the figure grid must hold several points per period and reproduce the integrated modes
+    from bouncelike.perturbations.transfer import dense_spectrum
+
+    tab = quadratic_bounce(1.2e-6, 1.0)
+    d = dense_spectrum(tab, np.geomspace(0.01, 100, 40), points_per_period=4, max_points=200_000)
+    assert d["node_error"] < 1e-3
+    assert d["resolved"]
+    osc = (d["x"] > 0.05) & (d["x"] < 1.0)
+    dx = np.diff(d["x"][osc])
+    assert np.max(dx) <= math.pi / d["conformal_duration"] / 4 * 1.01
