@@ -343,6 +343,9 @@ class BounceSpectraModel:
     ``log10_conformal_duration`` (log10 D, D = k_LQC x conformal time from the bounce to the end
     of inflation: the background quantity the features depend on; :func:`conformal_duration`
     computes it from a background, ~3.4-4.1 for quadratic inflatons with m = 1e-6-4e-6).
+    ``log10_conformal_duration`` is optional: without it (or None) the spectra carry the
+    period-averaged transfer |alpha|^2 (1 + rho^2), the features averaged over their phase
+    (|alpha| and rho do not depend on D to < 1e-4).
     Oscillations finer than the k grid (period pi/(x D) in x) are replaced by their period
     average (``average_unresolved=False``: pointwise T). ``derived(params)`` gives
     ``certified`` (the window 1e-4-0.2 Mpc^-1 lies within the tabulated 0.01-100 k_LQC or
@@ -369,10 +372,13 @@ class BounceSpectraModel:
         a_s = math.exp(params["ln_1e10_As"]) * 1e-10
         r = params.get("r", 0.0)
         x = self.k / 10 ** params["log10_k_lqc"]
-        lt = self.table.ln_transfer(x, 10 ** params["log10_conformal_duration"],
-                                    {"scalar": params["n_s"] - 1, "tensor": -r / 8},
-                                    average_below=2 * self._dlnk if self.average_unresolved
-                                    else None)
+        if params.get("log10_conformal_duration") is None:
+            lt = self.table.ln_mean_transfer(x)
+        else:
+            lt = self.table.ln_transfer(x, 10 ** params["log10_conformal_duration"],
+                                        {"scalar": params["n_s"] - 1, "tensor": -r / 8},
+                                        average_below=2 * self._dlnk
+                                        if self.average_unresolved else None)
         lk = np.log(self.k / self.pivot)
         ps = a_s * np.exp((params["n_s"] - 1) * lk + lt["scalar"])
         pt = r * a_s * np.exp(-r / 8 * lk + lt["tensor"]) if r > 0 else np.zeros_like(ps)
@@ -386,10 +392,11 @@ class BounceSpectraModel:
         xmin = 1e-4 / 10 ** params["log10_k_lqc"]
         xmax = 0.2 / 10 ** params["log10_k_lqc"]
         lo, hi = self.table.d_range
-        d = 10 ** params["log10_conformal_duration"]
+        ld = params.get("log10_conformal_duration")
+        d_ok = ld is None or lo <= 10**ld <= hi
         ranges = CERTIFIED_RANGES.get((self.table.prescription, self.table.state), ())
         inside = any(a <= xmin and xmax <= b for a, b in ranges)
-        return {"certified": bool(inside and lo <= d <= hi), "x_window_min": xmin}
+        return {"certified": bool(inside and d_ok), "x_window_min": xmin}
 
 
 def dense_spectrum(tab, x_nodes: np.ndarray, prescription: str = "dressed_metric",
