@@ -1,0 +1,440 @@
+"""Prior files for posterior runs: loading, validation, densities and draws.
+
+A prior file is TOML with one ``[prior]`` table and one ``[parameters.<name>]`` table per
+parameter of the parametric model (see :mod:`bouncelike.sampling.parametric`)::
+
+    [prior]
+    model = "power_law"               # parametric model this prior belongs to
+    title = "Power-law primordial spectra"
+
+    [parameters.n_s]
+    role = "sampled"                  # sampled | fixed | derived
+    distribution = "uniform"          # uniform | log_uniform | gaussian | efolds_from_phase
+    min = 0.85
+    max = 1.10
+    label = 'n_s'                     # LaTeX, without dollar signs
+    start = 0.965                     # optional: centre of the walkers' starting ball
+    start_width = 0.01                # optional: its width (clipped to the support)
+    nested_value = 1.0                # optional: value of the nested model (Savage-Dickey)
+
+    [parameters.r]
+    role = "fixed"
+    value = 0.0
+    label = 'r'
+
+    [parameters.A_s]
+    role = "derived"                  # computed by the model, stored with the samples
+    label = 'A_s'
+
+``gaussian`` takes ``mean`` and ``sigma`` (optional ``min``/``max`` truncate it);
+``log_uniform`` needs ``0 < min < max``. ``efolds_from_phase`` is the duration-of-inflation
+distribution obtained by evolving a flat prior on the oscillation phase of the contracting
+branch through the bounce (physics notes, section 2); it takes ``min``/``max`` and a
+``[parameters.<name>.phase]`` sub-table handed to
+:func:`bouncelike.background.efolds.efolds_distribution` (``potential``, ``mass``,
+``dynamics``, ``critical_density``, ``density`` and ``density_decades`` of the contracting-branch
+surface where the phase is flat, ``n_samples``, ``seed``). Its density is a Gaussian kernel
+density estimate of the computed e-fold samples restricted to ``[min, max]``.
+
+Every problem raises :class:`~bouncelike.errors.InputError` with one line naming the key.
+"""
+
+from __future__ import annotations
+
+import importlib
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from ..config import Table, read_toml, tomllib
+from ..errors import InputError
+
+ROLES = ("sampled", "fixed", "derived")
+DISTRIBUTIONS = ("uniform", "log_uniform", "gaussian", "efolds_from_phase")
+PARAMETER_KEYS = (
+    "role", "distribution", "min", "max", "mean", "sigma", "value", "label",
+    "start", "start_width", "nested_value", "phase",
+)
+PHASE_KEYS = ("potential", "mass", "dynamics", "critical_density", "density",
+              "density_decades", "n_samples", "seed")
+
+#: Folder of the prior files shipped with the project (``priors/`` at the top of the tree).
+SHIPPED_PRIORS = Path(__file__).resolve().parents[2] / "priors"
+
+
+@dataclass(frozen=True)
+class ParameterPrior:
+    """Prior of one parameter. ``lower``/``upper`` bound the support (may be infinite)."""
+
+    name: str
+    role: str
+    label: str
+    distribution: str | None = None
+    lower: float = -math.inf
+    upper: float = math.inf
+    mean: float | None = None
+    sigma: float | None = None
+    value: float | None = None
+    start: float | None = None
+    start_width: float | None = None
+    nested_value: float | None = None
+    kde_points: tuple[float, ...] = ()
+    kde_bandwidth: float | None = None
+    kde_norm: float | None = None
+
+    # -- densities -----------------------------------------------------------------------
+    def log_density(self, x: np.ndarray) -> np.ndarray:
+        """Normalised log prior density at ``x`` (-inf outside the support)."""
+        x = np.asarray(x, dtype=float)
+        inside = (x >= self.lower) & (x <= self.upper)
+        out = np.full(x.shape, -np.inf)
+        if self.distribution == "uniform":
+            out[inside] = -math.log(self.upper - self.lower)
+        elif self.distribution == "log_uniform":
+            out[inside] = -np.log(x[inside]) - math.log(math.log(self.upper / self.lower))
+        elif self.distribution == "gaussian":
+            a = (self.lower - self.mean) / self.sigma
+            b = (self.upper - self.mean) / self.sigma
+            # log of the probability mass inside the truncation
+            mass = math.log(max(_ndtr(b) - _ndtr(a), 1e-300))
+            z = (x[inside] - self.mean) / self.sigma
+            out[inside] = -0.5 * z * z - math.log(self.sigma * math.sqrt(2 * math.pi)) - mass
+        elif self.distribution == "efolds_from_phase":
+            pts = np.asarray(self.kde_points)
+            h = self.kde_bandwidth
+            z = (x[inside][:, None] - pts[None, :]) / h
+            dens = np.exp(-0.5 * z * z).sum(axis=1) / (len(pts) * h * math.sqrt(2 * math.pi))
+            with np.errstate(divide="ignore"):
+                out[inside] = np.log(dens / self.kde_norm)
+        return out
+
+    def draw(self, rng: np.random.Generator, n: int) -> np.ndarray:
+        """``n`` independent draws from the prior (inside the support)."""
+        if self.distribution == "uniform":
+            return rng.uniform(self.lower, self.upper, n)
+        if self.distribution == "log_uniform":
+            return np.exp(rng.uniform(math.log(self.lower), math.log(self.upper), n))
+        if self.distribution == "gaussian":
+            from scipy.special import ndtri
+
+            a, b = (self.lower - self.mean) / self.sigma, (self.upper - self.mean) / self.sigma
+            u = rng.uniform(_ndtr(a), _ndtr(b), n)
+            return np.clip(self.mean + self.sigma * ndtri(u), self.lower, self.upper)
+        # efolds_from_phase: resample the computed e-folds, smoothed by the kernel
+        pts = np.asarray(self.kde_points)
+        out = np.empty(n)
+        filled = 0
+        while filled < n:
+            x = rng.choice(pts, n) + self.kde_bandwidth * rng.standard_normal(n)
+            x = x[(x >= self.lower) & (x <= self.upper)]
+            take = min(n - filled, x.size)
+            out[filled:filled + take] = x[:take]
+            filled += take
+        return out
+
+    def as_dict(self) -> dict[str, Any]:
+        d = {
+            "name": self.name, "role": self.role, "label": self.label,
+            "distribution": self.distribution,
+            "min": self.lower if math.isfinite(self.lower) else None,
+            "max": self.upper if math.isfinite(self.upper) else None,
+            "mean": self.mean, "sigma": self.sigma, "value": self.value,
+            "start": self.start, "start_width": self.start_width,
+            "nested_value": self.nested_value,
+        }
+        return {k: v for k, v in d.items() if v is not None}
+
+
+def _ndtr(x: float) -> float:
+    return 0.5 * math.erfc(-x / math.sqrt(2.0))
+
+
+@dataclass(frozen=True)
+class Prior:
+    """The prior of a posterior run: one :class:`ParameterPrior` per parameter."""
+
+    model: str
+    title: str
+    parameters: tuple[ParameterPrior, ...]
+    source: str = ""
+    text: str = field(default="", repr=False)
+
+    @property
+    def sampled(self) -> tuple[ParameterPrior, ...]:
+        return tuple(p for p in self.parameters if p.role == "sampled")
+
+    @property
+    def sampled_names(self) -> tuple[str, ...]:
+        return tuple(p.name for p in self.sampled)
+
+    @property
+    def derived_names(self) -> tuple[str, ...]:
+        return tuple(p.name for p in self.parameters if p.role == "derived")
+
+    @property
+    def fixed(self) -> dict[str, float]:
+        return {p.name: p.value for p in self.parameters if p.role == "fixed"}
+
+    @property
+    def ndim(self) -> int:
+        return len(self.sampled)
+
+    def get(self, name: str) -> ParameterPrior:
+        for p in self.parameters:
+            if p.name == name:
+                return p
+        raise KeyError(name)
+
+    def labels(self) -> dict[str, str]:
+        return {p.name: p.label for p in self.parameters}
+
+    def bounds(self) -> np.ndarray:
+        return np.array([[p.lower, p.upper] for p in self.sampled])
+
+    def log_prior(self, theta: np.ndarray) -> float:
+        """Joint log prior density of one point of the sampled parameters."""
+        total = 0.0
+        for p, x in zip(self.sampled, theta, strict=False):
+            if not (p.lower <= x <= p.upper):
+                return -math.inf
+            if p.distribution == "uniform":
+                total -= math.log(p.upper - p.lower)
+            else:
+                total += float(p.log_density(np.array([x]))[0])
+        return total
+
+    def draw(self, rng: np.random.Generator, n: int) -> np.ndarray:
+        """``n`` joint prior draws, shape (n, ndim)."""
+        return np.column_stack([p.draw(rng, n) for p in self.sampled]) if self.ndim else (
+            np.empty((n, 0)))
+
+    def initial_walkers(self, rng: np.random.Generator, n: int) -> np.ndarray:
+        """Starting points inside the support: a ball around ``start`` where given, else
+        prior draws."""
+        cols = []
+        for p in self.sampled:
+            if p.start is None:
+                cols.append(p.draw(rng, n))
+                continue
+            width = p.start_width if p.start_width is not None else (
+                0.01 * (p.upper - p.lower) if math.isfinite(p.upper - p.lower) else 1e-3)
+            x = p.start + width * rng.standard_normal(n)
+            # reflect at the bounds (no two walkers piled up on an edge), then clip what a
+            # ball wider than the support still leaves outside
+            if math.isfinite(p.lower):
+                x = np.where(x < p.lower, 2 * p.lower - x, x)
+            if math.isfinite(p.upper):
+                x = np.where(x > p.upper, 2 * p.upper - x, x)
+            cols.append(np.clip(x, p.lower, p.upper))
+        return np.column_stack(cols)
+
+    def full_parameters(self, theta: np.ndarray) -> dict[str, float]:
+        """Sampled values plus fixed values, as the parametric model expects them."""
+        params = dict(self.fixed)
+        for p, x in zip(self.sampled, theta, strict=False):
+            params[p.name] = float(x)
+        return params
+
+    def as_dict(self) -> dict[str, Any]:
+        return {
+            "model": self.model, "title": self.title, "source": self.source,
+            "parameters": [p.as_dict() for p in self.parameters],
+        }
+
+
+# -- loading ------------------------------------------------------------------------------
+
+def resolve_prior_path(name: str, base: Path | None = None) -> Path:
+    """A prior file given as a path (relative to ``base``) or as a shipped prior's name."""
+    candidates = []
+    p = Path(name)
+    if base is not None and not p.is_absolute():
+        candidates.append(base / p)
+    candidates.append(p)
+    stem = p.name if p.suffix == ".toml" else p.name + ".toml"
+    candidates.append(SHIPPED_PRIORS / stem)
+    for c in candidates:
+        if c.is_file():
+            return c
+    shipped = ", ".join(sorted(x.stem for x in SHIPPED_PRIORS.glob("*.toml")))
+    raise InputError(f"prior file '{name}' not found; give a path or one of: {shipped}")
+
+
+def load_prior(path: str | Path, model_parameters: tuple[str, ...] | None = None,
+               derived_parameters: tuple[str, ...] | None = None) -> Prior:
+    """Read and validate a prior file.
+
+    Parameters
+    ----------
+    path : path of the TOML file.
+    model_parameters : when given, every sampled or fixed parameter must be one of these and
+        each of them must appear in the file.
+    derived_parameters : when given, every derived parameter must be one of these.
+    """
+    path = Path(path)
+    data = read_toml(path, "prior file")
+    return parse_prior(data, str(path), path.read_text(encoding="utf-8"), model_parameters,
+                       derived_parameters)
+
+
+def prior_from_text(text: str, source: str = "<text>", **kw: Any) -> Prior:
+    """A prior from the text of a prior file (as stored in a run's manifest)."""
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"prior file '{source}' is not valid TOML: {exc}") from None
+    return parse_prior(data, source, text, **kw)
+
+
+def parse_prior(data: dict[str, Any], source: str, text: str = "",
+                model_parameters: tuple[str, ...] | None = None,
+                derived_parameters: tuple[str, ...] | None = None) -> Prior:
+    """Validate the parsed contents of a prior file."""
+    path = source
+    top = Table(data, "", ("prior", "parameters"))
+    head = top.table("prior", ("model", "title", "description"), required=True)
+    model = head.string("model")
+    title = head.string("title", "")
+    head.string("description", "")
+    raw = top.raw("parameters")
+    if not isinstance(raw, dict):
+        raise InputError(f"prior file '{path}': missing table '[parameters]' (one sub-table per "
+                         "parameter)")
+    names = list(raw)
+    if not names:
+        raise InputError(f"prior file '{path}': [parameters] is empty; give one table per "
+                         "parameter")
+    params_tab = top.table("parameters", names, required=True)
+    params = tuple(_parameter(params_tab.table(n, PARAMETER_KEYS), n) for n in names)
+    if not any(p.role == "sampled" for p in params):
+        raise InputError(f"prior file '{path}': no parameter has role = 'sampled'")
+    if model_parameters is not None:
+        for p in params:
+            if p.role != "derived" and p.name not in model_parameters:
+                raise InputError(
+                    f"'parameters.{p.name}' is not a parameter of model '{model}'; allowed: "
+                    f"{', '.join(model_parameters)}")
+        given = {p.name for p in params}
+        for n in model_parameters:
+            if n not in given:
+                raise InputError(f"missing table '[parameters.{n}]' (model '{model}' needs "
+                                 "it: give role = 'sampled' or 'fixed')")
+    if derived_parameters is not None:
+        for p in params:
+            if p.role == "derived" and p.name not in derived_parameters:
+                raise InputError(
+                    f"'parameters.{p.name}.role' = 'derived' but model '{model}' derives only: "
+                    f"{', '.join(derived_parameters) or 'nothing'}")
+    return Prior(model=model, title=title, parameters=params, source=str(path), text=text)
+
+
+def _parameter(t: Table, name: str) -> ParameterPrior:
+    role = t.string("role", choices=ROLES)
+    label = t.string("label", name)
+    if role == "derived":
+        for k in t.data:
+            if k not in ("role", "label"):
+                raise InputError(f"'{t.key(k)}' is not allowed for a derived parameter "
+                                 "(allowed: role, label)")
+        return ParameterPrior(name=name, role=role, label=label)
+    if role == "fixed":
+        for k in t.data:
+            if k not in ("role", "label", "value"):
+                raise InputError(f"'{t.key(k)}' is not allowed for a fixed parameter "
+                                 "(allowed: role, label, value)")
+        return ParameterPrior(name=name, role=role, label=label, value=t.number("value"))
+    dist = t.string("distribution", choices=DISTRIBUTIONS)
+    if dist != "gaussian":
+        _required(t, "min")
+        _required(t, "max")
+    lower = t.number("min") if "min" in t else -math.inf
+    upper = t.number("max") if "max" in t else math.inf
+    if not lower < upper:
+        raise InputError(f"'{t.key('max')}' = {upper:g} must be larger than "
+                         f"'{t.key('min')}' = {lower:g}")
+    if dist == "log_uniform" and lower <= 0:
+        raise InputError(f"'{t.key('min')}' = {lower:g} must be > 0 for a log_uniform prior")
+    mean = sigma = None
+    if dist == "gaussian":
+        mean = t.number("mean")
+        sigma = t.positive("sigma")
+    else:
+        for k in ("mean", "sigma"):
+            if k in t:
+                raise InputError(f"'{t.key(k)}' is only allowed for a gaussian prior")
+    start = t.number("start", None)
+    if start is not None and not lower <= start <= upper:
+        raise InputError(f"'{t.key('start')}' = {start:g} lies outside [min, max] = "
+                         f"[{lower:g}, {upper:g}]")
+    start_width = t.positive("start_width", None)
+    nested = t.number("nested_value", None)
+    if nested is not None and not lower <= nested <= upper:
+        raise InputError(f"'{t.key('nested_value')}' = {nested:g} lies outside [min, max]")
+    kde: dict[str, Any] = {}
+    if dist == "efolds_from_phase":
+        kde = _efolds_from_phase(t.table("phase", PHASE_KEYS, required=True), lower, upper)
+    elif "phase" in t:
+        raise InputError(f"'{t.key('phase')}' is only allowed for an efolds_from_phase prior")
+    return ParameterPrior(name=name, role=role, label=label, distribution=dist, lower=lower,
+                          upper=upper, mean=mean, sigma=sigma, start=start,
+                          start_width=start_width, nested_value=nested, **kde)
+
+
+def _required(t: Table, key: str) -> Any:
+    if key not in t:
+        raise InputError(f"missing key '{t.key(key)}' (uniform and log_uniform priors need "
+                         "min and max)")
+    return None
+
+
+def _efolds_from_phase(t: Table, lower: float, upper: float) -> dict[str, Any]:
+    """Build the e-fold prior from the background lane's phase-prior distribution.
+
+    Uses :func:`bouncelike.background.efolds.efolds_distribution` when that module is part of
+    the installed package; otherwise the prior file cannot be used and says why.
+    """
+    try:
+        efolds = importlib.import_module("bouncelike.background.efolds")
+        dist_fn = efolds.efolds_distribution
+    except (ImportError, AttributeError):
+        raise InputError(
+            f"'{t.where}': distribution 'efolds_from_phase' needs "
+            "bouncelike.background.efolds.efolds_distribution, which this build does not have; "
+            "use uniform, log_uniform or gaussian") from None
+    samples = _compute_efolds(t, dist_fn)
+    samples = samples[np.isfinite(samples)]
+    if samples.size < 10:
+        raise InputError(f"'{t.where}': fewer than 10 finite e-fold samples were produced")
+    # Scott's rule bandwidth (scipy.stats.gaussian_kde default)
+    h = float(np.std(samples) * samples.size ** (-1 / 5)) or 1e-3
+    pts = tuple(float(x) for x in samples)
+    probe = ParameterPrior("N", "sampled", "N", "efolds_from_phase", lower, upper,
+                           kde_points=pts, kde_bandwidth=h, kde_norm=1.0)
+    grid = np.linspace(lower, upper, 2001)
+    mass = float(np.trapezoid(np.exp(probe.log_density(grid)), grid))
+    if not mass > 0:
+        raise InputError(f"'{t.where}': the computed e-folds (median {np.median(samples):.4g}) "
+                         f"fall outside [min, max] = [{lower:g}, {upper:g}]")
+    return {"kde_points": pts, "kde_bandwidth": h, "kde_norm": mass}
+
+
+def _compute_efolds(t: Table, dist_fn: Any) -> np.ndarray:
+    """E-folds of inflation over a flat phase prior, by the background package."""
+    setup_mod = importlib.import_module("bouncelike.background.setup")
+    efolds_mod = importlib.import_module("bouncelike.background.efolds")
+    background: dict[str, Any] = {"dynamics": t.string("dynamics", "isotropic")}
+    if "critical_density" in t:
+        background["critical_density"] = t.positive("critical_density")
+    config = Table({"potential": {"name": t.string("potential", "quadratic"),
+                                  "mass": t.positive("mass", 1.21e-6)},
+                    "background": background}, "", ("potential", "background"))
+    setup = setup_mod.background_from_config(config)
+    phase = efolds_mod.PhasePrior(t.positive("density", 1e-16),
+                                  t.number("density_decades", 2.0, minimum=0.0, maximum=10.0))
+    result = dist_fn(setup.dynamics, setup.potential, phase,
+                     t.integer("n_samples", 200, minimum=10), t.integer("seed", 0, minimum=0),
+                     settings=setup.settings, convergence_samples=0)
+    return np.asarray(result.usable(), dtype=float)

@@ -1,0 +1,185 @@
+"""From a run configuration to a ready posterior run (and back from a run's manifest).
+
+The ``[sampling]`` section::
+
+    [sampling]
+    prior = "power_law"          # shipped prior name (priors/<name>.toml) or a path, relative
+                                 # to the configuration file
+    model = "power_law"          # parametric model; default: the prior file's [prior] model
+    walkers = 24                 # >= 2 x sampled parameters
+    max_steps = 4000             # hard stop
+    min_steps = 200              # no convergence claim before this many steps
+    tau_multiple = 50            # converged when steps > tau_multiple x tau ...
+    tau_tolerance = 0.05         # ... and tau changed by less than this (relative)
+    checkpoint_every = 100       # steps between checkpoints (and convergence checks)
+    seed = 1                     # reproducibility: same seed, same chain
+    run_name = "my_run"          # default: the configuration file's stem
+    chains_dir = "chains"        # run folder = <chains_dir>/<run_name>, relative to the
+                                 # working directory
+    workers = 1                  # local worker processes (MPI ranks under mpiexec)
+    progress = true
+    require_summary_fit = true   # featured spectra the pivot summary cannot represent get
+                                 # log-likelihood -inf (counted), see ModelPosterior
+
+The likelihood comes from ``[likelihood]`` (:func:`bouncelike.likelihood.gaussian.
+likelihood_from_config`). ``[report]`` is read by :mod:`bouncelike.reporting.report`.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import platform
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from .. import __version__
+from ..config import Table, load_run_config, read_toml
+from ..errors import InputError
+from .driver import ModelPosterior, SamplerSettings
+from .parametric import PARAMETRIC_MODELS, parametric_model
+from .priors import Prior, load_prior, prior_from_text, resolve_prior_path
+
+SAMPLING_KEYS = ("prior", "model", "walkers", "max_steps", "min_steps", "tau_multiple",
+                 "tau_tolerance", "checkpoint_every", "seed", "run_name", "chains_dir",
+                 "workers", "progress", "require_summary_fit")
+
+
+@dataclass
+class RunSetup:
+    config: Table
+    prior: Prior
+    model: Any
+    likelihood: Any
+    posterior: ModelPosterior
+    settings: SamplerSettings
+    folder: Path
+    workers: int
+    show_progress: bool
+    fingerprint: str
+    manifest: dict[str, Any]
+
+
+def sampler_settings(t: Table) -> SamplerSettings:
+    walkers = t.integer("walkers", 32, minimum=2)
+    max_steps = t.integer("max_steps", 5000, minimum=1)
+    checkpoint = t.integer("checkpoint_every", 100, minimum=1)
+    return SamplerSettings(
+        walkers=walkers, max_steps=max_steps,
+        min_steps=t.integer("min_steps", min(200, max_steps), minimum=0),
+        tau_multiple=t.number("tau_multiple", 50.0, minimum=1.0),
+        tau_tolerance=t.number("tau_tolerance", 0.05, minimum=0.0, exclusive_minimum=True,
+                               maximum=1.0),
+        checkpoint_every=checkpoint, seed=t.integer("seed", 0, minimum=0))
+
+
+def likelihood_of(config: Table, base_dir: Path | None) -> Any:
+    try:
+        from ..likelihood.gaussian import likelihood_from_config
+    except ImportError as exc:  # pragma: no cover - only before the likelihood package lands
+        raise InputError(f"the likelihood package is not available in this build ({exc})"
+                         ) from None
+    return likelihood_from_config(config, base_dir)
+
+
+def build_run(config_path: str | Path, *, workers: int | None = None,
+              quiet: bool = False, output: str | Path | None = None,
+              config: Table | None = None) -> RunSetup:
+    """Validate a configuration and assemble everything a run needs (writes nothing)."""
+    path = Path(config_path)
+    if config is None:
+        config = load_run_config(path)
+    base = path.parent
+    t = config.table("sampling", SAMPLING_KEYS, required=True)
+    prior_name = t.string("prior")
+    prior_path = resolve_prior_path(prior_name, base)
+    settings = sampler_settings(t)
+    run_name = t.string("run_name", path.stem)
+    if not run_name or "/" in run_name or run_name.startswith("."):
+        raise InputError(f"'sampling.run_name' = '{run_name}' must be a plain folder name")
+    chains_dir = Path(t.string("chains_dir", "chains"))
+    n_workers = t.integer("workers", 1, minimum=1) if workers is None else workers
+    show = t.boolean("progress", True) and not quiet
+    # the prior file names its model; [sampling] model may restate it
+    head = Table(read_toml(prior_path, "prior file"), "", ("prior", "parameters"))
+    head_model = head.table("prior", ("model", "title", "description"), required=True).string(
+        "model", choices=PARAMETRIC_MODELS)
+    model_name = t.string("model", head_model, choices=PARAMETRIC_MODELS)
+    if model_name != head_model:
+        raise InputError(f"'sampling.model' = '{model_name}' but prior file '{prior_path}' is "
+                         f"for model '{head_model}'")
+    model = parametric_model(model_name)
+    prior = load_prior(prior_path, model.parameter_names, model.derived_names)
+    if settings.walkers < 2 * prior.ndim:
+        raise InputError(f"'sampling.walkers' = {settings.walkers} is too small; allowed: >= "
+                         f"{2 * prior.ndim} (2 x the {prior.ndim} sampled parameters)")
+    from ..reporting.report import report_settings
+
+    report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
+    likelihood = likelihood_of(config, base)
+    require_fit = t.boolean("require_summary_fit", True)
+    posterior = ModelPosterior(prior, model, likelihood, require_fit)
+    folder = Path(output) if output is not None else chains_dir / run_name
+    fingerprint = _fingerprint(prior.text, model_name,
+                               {"likelihood": config.data.get("likelihood", {}),
+                                "require_summary_fit": require_fit}, settings)
+    manifest = {
+        "format": "bouncelike posterior run, version 1",
+        "run_name": folder.name,
+        "package_version": __version__,
+        "library_versions": _versions(),
+        "config_file": str(path),
+        "config": config.data,
+        "model": model_name,
+        "prior": prior.as_dict(),
+        "prior_file_text": prior.text,
+        "seed": settings.seed,
+        "sampler": {"library": "emcee", "moves": "affine-invariant stretch move (a = 2)",
+                    "settings": {**settings.fingerprint_items(),
+                                 "max_steps": settings.max_steps}},
+        "require_summary_fit": require_fit,
+        "tolerances": {
+            "tau_multiple": settings.tau_multiple, "tau_tolerance": settings.tau_tolerance,
+            "autocorrelation_window_c": 5,
+            "likelihood_fit_tolerance": getattr(likelihood, "tolerance", None),
+        },
+        "constraint_sets": [s.as_dict() for s in likelihood.sets],
+        "fingerprint": fingerprint,
+        "loading": "pandas.read_csv('<run>/samples.csv') (burn-in removed, thinned) or "
+                   "chain.csv (every step; drop step <= run.burn_in)",
+    }
+    return RunSetup(config=config, prior=prior, model=model, likelihood=likelihood,
+                    posterior=posterior, settings=settings, folder=folder,
+                    workers=n_workers, show_progress=show, fingerprint=fingerprint,
+                    manifest=manifest)
+
+
+def rebuild_from_manifest(manifest: dict[str, Any]) -> tuple[Prior, Any, Any, ModelPosterior]:
+    """Prior, model, likelihood and posterior of a finished run, from its manifest alone."""
+    config = Table(manifest["config"], "", tuple(manifest["config"]))
+    model = parametric_model(manifest["model"])
+    prior = prior_from_text(manifest["prior_file_text"], manifest["prior"].get("source", ""),
+                            model_parameters=model.parameter_names,
+                            derived_parameters=model.derived_names)
+    base = Path(manifest.get("config_file", ".")).parent
+    from ..reporting.report import report_settings
+
+    report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
+    likelihood = likelihood_of(config, base)
+    require_fit = bool(manifest.get("require_summary_fit", True))
+    return prior, model, likelihood, ModelPosterior(prior, model, likelihood, require_fit)
+
+
+def _fingerprint(prior_text: str, model: str, likelihood: Any, s: SamplerSettings) -> str:
+    blob = json.dumps({"prior": prior_text, "model": model, "likelihood": likelihood,
+                       "settings": s.fingerprint_items()}, sort_keys=True, default=str)
+    return hashlib.sha256(blob.encode()).hexdigest()
+
+
+def _versions() -> dict[str, str]:
+    import emcee
+    import numpy
+
+    return {"python": platform.python_version(), "numpy": numpy.__version__,
+            "emcee": emcee.__version__}
