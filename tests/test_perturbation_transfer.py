@@ -123,3 +123,17 @@ def test_dense_figure_spectrum_resolves_the_oscillations():
     osc = (d["x"] > 0.05) & (d["x"] < 1.0)
     dx = np.diff(d["x"][osc])
     assert np.max(dx) <= math.pi / d["conformal_duration"] / 4 * 1.01
+
+
+def test_fast_deformed_model_far_ultraviolet_keeps_the_ratio():
+    # window 27 decades above k_LQC: the Euclidean growth overflows any float; scalars and
+    # tensors share it (same Omega k^2 term; scalar UV rise: arXiv:1508.06786), so the common
+    # e^600 cap leaves r at r_std x e^Delta, |Delta| < 0.5 (measured ratio of the transfers)
+    from bouncelike.spectra.summary import summarize
+
+    m = BounceSpectraModel("deformed_algebra")
+    p = {"ln_1e10_As": 3.044, "n_s": 0.965, "r": 0.01, "log10_k_lqc": -30.0}
+    s = summarize(m.spectra(p), 0.05)
+    assert s.ln_1e10_As == pytest.approx(3.044 + 600, abs=0.5)
+    assert s.r == pytest.approx(0.01, rel=0.65)
+    assert any("capped" in n for n in m.spectra(p).notes)

@@ -123,14 +123,9 @@ def deformed_uv_tensor_note(ln_x_pivot: float, ln_pt_std: float, pivot: float) -
     from .transfer import load_transfer
 
     t = load_transfer("deformed_algebra", "remote_past")
-    lx_max = math.log(float(t.x[-1]))
-    if ln_x_pivot <= lx_max:
-        ln_tt = float(t.ln_mean_transfer(np.array([math.exp(ln_x_pivot)]))["tensor"][0])
-    else:
-        edge = float(t.ln_mean_transfer(t.x[-1:])["tensor"][0])
-        ln_growth = math.log(t.growth_per_x) + ln_x_pivot  # ln of growth x (k_*/k_LQC)
-        ln_tt = (math.exp(ln_growth) + edge - t.growth_per_x * float(t.x[-1])
-                 if ln_growth < 700 else math.inf)
+    ln_growth = math.log(t.growth_per_x) + ln_x_pivot  # ln of growth x (k_*/k_LQC)
+    ln_tt = (float(t.ln_mean_transfer(np.array([math.exp(ln_x_pivot)]))["tensor"][0])
+             if ln_growth < 700 else math.inf)
     r_max = next(term.limit for term in load_constraint_set("bk18").terms
                  if term.quantity == "r")
     ln_as = next(term.mean for term in load_constraint_set("planck2018_base").terms

@@ -83,6 +83,8 @@ CALIBRATION_MASSES = tuple(float(m) for m in np.geomspace(0.45e-6, 6.5e-6, 9))
 CALIBRATION_PHI_B = 1.2
 DATA = Path(__file__).with_name("data")
 FIELDS = ("scalar", "tensor")
+CAP_EXPONENT = 600.0
+UV_ANCHOR = 30.0  # deformed algebra: above this x the WKB growth carries T (see _smooth)
 
 
 def quadratic_bounce(mass: float, phi_b: float, past_density: float = 1e-11):
@@ -205,53 +207,67 @@ class TransferTable:
         return j, float((ld - lgd[j]) / (lgd[j + 1] - lgd[j]))
 
     def _smooth(self, f: str, lx: np.ndarray, duration: float | None):
-        """ln|alpha|, ln rho, theta at ln x (held at the grid edges), interpolated in ln D."""
+        """ln|alpha|, ln rho, theta at ln x, interpolated in ln D, and the growth G of ln T.
+
+        Below the grid the edge values are held. Deformed algebra: above UV_ANCHOR (30 k_LQC)
+        the values at the anchor are held and ln T grows by G = growth x (x - UV_ANCHOR), the
+        WKB exponent (the same for both fields); G is returned apart so that callers can
+        subtract a common cap without losing the tensor/scalar ratio. Dressed metric: rho = 0
+        above the grid, G = 0.
+        """
         lg = np.log(self.x)
-        lxc = np.clip(lx, lg[0], lg[-1])
+        top = math.log(UV_ANCHOR) if self.growth_per_x else lg[-1]
+        lxc = np.clip(lx, lg[0], top)
         j, w = self._weights(duration)
 
         def row(a):
             return (1 - w) * np.interp(lxc, lg, a[j]) + w * np.interp(lxc, lg, a[j + 1])
 
         la, lr, th = row(self.ln_alpha[f]), row(self.ln_rho[f]), row(self.theta[f])
-        above = lx > lg[-1]
+        growth = np.zeros_like(la)
+        above = lx > top
         if self.growth_per_x:
             xe = np.exp(np.minimum(lx, 700.0))
-            la = np.where(above, la + 0.5 * self.growth_per_x * (xe - self.x[-1]), la)
+            growth = np.where(above, self.growth_per_x * (xe - UV_ANCHOR), 0.0)
         else:
             lr = np.where(above, -np.inf, lr)
-        return la, lr, th
+        return la, lr, th, growth
 
-    def ln_transfer(self, x, duration: float, tilt: dict, average_below: float | None = None
-                    ) -> dict:
+    def ln_transfer(self, x, duration: float, tilt: dict, average_below: float | None = None,
+                    split: bool = False) -> dict:
         """ln T per field at x = k/k_LQC for a background of conformal duration D.
 
         ``tilt``: {"scalar": n_s - 1, "tensor": n_t}. Below the grid the edge values are held
         (uncertified; flagged by the fast model). With ``average_below`` (a spacing in ln x),
         points whose oscillation period pi/(x D) in x is shorter than that many grid spacings
         get the period-averaged T = |alpha|^2 (1 + rho^2) instead of the pointwise value.
+        ``split``: return the common growth G apart (key "growth"; fields without it).
         """
         lx = np.log(np.asarray(x, dtype=float))
         xe = np.exp(np.minimum(lx, 700.0))
         out = {}
         for f in FIELDS:
-            la, lr, th = self._smooth(f, lx, duration)
+            la, lr, th, growth = self._smooth(f, lx, duration)
             rho = np.exp(lr)
-            phi = np.mod(2 * xe * duration, 2 * math.pi) - math.pi + tilt[f] * math.pi / 2 + th
-            mod = np.abs(1 + rho * np.exp(1j * phi)) ** 2
+            with np.errstate(invalid="ignore", over="ignore"):
+                phi = (np.mod(2 * xe * duration, 2 * math.pi) - math.pi
+                       + tilt[f] * math.pi / 2 + th)
+            mod = np.abs(1 + rho * np.exp(1j * np.nan_to_num(phi))) ** 2
             if average_below is not None:
                 unresolved = math.pi / (xe * duration) < average_below * xe
                 mod = np.where(unresolved, 1 + rho**2, mod)
-            out[f] = 2 * la + np.log(np.maximum(mod, 1e-300))
+            out[f] = 2 * la + np.log(np.maximum(mod, 1e-300)) + (0.0 if split else growth)
+            out["growth"] = growth
         return out
 
-    def ln_mean_transfer(self, x, duration: float | None = None) -> dict:
+    def ln_mean_transfer(self, x, duration: float | None = None, split: bool = False) -> dict:
         """ln of the period-averaged T = |alpha|^2 (1 + rho^2) (D None: mid-range D)."""
         lx = np.log(np.asarray(x, dtype=float))
         out = {}
         for f in FIELDS:
-            la, lr, _ = self._smooth(f, lx, duration)
-            out[f] = 2 * la + np.log1p(np.exp(2 * lr))
+            la, lr, _, growth = self._smooth(f, lx, duration)
+            out[f] = 2 * la + np.log1p(np.exp(2 * lr)) + (0.0 if split else growth)
+            out["growth"] = growth
         return out
 
     @property
@@ -373,19 +389,28 @@ class BounceSpectraModel:
         r = params.get("r", 0.0)
         x = self.k / 10 ** params["log10_k_lqc"]
         if params.get("log10_conformal_duration") is None:
-            lt = self.table.ln_mean_transfer(x)
+            lt = self.table.ln_mean_transfer(x, split=True)
         else:
             lt = self.table.ln_transfer(x, 10 ** params["log10_conformal_duration"],
                                         {"scalar": params["n_s"] - 1, "tensor": -r / 8},
                                         average_below=2 * self._dlnk
-                                        if self.average_unresolved else None)
+                                        if self.average_unresolved else None, split=True)
         lk = np.log(self.k / self.pivot)
-        ps = a_s * np.exp((params["n_s"] - 1) * lk + lt["scalar"])
-        pt = r * a_s * np.exp(-r / 8 * lk + lt["tensor"]) if r > 0 else np.zeros_like(ps)
+        # deformed algebra far above k_LQC: a common cap e^600 on the transfer keeps P_t/P_s
+        # (both grow with the same exponent G; see forward.py)
+        top = np.maximum(lt["scalar"], lt["tensor"])
+        capped = top + lt["growth"] > CAP_EXPONENT
+        ls = np.where(capped, lt["scalar"] - top + CAP_EXPONENT, lt["scalar"] + lt["growth"])
+        ltt = np.where(capped, lt["tensor"] - top + CAP_EXPONENT, lt["tensor"] + lt["growth"])
+        ps = a_s * np.exp((params["n_s"] - 1) * lk + ls)
+        pt = r * a_s * np.exp(-r / 8 * lk + ltt) if r > 0 else np.zeros_like(ps)
         notes = () if self.derived(params)["certified"] else (
             "bounce transfer used outside its certified range (CERTIFIED_RANGES of "
             "k/k_LQC over the observable window, or conformal duration outside the "
             "calibrated range)",)
+        if np.any(capped):
+            notes = (*notes, "deformed algebra: transfer above e^600 capped by a common factor "
+                     "(a lower bound; P_t/P_s kept)")
         return TabulatedSpectra(self.k, ps, pt, notes=notes, label="bounce transfer model")
 
     def derived(self, params: dict) -> dict:
