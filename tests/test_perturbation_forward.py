@@ -99,6 +99,14 @@ def test_plateau_beyond_cap_gives_slow_roll_window():
         assert "outlasts the integration cap" in run.notes[1]
         if presc == "deformed_algebra":
             assert s["ln_1e10_As"] > 500  # lower bound e^600 x standard: far beyond any data
+            # equal growth exponents for scalars and tensors (same Omega k^2 term; scalar UV
+            # rise: Schander et al. arXiv:1508.06786): r stays at its slow-roll value 12/N^2
+            # (asserted above for both prescriptions) ...
+            # ... and the tensor amplitude itself is set against r_max x A_s (BK18 x Planck
+            # 2018), the exclusion argument of Bolliet, Barrau, Grain & Schander
+            # (arXiv:1510.08766, from memory)
+            note = next(n for n in run.notes if "tensor bound" in n)
+            assert "excluded by the tensor amplitude" in note and "ln P_t ~ 10^" in note
 
 
 @pytest.mark.parametrize("name, verdict", [("bounce_dressed_metric", "allowed"),

@@ -41,6 +41,23 @@ def pivot_summary(k: np.ndarray, ps: np.ndarray, pt: np.ndarray, pivot: float,
                 np.sqrt(np.mean(resid**2)) < 1e-2)}
 
 
+def _dense(run) -> dict | None:
+    """Densely sampled spectra where the features oscillate (None when not applicable)."""
+    from ..perturbations.transfer import dense_spectrum
+
+    sp, tab = run.spectrum, run.table
+    if (not tab.has_bounce or not np.isfinite(tab.t_inflation_end)
+            or sp.settings.get("bogoliubov") is not None):
+        return None
+    x = sp.k / sp.k_lqc
+    nodes = x[(x <= 100.0) & np.isfinite(sp.scalar) & np.isfinite(sp.tensor)]
+    if len(nodes) < 8:
+        return None
+    d = dense_spectrum(tab, nodes, sp.prescription, sp.state)
+    d["k_mpc"] = np.exp(np.log(d["x"] * sp.k_lqc) + run.scales.ln_mpc_per_bounce_unit)
+    return d
+
+
 def _figure(run, summary: dict):
     import matplotlib
 
@@ -51,8 +68,22 @@ def _figure(run, summary: dict):
 
     k, sp = run.k_mpc, run.spectrum
     fig, ax = plt.subplots(figsize=(7, 4.5))
-    ax.loglog(k, sp.scalar, label="$P_s$ (scalar)")
-    ax.loglog(k, sp.tensor, label="$P_t$ (tensor)")
+    dense = _dense(run)
+    if dense is None:
+        ax.loglog(k, sp.scalar, label="$P_s$ (scalar)")
+        ax.loglog(k, sp.tensor, label="$P_t$ (tensor)")
+    else:
+        # oscillations below ~3 k_LQC have period pi/(x D) in x: drawn from the exact
+        # decomposition of this background, points = integrated modes
+        kd = dense["k_mpc"]
+        outside = (k < kd.min()) | (k > kd.max())
+        for name, col, lab in (("scalar", "tab:blue", "$P_s$ (scalar)"),
+                               ("tensor", "tab:orange", "$P_t$ (tensor)")):
+            ax.loglog(kd, dense[name], color=col, lw=0.25, rasterized=True, label=lab)
+            y = getattr(sp, name)
+            ax.loglog(k[outside & (k < kd.min())], y[outside & (k < kd.min())], color=col)
+            ax.loglog(k[outside & (k > kd.max())], y[outside & (k > kd.max())], color=col)
+            ax.loglog(k, y, ".", color=col, ms=1.5)
     if summary.get("fit_ok") is not None and "n_s" in summary:
         kp = summary["pivot"]
         ref = np.exp(summary["ln_1e10_As"]) * 1e-10 * (k / kp) ** (summary["n_s"] - 1)

@@ -10,5 +10,8 @@ states         initial states by name (STATES) and Bogoliubov rotations
 spectra        P_s(k), P_t(k) in bounce units (a_B = 1)
 mapping        bounce units -> comoving Mpc^-1 via N_* (given or Liddle & Leach)
 forward        [perturbations] / [reheating] -> TabulatedSpectra ("bounce" model)
-transfer       cached transfer T(k/k_LQC) with error certificate; BounceSpectraModel
+transfer       cached transfer T(k/k_LQC, D) (Bogoliubov decomposition after the bounce,
+               D = k_LQC x conformal time to the end of inflation) with error certificate;
+               BounceSpectraModel
+infrared       closed-form far-infrared tensor spectrum of a kinetic bounce, both prescriptions
 """

@@ -24,7 +24,15 @@ switch_density         deformed-algebra scalars: regular variables where rho > t
 ``pivot`` (Mpc^-1, default 0.05); ``hubble_constant`` (km/s/Mpc, default Planck 2018).
 
 Deformed-algebra modes whose Euclidean growth exp(2 k int sqrt(-Omega) d eta) would exceed
-e^600 are not integrated: their power is the standard one times e^600, a lower bound (noted).
+e^600 are not integrated. Scalars and tensors grow there with the same exponent (the same
+Omega k^2 term; scalars: arXiv:1508.06786), so their ratio tends to r_std x e^Delta with Delta
+the measured prefactor ratio of the cached transfer (:mod:`.transfer`). The table gives both as
+standard x e^600 x that ratio (a common lower bound that keeps P_t/P_s right), and the notes
+carry the uncapped log-amplitude of the tensors at the pivot against the tensor bound
+P_t < r_max x A_s (BK18 r limit x Planck 2018 A_s, shipped constraint sets): the argument by
+which Bolliet, Barrau, Grain & Schander exclude the deformed algebra with long inflation
+(arXiv:1510.08766, from memory). In the score the exclusion shows through ln(1e10 A_s); the r
+term stays near the slow-roll value because the growth rates are equal.
 """
 
 from __future__ import annotations
@@ -109,6 +117,37 @@ def euclidean_growth_rate(tab: BackgroundTable) -> float:
     return float(2 * np.trapezoid(integrand, tab.t))
 
 
+def deformed_uv_tensor_note(ln_x_pivot: float, ln_pt_std: float, pivot: float) -> str:
+    """Uncapped tensor amplitude at the pivot vs the published tensor bound (see module doc)."""
+    from ..likelihood.sets import load_constraint_set
+    from .transfer import load_transfer
+
+    t = load_transfer("deformed_algebra", "remote_past")
+    ln_growth = math.log(t.growth_per_x) + ln_x_pivot  # ln of growth x (k_*/k_LQC)
+    ln_tt = (float(t.ln_mean_transfer(np.array([math.exp(ln_x_pivot)]))["tensor"][0])
+             if ln_growth < 700 else math.inf)
+    r_max = next(term.limit for term in load_constraint_set("bk18").terms
+                 if term.quantity == "r")
+    ln_as = next(term.mean for term in load_constraint_set("planck2018_base").terms
+                 if term.quantity == "ln_1e10_As") - math.log(1e10)
+    ln_bound = math.log(r_max) + ln_as
+    if math.isfinite(ln_tt):
+        amp = f"ln P_t = {ln_pt_std + ln_tt:.4g}"
+        excess = f"e^{ln_pt_std + ln_tt - ln_bound:.4g}"
+    else:
+        lg = (math.log(t.growth_per_x) + ln_x_pivot) / math.log(10)
+        amp = f"ln P_t ~ 10^{lg:.4g}"
+        excess = f"e^(10^{lg:.4g})"
+    return (f"deformed algebra, tensor amplitude at k_* = {pivot:g} Mpc^-1 (k_*/k_LQC = "
+            f"e^{ln_x_pivot:.4g}): {amp} from the Euclidean growth exp(2 k int sqrt(-Omega) "
+            f"d eta), against the tensor bound P_t < r_max A_s = {r_max:g} x "
+            f"{math.exp(ln_as):.3g} = {math.exp(ln_bound):.2g} (BK18 r limit x Planck 2018 A_s; "
+            f"the argument of arXiv:1510.08766): excluded by the tensor amplitude, {excess} "
+            f"above the bound. Scalars grow with the same exponent, so P_t/P_s = r_std x "
+            f"e^{t.uv_tensor_scalar_log_ratio:.2f} stays near slow roll: in the score the "
+            "exclusion appears through ln(1e10 A_s), not through r")
+
+
 def slow_roll_end(potential: Any, phi: float) -> float:
     """Field value where epsilon_V = (V'/V)^2/(16 pi) = 1, rolling down from ``phi``."""
     from scipy.optimize import brentq
@@ -163,7 +202,13 @@ def _beyond_cap(tab: BackgroundTable, potential: Any, opts: PerturbationOptions,
     std = bounce_spectra(ctab, kb, prescription="dressed_metric", state="remote_past",
                          sign_convention="classical", step=opts.step,
                          adiabatic_ratio=opts.adiabatic_ratio, freeze=opts.freeze)
-    boost = math.exp(MAX_GROWTH_EXPONENT) if opts.prescription == "deformed_algebra" else 1.0
+    boost_s, boost_t = 1.0, 1.0
+    if opts.prescription == "deformed_algebra":
+        from .transfer import load_transfer
+
+        boost_s = math.exp(MAX_GROWTH_EXPONENT)
+        boost_t = boost_s * math.exp(load_transfer("deformed_algebra", "remote_past")
+                                     .uv_tensor_scalar_log_ratio)
     ln_a_end_classical = float(np.interp(ctab.t_inflation_end, ctab.t, ctab.ln_a))
     n_b_star = float(tab.ln_a[-1] - tab.ln_a[tab.bounce_index()]) + n_cap - n_star
     ln_k_lqc = (math.log(pivot) - n_b_star
@@ -178,9 +223,12 @@ def _beyond_cap(tab: BackgroundTable, potential: Any, opts: PerturbationOptions,
              "radius during inflation, bounce untouched)"]
     if opts.prescription == "deformed_algebra":
         notes.append("deformed algebra: every window mode lies so far above k_LQC that its "
-                     "Euclidean growth exceeds e^600; the power is given as the standard one x "
-                     "e^600, a lower bound")
-    spectrum = BounceSpectrum(kb, std.scalar * boost, std.tensor * boost, tab.k_lqc,
+                     "Euclidean growth exceeds e^600; both powers are given as the standard "
+                     "ones x e^600 x their measured ultraviolet ratio, a lower bound")
+        notes.append(deformed_uv_tensor_note(
+            math.log(pivot) - ln_k_lqc, float(np.interp(math.log(pivot), np.log(k_mpc),
+                                                        np.log(std.tensor))), pivot))
+    spectrum = BounceSpectrum(kb, std.scalar * boost_s, std.tensor * boost_t, tab.k_lqc,
                               opts.prescription, opts.state, std.sign_convention,
                               std.scalar_modes, std.tensor_modes, std.notes, std.settings)
     return BounceRun(ctab, spectrum, sm, k_mpc, tuple(notes))
@@ -257,13 +305,25 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
         std = bounce_spectra(stab, np.exp(ln_kb[late] + shift), prescription="dressed_metric",
                              **{**kw, "state": "remote_past", "bogoliubov": None,
                                 "sign_convention": "classical"})
-        boost = math.exp(MAX_GROWTH_EXPONENT) if opts.prescription == "deformed_algebra" else 1.0
-        scal[late], tens[late] = std.scalar * boost, std.tensor * boost
+        boost_s, boost_t = 1.0, 1.0
+        if opts.prescription == "deformed_algebra":
+            from .transfer import load_transfer
+
+            boost_s = math.exp(MAX_GROWTH_EXPONENT)
+            boost_t = boost_s * math.exp(load_transfer("deformed_algebra", "remote_past")
+                                         .uv_tensor_scalar_log_ratio)
+        scal[late], tens[late] = std.scalar * boost_s, std.tensor * boost_t
         if opts.prescription == "deformed_algebra":
             notes.append(f"deformed algebra: {int(late.sum())} modes above "
                          f"k = {math.exp(ln_kb[late].min()) / k_lqc:.3g} k_LQC grow by more "
-                         "than e^600 in the Euclidean phase; their power is given as the "
-                         "standard one x e^600, a lower bound")
+                         "than e^600 in the Euclidean phase; both powers are given as the "
+                         "standard ones x e^600 x their measured ultraviolet ratio, a lower "
+                         "bound")
+            ln_x_piv = math.log(pivot) - sm.ln_k_lqc_mpc
+            if ln_x_piv > float(ln_kb[through].max() - math.log(k_lqc)):
+                ln_k_late = ln_kb[late] + sm.ln_mpc_per_bounce_unit
+                notes.append(deformed_uv_tensor_note(ln_x_piv, float(np.interp(
+                    math.log(pivot), ln_k_late, np.log(std.tensor))), pivot))
         else:
             notes.append(f"{int(late.sum())} modes above {math.exp(ln_kb[late].min()) / k_lqc:.3g}"
                          " k_LQC were started inside the Hubble radius during inflation "

@@ -150,6 +150,7 @@ class ModeResult:
     start_adiabaticity: np.ndarray
     description: str
     settings: dict = field(default_factory=dict)
+    p_end: np.ndarray | None = None  # conjugate momentum at t_end (same form as x_end)
 
 
 class ModeSolver:
@@ -263,6 +264,7 @@ class ModeSolver:
         jumped = np.zeros(nk)
         t_end = np.empty(nk)
         x_end = np.empty(nk, complex)
+        p_end = np.empty(nk, complex)
         adiab = np.empty(nk)
         fon = self.form_of_node
         for m, k in enumerate(ks):
@@ -313,9 +315,11 @@ class ModeSolver:
             power[m] = k**3 * form.amp[i_end] * abs(x) ** 2
             t_end[m] = self.t[i_end]
             x_end[m] = x
+            p_end[m] = p
             if bar is not None:
                 bar.update(1)
         return ModeResult(ks, power, frozen, werr, wscale, steps, jumped, t_end, x_end, adiab,
                           self.system.description,
                           {"step": self.step, "adiabatic_ratio": self.adiabatic_ratio,
-                           "min_jump_phase": self.min_jump_phase, "freeze": self.freeze})
+                           "min_jump_phase": self.min_jump_phase, "freeze": self.freeze},
+                          p_end)

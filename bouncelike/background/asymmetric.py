@@ -1,0 +1,304 @@
+"""Asymmetric-bounce dynamics: the modified loop-quantised Hamiltonian (Li, Singh & Wang,
+arXiv:1801.07313), integrated in the canonical pair (v, b), {b, v} = 4 pi gamma (G = 1).
+
+Constraint (lapse 1), with theta = lambda b:
+
+    C = (3 v / (8 pi lambda^2)) [sin^2 theta - ((1+gamma^2)/(4 gamma^2)) sin^2(2 theta)] + v rho.
+
+Derived here. On shell, with s^2 = sin^2 theta and rho_c = 3 / (8 pi gamma^2 lambda^2),
+
+    rho = rho_c s^2 [1 - (1 + gamma^2) s^2],
+
+whose maximum, at s^2 = 1 / (2 (1 + gamma^2)), is rho_max = rho_c / (4 (1 + gamma^2)).
+Hamilton's equations: vdot = -4 pi gamma dC/db gives
+
+    H = vdot / (3 v) = sin(2 theta) [(1 + gamma^2) cos(2 theta) - gamma^2] / (2 gamma lambda),
+
+and bdot = 4 pi gamma dC/dv = -4 pi gamma (rho + P), i.e. thetadot = -4 pi gamma lambda phidot^2
+(as in loop quantum cosmology). Classical limit theta -> 0: C -> -3 v b^2 / (8 pi gamma^2) + v rho
+and H -> b / gamma, general relativity; the expanding branch (s^2 < 1/(2(1+gamma^2))) approaches
+it after the bounce. The other branch ends, as rho -> 0, at s^2 = 1/(1 + gamma^2), i.e.
+theta -> beta_0 = arctan(1/gamma), where
+
+    H -> -1 / (lambda (1 + gamma^2)):   a contracting de Sitter phase with
+    Lambda_eff = 3 / (lambda^2 (1 + gamma^2)^2) = 8 pi rho_c gamma^2 / (1 + gamma^2)^2.
+
+Expanding the "-" branch Friedmann equation of the physics notes in x = rho / rho_max gives the
+next order, H^2 = Lambda_eff / 3 + (8 pi G_eff / 3) rho + O(rho^2) with
+G_eff = G (1 - 5 gamma^2) / (1 + gamma^2) (:func:`pre_bounce_newton_constant`).
+
+Initial data in the de Sitter-like contracting branch (the choice of this package)
+------------------------------------------------------------------------------------
+In the contracting branch |H| -> 1/(lambda (1+gamma^2)) ~ 0.42 in Planck units, far
+above any inflaton mass, so the field does not oscillate there: the oscillation phase of the
+isotropic case, whose flat prior is justified by the oscillation, has no counterpart. What the
+de Sitter contraction does instead is freeze the field and blow up its kinetic energy, as
+a^-6 ~ exp(6 |H| t): followed back in time the kinetic energy dies away and only the frozen
+value phi_0 remembers anything. Initial data are therefore set, as for the other dynamics, on
+the surface rho = rho_0 of the contracting branch by the energy angle of a
+:class:`~bouncelike.background.initial.ContractingStart` (sqrt(V) = sqrt(rho_0) sin(phase),
+phidot / sqrt(2) = sqrt(rho_0) cos(phase)); but here the flat phase prior is a flat prior on
+the energy split on that surface, and it amounts to a prior on the frozen field,
+V(phi_0) = rho_0 sin^2(phase). The bounce is then kinetic-dominated with V_B ~ V(phi_0) <= rho_0,
+so rho_0 acts as the scale of the potential at the bounce and the e-fold distribution depends
+on it (not only through a convergence window). Every ``describe()`` says so. Starting at the
+bounce (:class:`~bouncelike.background.initial.BounceStart`, fraction of rho_max) is offered too.
+
+State for integration: [u, ln a, phi, phidot], u = ln(beta_0 - theta) before the bounce (small
+there), ln(theta) after it; far after the bounce theta is solved from the constraint on the
+general-relativity branch (see :mod:`bouncelike.background.canonical`).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+from scipy.optimize import brentq
+
+from ..errors import InputError
+from ..units import IMMIRZI_DEFAULT
+from ..units import critical_density as lqc_critical_density
+from . import canonical as cn
+from .condensate import bounce_field
+from .initial import BounceStart, ClassicalStart, ContractingStart, IntegrationSettings
+from .result import BackgroundTrajectory
+
+
+def maximum_density(critical_density: float, gamma: float) -> float:
+    """rho_max = rho_c / (4 (1 + gamma^2)) (Li, Singh & Wang, arXiv:1801.07313)."""
+    return critical_density / (4.0 * (1.0 + gamma**2))
+
+
+def emergent_hubble_rate(critical_density: float, gamma: float) -> float:
+    """|H| of the contracting de Sitter limit, 1 / (lambda (1 + gamma^2)) with
+    lambda = sqrt(3 / (8 pi gamma^2 rho_c)) (derived in the module docstring)."""
+    lam = math.sqrt(3.0 / (8.0 * math.pi * critical_density)) / gamma
+    return 1.0 / (lam * (1.0 + gamma**2))
+
+
+def emergent_cosmological_constant(critical_density: float, gamma: float) -> float:
+    """Lambda_eff = 3 H_Lambda^2 = 8 pi rho_c gamma^2 / (1 + gamma^2)^2."""
+    return 3.0 * emergent_hubble_rate(critical_density, gamma) ** 2
+
+
+def pre_bounce_newton_constant(gamma: float) -> float:
+    """G_eff / G = (1 - 5 gamma^2) / (1 + gamma^2) of the contracting branch (derived)."""
+    return (1.0 - 5.0 * gamma**2) / (1.0 + gamma**2)
+
+
+def branch_hubble_squared(rho: Any, critical_density: float, gamma: float, branch: int) -> Any:
+    """Branch Friedmann equation of the physics notes, x = rho / rho_max,
+    H^2 = (8 pi rho / 3)(1 - x)[1 + (gamma^2/(1+gamma^2)) (sqrt(x)/(1 +- sqrt(1-x)))^2];
+    ``branch`` +1 after the bounce, -1 before it."""
+    rho = np.asarray(rho, dtype=float)
+    x = rho / maximum_density(critical_density, gamma)
+    root = np.sqrt(np.clip(1.0 - x, 0.0, None))
+    ratio = np.sqrt(x) / (1.0 + branch * root)
+    return (8.0 * math.pi * rho / 3.0) * (1.0 - x) * (1.0 + gamma**2 / (1.0 + gamma**2) * ratio**2)
+
+
+@dataclass(frozen=True)
+class AsymmetricSystem:
+    rho_c: float
+    gamma: float
+    potential: Any
+
+    @property
+    def gl(self) -> float:
+        return math.sqrt(3.0 / (8.0 * math.pi * self.rho_c))
+
+    @property
+    def beta0(self) -> float:
+        return math.atan(1.0 / self.gamma)
+
+    def _theta(self, y: np.ndarray, phase: int) -> float:
+        if phase == cn.PRE:
+            return self.beta0 - math.exp(y[0])
+        if phase == cn.LATE:
+            rho = 0.5 * y[3] ** 2 + float(self.potential.V(y[2]))
+            x = rho / self.rho_c
+            g2 = 1.0 + self.gamma**2
+            s2 = 2.0 * x / (1.0 + math.sqrt(max(1.0 - 4.0 * g2 * x, 0.0)))
+            return math.asin(math.sqrt(s2))
+        return math.exp(y[0])
+
+    def _hubble(self, theta: float) -> tuple[float, float]:
+        """H and dH/dtheta."""
+        g2 = self.gamma**2
+        two_gl = 2.0 * self.gl
+        hub = math.sin(2 * theta) * ((1 + g2) * math.cos(2 * theta) - g2) / two_gl
+        dh = 2.0 * ((1 + g2) * math.cos(4 * theta) - g2 * math.cos(2 * theta)) / two_gl
+        return hub, dh
+
+    def rhs(self, y: np.ndarray, phase: int) -> np.ndarray:
+        theta = self._theta(y, phase)
+        hub, _ = self._hubble(theta)
+        phi, phidot = y[2], y[3]
+        thetadot = -4.0 * math.pi * self.gl * phidot * phidot
+        if phase == cn.PRE:
+            udot = -thetadot / math.exp(y[0])
+        elif phase == cn.POST:
+            udot = thetadot / theta
+        else:
+            udot = 0.0
+        phiddot = -3.0 * hub * phidot - float(self.potential.dV(phi))
+        return np.array([udot, hub, phidot, phiddot])
+
+    def observe(self, y: np.ndarray, phase: int) -> np.ndarray:
+        theta = self._theta(y, phase)
+        hub, dh = self._hubble(theta)
+        phi, phidot = y[2], y[3]
+        v = float(self.potential.V(phi))
+        kin = 0.5 * phidot * phidot
+        hdot = dh * (-4.0 * math.pi * self.gl * phidot * phidot)
+        phiddot = -3.0 * hub * phidot - float(self.potential.dV(phi))
+        return np.array([y[1], hub, hdot, phi, phidot, phiddot, kin + v, v])
+
+    def gravitational_density(self, y: np.ndarray, phase: int) -> float:
+        g2 = 1.0 + self.gamma**2
+        if phase == cn.PRE:
+            d = math.exp(y[0])
+            # 1 - (1+g^2) sin^2 theta = (1+g^2) sin(beta0 + theta) sin(beta0 - theta)
+            return (self.rho_c * math.sin(self.beta0 - d) ** 2 * g2
+                    * math.sin(2 * self.beta0 - d) * math.sin(d))
+        s2 = math.sin(self._theta(y, phase)) ** 2
+        return self.rho_c * s2 * (1.0 - g2 * s2)
+
+    def to_post(self, y: np.ndarray) -> np.ndarray:
+        out = np.array(y, float)
+        out[0] = math.log(self.beta0 - math.exp(out[0]))
+        return out
+
+    def to_late(self, y: np.ndarray) -> np.ndarray:
+        out = np.array(y, float)
+        out[0] = math.log(self._theta(out, cn.LATE))
+        return out
+
+    def constraint_residual(self, y: np.ndarray, phase: int) -> float:
+        rho = 0.5 * y[3] ** 2 + float(self.potential.V(y[2]))
+        return abs(self.gravitational_density(y, phase) - rho) / rho
+
+
+@dataclass(frozen=True)
+class AsymmetricDynamics:
+    """Modified loop-quantised dynamics with an asymmetric bounce (module docstring)."""
+
+    critical_density: float = lqc_critical_density()
+    gamma: float = IMMIRZI_DEFAULT
+
+    NAME = "asymmetric"
+    CONFIG_KEYS = ("gamma",)
+
+    def __post_init__(self) -> None:
+        if not (self.critical_density > 0 and math.isfinite(self.critical_density)):
+            raise InputError(
+                f"'background.critical_density' = {self.critical_density!r}; allowed: > 0"
+            )
+        if not (0 < self.gamma < 10):
+            raise InputError(
+                f"'background.asymmetric.gamma' = {self.gamma!r}; allowed: > 0 and < 10"
+            )
+
+    @classmethod
+    def from_config(cls, table: Any, critical_density: float) -> AsymmetricDynamics:
+        return cls(critical_density, table.number("gamma", IMMIRZI_DEFAULT, minimum=0.0,
+                                                   exclusive_minimum=True, maximum=10.0))
+
+    @property
+    def maximum_density(self) -> float:
+        return maximum_density(self.critical_density, self.gamma)
+
+    def system(self, potential: Any) -> AsymmetricSystem:
+        return AsymmetricSystem(self.critical_density, self.gamma, potential)
+
+    def initial_state(self, potential: Any, initial: Any) -> tuple[np.ndarray, int]:
+        system = self.system(potential)
+        if isinstance(initial, ContractingStart):
+            if not 0.0 < initial.density < 1e-2 * self.maximum_density:
+                raise InputError(
+                    f"'background.contracting.density' = {initial.density:g} is out of range; "
+                    f"allowed: > 0 and < {1e-2 * self.maximum_density:g} (1% of the maximum "
+                    "density rho_c / (4 (1 + gamma^2)))"
+                )
+            phi, phidot = cn.field_from_phase(potential, initial.density, initial.phase)
+            rho = 0.5 * phidot**2 + float(potential.V(phi))
+            g2 = 1.0 + self.gamma**2
+            b0 = system.beta0
+
+            def f(ln_d: float) -> float:
+                d = math.exp(ln_d)
+                grav = (self.critical_density * math.sin(b0 - d) ** 2 * g2
+                        * math.sin(2 * b0 - d) * math.sin(d))
+                return math.log(grav / rho)
+
+            theta_b = math.asin(math.sqrt(1.0 / (2.0 * g2)))
+            ln_d = brentq(f, math.log(1e-300), math.log(b0 - theta_b), xtol=1e-15)
+            return np.array([ln_d, 0.0, phi, phidot]), cn.PRE
+        if isinstance(initial, BounceStart):
+            rho_b = self.maximum_density
+            phi, phidot = bounce_field(potential, rho_b, initial.potential_fraction,
+                                       initial.phidot_sign)
+            theta_b = math.asin(math.sqrt(1.0 / (2.0 * (1.0 + self.gamma**2))))
+            return np.array([math.log(theta_b), 0.0, phi, phidot]), cn.POST
+        if isinstance(initial, ClassicalStart):  # expanding, general-relativity branch
+            phi, phidot = cn.classical_field(initial)
+            rho = 0.5 * phidot**2 + float(potential.V(phi))
+            if not 0.0 < rho < cn.LATE_FRACTION * self.maximum_density:
+                raise InputError(
+                    f"classical start density {rho:g} is out of range; allowed: > 0 and < "
+                    f"{cn.LATE_FRACTION * self.maximum_density:g}"
+                )
+            y = np.array([0.0, 0.0, phi, phidot])
+            return system.to_late(y), cn.LATE
+        raise InputError(
+            f"'background.start' = '{type(initial).__name__}' is not available for dynamics "
+            "'asymmetric'; allowed: bounce, classical, contracting"
+        )
+
+    def evolve(
+        self, potential: Any, initial: Any, settings: IntegrationSettings | None = None
+    ) -> BackgroundTrajectory:
+        settings = settings or IntegrationSettings()
+        y0, phase = self.initial_state(potential, initial)
+        system = self.system(potential)
+        atol, atol_post = cn.tolerances(settings, y0)
+        classical = isinstance(initial, ClassicalStart)
+        run = cn.integrate(
+            system, y0, phase, settings, atol=atol, atol_post=atol_post,
+            late_density=cn.LATE_FRACTION * self.maximum_density, classical=classical,
+        )
+        tr = cn.assemble(
+            self.NAME,
+            run,
+            self.critical_density,
+            cn.residuals(system, run),
+            extras={"steps": run.steps, "maximum_density": self.maximum_density,
+                    "emergent_hubble_rate": emergent_hubble_rate(self.critical_density,
+                                                                 self.gamma)},
+            settings={**settings.as_dict(), "initial": repr(initial), **self.describe()},
+        )
+        return cn.as_classical(tr) if classical else tr
+
+    def describe(self) -> dict[str, Any]:
+        return {
+            "dynamics": self.NAME,
+            "critical_density": self.critical_density,
+            "gamma": self.gamma,
+            "maximum_density": self.maximum_density,
+            "emergent_cosmological_constant": emergent_cosmological_constant(
+                self.critical_density, self.gamma),
+            "pre_bounce_newton_constant_ratio": pre_bounce_newton_constant(self.gamma),
+            "equations": "Hamilton's equations in (v, b) of the modified loop-quantised "
+            "constraint (Li, Singh & Wang, arXiv:1801.07313)",
+            "contracting_start": (
+                "contracting branch is de Sitter-like (|H| -> 1/(lambda (1+gamma^2)), far above "
+                "the inflaton mass): no field oscillation, so the phase is the energy angle on "
+                "the surface rho = rho_0 (sqrt(V) = sqrt(rho_0) sin(phase)), i.e. a prior on the "
+                "frozen field V(phi_0) = rho_0 sin^2(phase); the bounce is then kinetic-dominated "
+                "with V_B ~ V(phi_0) <= rho_0, so rho_0 sets the scale of V_B and the results "
+                "depend on it"
+            ),
+        }
