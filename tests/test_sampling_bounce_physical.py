@@ -171,3 +171,27 @@ def test_sample_and_report_end_to_end(tmp_path, capsys):
     assert rep["best_fit"]["verdict"] == "excluded"  # phi^2 vs BK18 (arXiv:2110.00483)
     for f in ("verdicts.md", "triangle.png", "marginals.tex", "efolds.png"):
         assert (folder / "report" / f).is_file()
+
+
+@pytest.mark.parametrize("edit, message", [
+    # both background choices: the potential fraction sampled and N_inflation fixed
+    (lambda t: t.replace('[parameters.N_inflation]\nrole = "derived"',
+                         '[parameters.N_inflation]\nrole = "fixed"\nvalue = 80.0'),
+     "exactly one of"),
+    (lambda t: t.replace("[parameters.N_star]", "[parameters.unused_N_star]"),
+     "'parameters.unused_N_star' is not a parameter"),
+    # N_* and a reheating equation of state together
+    (lambda t: t.replace("[parameters.critical_density]", "[parameters.equation_of_state]\n"
+                         "role = \"fixed\"\nvalue = 0.0\n\n[parameters.critical_density]"),
+     "needs [parameters.N_star], or both"),
+])
+def test_bad_physical_priors_exit_2_and_write_nothing(tmp_path, capsys, edit, message):
+    text = edit((SHIPPED_PRIORS / "bounce_dressed_metric_physical.toml").read_text())
+    (tmp_path / "prior.toml").write_text(text)
+    cfg = tmp_path / "bad.toml"
+    cfg.write_text('[likelihood]\nsets = ["planck2018_base"]\n\n[sampling]\n'
+                   f'prior = "prior.toml"\nchains_dir = "{tmp_path / "chains"}"\n')
+    assert main(["sample", str(cfg), "--quiet"]) == 2
+    err = capsys.readouterr().err.strip()
+    assert message in err and "\n" not in err
+    assert not (tmp_path / "chains").exists()

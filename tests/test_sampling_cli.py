@@ -122,12 +122,14 @@ def test_workers_zero_and_report_on_non_run(tmp_path, capsys, monkeypatch):
 
 def test_shipped_priors_load():
     from bouncelike.errors import InputError
-    from bouncelike.sampling.parametric import PARAMETRIC_MODELS, parametric_model
+    from bouncelike.sampling.parametric import PARAMETRIC_MODELS, model_prior, parametric_model
     from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior
 
     names = sorted(p.stem for p in SHIPPED_PRIORS.glob("*.toml"))
-    assert names == ["bounce_deformed_algebra", "bounce_dressed_metric", "power_law",
-                     "quadratic_slow_roll", "starobinsky_slow_roll"]
+    assert names == ["bounce_deformed_algebra", "bounce_deformed_algebra_physical",
+                     "bounce_dressed_metric", "bounce_dressed_metric_phase",
+                     "bounce_dressed_metric_physical", "power_law", "quadratic_slow_roll",
+                     "starobinsky_slow_roll"]
     for n in names:
         try:
             prior = load_prior(SHIPPED_PRIORS / f"{n}.toml")
@@ -135,8 +137,7 @@ def test_shipped_priors_load():
             assert "efolds_from_phase" in str(exc)
             continue
         if prior.model in PARAMETRIC_MODELS:
-            m = parametric_model(prior.model)
-            load_prior(SHIPPED_PRIORS / f"{n}.toml", m.parameter_names, m.derived_names)
+            model_prior(parametric_model(prior.model), SHIPPED_PRIORS / f"{n}.toml")
 
 
 EFOLD_PRIOR = """
