@@ -287,7 +287,8 @@ def write_report(folder: str | Path, data: dict[str, Any],
     # nothing to the triangle plot; neither do indicators (e.g. "certified") or numbers
     # spanning many decades
     values = frame[names].to_numpy()
-    corr = np.corrcoef(values.T) if len(frame) > 2 else np.eye(len(names))
+    with np.errstate(invalid="ignore", divide="ignore"):  # constant columns give NaN rows
+        corr = np.corrcoef(values.T) if len(frame) > 2 else np.eye(len(names))
     n_sampled = len(data["sampled"])
 
     def plottable(i: int) -> bool:
