@@ -192,6 +192,8 @@ class AsymmetricDynamics:
 
     NAME = "asymmetric"
     CONFIG_KEYS = ("gamma",)
+    #: |H| ~ 0.42 before the bounce, far above the inflaton mass: no oscillation (docstring)
+    FIELD_OSCILLATES_BEFORE_BOUNCE = False
 
     def __post_init__(self) -> None:
         if not (self.critical_density > 0 and math.isfinite(self.critical_density)):
