@@ -55,6 +55,11 @@ def test_compiled_equations_equal_python_systems(case):
     for phase, y in states:
         ck.evaluate(code, prm, kind, pp, y, phase, out, obs)
         ref = system.rhs(y, phase)
+        if code == ck.SYS_BIANCHI:
+            # d/dt of the conserved differences: k (3H - sum), zero analytically; both sides
+            # give round-off of the terms (size k / (gamma lambda)) only
+            assert np.all(np.abs(out[1:3] - ref[1:3]) <= 1e-14 * np.abs(y[1:3]) / prm[1])
+            out[1:3] = ref[1:3]
         np.testing.assert_allclose(out, ref, rtol=1e-12, atol=1e-300)
         np.testing.assert_allclose(obs, system.observe(y, phase), rtol=1e-12, atol=1e-300)
         assert ck.residual(code, prm, kind, pp, y, phase) == pytest.approx(

@@ -13,8 +13,11 @@ The same algorithm as the scipy-stepped reference :func:`bouncelike.background.c
   Wanner, Solving ODEs I, 1993; tableau in :mod:`bouncelike.background.dop853_tableau`) with the
   step-size control, error norm and initial-step selection of ``scipy.integrate.DOP853``, so
   that the two paths take essentially the same steps;
-* events are located on the 7th-order continuous extension of the step, by bisection in time
-  to 1e-14 (|t| + 1) (the reference uses Brent's method to the same tolerance).
+* events are located on the 7th-order continuous extension of the step, by bisection in the
+  step fraction to 1e-15 (the reference uses Brent's method in time to 1e-14 (|t| + 1));
+* speed: the systems' functions take and return tuples of floats (numba passes arrays between
+  compiled functions with reference counting, which cost more than the Bianchi I right-hand
+  side itself), and sin/cos of the small angles are Taylor polynomials.
 
 :func:`integrate` returns a summary vector whose first entries follow the layout of the
 isotropic kernel (:mod:`bouncelike.background.kernels`, S_*), with the status as an index into
@@ -79,17 +82,44 @@ SAFETY, MIN_FACTOR, MAX_FACTOR = 0.9, 0.2, 10.0
 ERROR_EXPONENT = -1.0 / 8.0
 
 _jit = njit(cache=True, error_model="numpy")
+_inline = njit(cache=True, error_model="numpy", inline="always")
+
+
+# Calling conventions. Inside the driver the system functions take tuples: ``prm`` (4 floats,
+# the system's parameters), ``pp`` (4 floats, the potential's kernel parameters, read by
+# kernels.potential_terms), ``y`` (6 floats, the state padded with zeros) and return tuples;
+# numba passes arrays between compiled functions with reference counting, which costs more than
+# the whole Bianchi I right-hand side. ``want_obs`` also computes the observables
+# (ln a, H, Hdot, phi, phidot, phiddot, rho, V).
+_ZERO8 = (0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0)
+_I2, _I6, _I12, _I20, _I30, _I42, _I56 = 1 / 2, 1 / 6, 1 / 12, 1 / 20, 1 / 30, 1 / 42, 1 / 56
+_THIRD = 1.0 / 3.0
+
+
+@_inline
+def _sincos(d):
+    """(sin d, cos d); Taylor polynomials for |d| < 0.02 (truncation below 1e-19 relative),
+    where the offsets x_i - xbar and, away from the bounce, the angles almost always are;
+    else the library functions."""
+    if abs(d) < 0.02:
+        q = d * d
+        return (d * (1.0 - q * _I6 * (1.0 - q * _I20 * (1.0 - q * _I42))),
+                1.0 - q * _I2 * (1.0 - q * _I12 * (1.0 - q * _I30 * (1.0 - q * _I56))))
+    return math.sin(d), math.cos(d)
 
 
 # -- Bianchi I (state [u, k12, k23, ln a, phi, phidot]; prm = [rho_c, gamma lambda]) -------------
 @_jit
-def solve_mean_angle(target, d1, d2, d3):
-    """xbar > 0 with sum_{i<j} sin(xbar + d_i) sin(xbar + d_j) = target (bianchi.py)."""
-    xb = math.sqrt(max(target + 0.5 * (d1 * d1 + d2 * d2 + d3 * d3), 0.0) / 3.0)
+def _mean_angle(target, d1, d2, d3, sd1, cd1, sd2, cd2, sd3, cd3):
+    """xbar > 0 with sum_{i<j} sin(xbar + d_i) sin(xbar + d_j) = target: the Newton iteration of
+    bianchi.solve_mean_angle, with sin/cos of the offsets d_i given."""
+    xb = math.sqrt(max(target + 0.5 * (d1 * d1 + d2 * d2 + d3 * d3), 0.0) * _THIRD)
     for _ in range(60):
-        s1, s2, s3 = math.sin(xb + d1), math.sin(xb + d2), math.sin(xb + d3)
+        sb, cb = _sincos(xb)
+        s1, s2, s3 = sb * cd1 + cb * sd1, sb * cd2 + cb * sd2, sb * cd3 + cb * sd3
+        c1, c2, c3 = cb * cd1 - sb * sd1, cb * cd2 - sb * sd2, cb * cd3 - sb * sd3
         f = s1 * s2 + s2 * s3 + s3 * s1 - target
-        fp = math.sin(2 * xb + d1 + d2) + math.sin(2 * xb + d2 + d3) + math.sin(2 * xb + d3 + d1)
+        fp = (s1 * c2 + c1 * s2) + (s2 * c3 + c2 * s3) + (s3 * c1 + c3 * s1)
         step = f / fp
         xb -= step
         if abs(step) <= 1e-15 * abs(xb):
@@ -98,82 +128,87 @@ def solve_mean_angle(target, d1, d2, d3):
 
 
 @_jit
-def _bianchi_angles(prm, kind, pp, y, phase):
-    """(s1, s2, s3, c1, c2, c3, d1, d2, d3, base): sin/cos x_i, x_i - xbar, and
-    zbar = pi - xbar before the bounce or xbar after it."""
-    f = math.exp(-3.0 * y[3]) / 3.0
-    d1 = (2.0 * y[1] + y[2]) * f
-    d2 = (y[2] - y[1]) * f
-    d3 = -(y[1] + 2.0 * y[2]) * f
-    if phase == PRE:
-        zb = math.exp(y[0])
-        return (math.sin(zb - d1), math.sin(zb - d2), math.sin(zb - d3),
-                -math.cos(zb - d1), -math.cos(zb - d2), -math.cos(zb - d3), d1, d2, d3, zb)
-    if phase == LATE:
-        V = potential_terms(kind, pp, y[4])[0]
-        rho = 0.5 * y[5] * y[5] + V
-        xb = solve_mean_angle(3.0 * rho / prm[0], d1, d2, d3)
-    else:
-        xb = math.exp(y[0])
-    return (math.sin(xb + d1), math.sin(xb + d2), math.sin(xb + d3),
-            math.cos(xb + d1), math.cos(xb + d2), math.cos(xb + d3), d1, d2, d3, xb)
+def solve_mean_angle(target, d1, d2, d3):
+    """xbar > 0 with sum_{i<j} sin(xbar + d_i) sin(xbar + d_j) = target (bianchi.py)."""
+    sd1, cd1 = _sincos(d1)
+    sd2, cd2 = _sincos(d2)
+    sd3, cd3 = _sincos(d3)
+    return _mean_angle(target, d1, d2, d3, sd1, cd1, sd2, cd2, sd3, cd3)
 
 
 @_jit
-def _bianchi(prm, kind, pp, y, phase, out, obs):
-    """Right-hand side into ``out`` (if given) and observables into ``obs`` (if given)."""
+def _bianchi_angles(prm, kind, pp, y, phase):
+    """(s1, s2, s3, c1, c2, c3, d1, d2, d3, base): sin/cos x_i, x_i - xbar, and
+    zbar = pi - xbar before the bounce or xbar after it; sin/cos of zbar -+ d_i by the
+    addition formulas."""
+    f = math.exp(-3.0 * y[3]) * _THIRD
+    d1 = (2.0 * y[1] + y[2]) * f
+    d2 = (y[2] - y[1]) * f
+    d3 = -(y[1] + 2.0 * y[2]) * f
+    sd1, cd1 = _sincos(d1)
+    sd2, cd2 = _sincos(d2)
+    sd3, cd3 = _sincos(d3)
+    if phase == PRE:
+        zb = math.exp(y[0])
+        sb, cb = _sincos(zb)
+        # z_i = zbar - d_i; s_i = sin z_i, c_i = -cos z_i
+        return (sb * cd1 - cb * sd1, sb * cd2 - cb * sd2, sb * cd3 - cb * sd3,
+                -(cb * cd1 + sb * sd1), -(cb * cd2 + sb * sd2), -(cb * cd3 + sb * sd3),
+                d1, d2, d3, zb)
+    if phase == LATE:
+        rho = 0.5 * y[5] * y[5] + potential_terms(kind, pp, y[4])[0]
+        xb = _mean_angle(3.0 * rho / prm[0], d1, d2, d3, sd1, cd1, sd2, cd2, sd3, cd3)
+    else:
+        xb = math.exp(y[0])
+    sb, cb = _sincos(xb)
+    return (sb * cd1 + cb * sd1, sb * cd2 + cb * sd2, sb * cd3 + cb * sd3,
+            cb * cd1 - sb * sd1, cb * cd2 - sb * sd2, cb * cd3 - sb * sd3, d1, d2, d3, xb)
+
+
+@_jit
+def _bianchi(prm, kind, pp, y, phase, want_obs):
     s1, s2, s3, c1, c2, c3, d1, d2, d3, base = _bianchi_angles(prm, kind, pp, y, phase)
     phi, phidot = y[4], y[5]
     V, dV, _ = potential_terms(kind, pp, phi)
     gl = prm[1]
-    two_gl = 2.0 * gl
+    inv = 0.5 / gl  # 1 / (2 gamma lambda)
     a1, a2, a3 = s2 + s3, s1 + s3, s1 + s2
     big_s = s1 * s2 + s2 * s3 + s3 * s1
     kin = 0.5 * phidot * phidot
     matter = 4.0 * math.pi * gl * (kin - V)
-    xd1 = -(big_s + (d1 - d2) * c2 * a2 + (d1 - d3) * c3 * a3) / two_gl - matter
-    xd2 = -(big_s + (d2 - d3) * c3 * a3 + (d2 - d1) * c1 * a1) / two_gl - matter
-    xd3 = -(big_s + (d3 - d1) * c1 * a1 + (d3 - d2) * c2 * a2) / two_gl - matter
-    sym = (c1 * a1 + c2 * a2 + c3 * a3) / two_gl
-    h1 = (c2 * a2 + c3 * a3 - c1 * a1) / two_gl
-    h2 = (c3 * a3 + c1 * a1 - c2 * a2) / two_gl
-    h3 = (c1 * a1 + c2 * a2 - c3 * a3) / two_gl
-    three_h = h1 + h2 + h3
+    xd1 = -(big_s + (d1 - d2) * c2 * a2 + (d1 - d3) * c3 * a3) * inv - matter
+    xd2 = -(big_s + (d2 - d3) * c3 * a3 + (d2 - d1) * c1 * a1) * inv - matter
+    xd3 = -(big_s + (d3 - d1) * c1 * a1 + (d3 - d2) * c2 * a2) * inv - matter
+    e1, e2, e3 = c1 * a1, c2 * a2, c3 * a3
+    sym = (e1 + e2 + e3) * inv
+    # 3 H = H_1 + H_2 + H_3 evaluated apart from ``sym`` (equal analytically; bianchi.py)
+    three_h = ((e2 + e3 - e1) + (e3 + e1 - e2) + (e1 + e2 - e3)) * inv
     phiddot = -three_h * phidot - dV
-    if out.shape[0] > 0:
-        xbar_dot = (xd1 + xd2 + xd3) / 3.0
-        if phase == PRE:
-            out[0] = -xbar_dot / base
-        elif phase == POST:
-            out[0] = xbar_dot / base
-        else:
-            out[0] = 0.0
-        out[1] = y[1] * (three_h - sym)
-        out[2] = y[2] * (three_h - sym)
-        out[3] = three_h / 3.0
-        out[4] = phidot
-        out[5] = phiddot
-    if obs.shape[0] > 0:
-        # Hdot = mean_i sum_j (dH_i/dx_j) xdot_j (bianchi.rate_jacobian); the column sums of
-        # 2 gamma lambda J are d(c1 a1 + c2 a2 + c3 a3)/dx_j = c_j (c_k + c_l) - s_j a_j
-        col1 = c1 * (c2 + c3) - s1 * a1
-        col2 = c2 * (c1 + c3) - s2 * a2
-        col3 = c3 * (c1 + c2) - s3 * a3
-        obs[LN_A] = y[3]
-        obs[HUB] = three_h / 3.0
-        obs[HDOT] = (col1 * xd1 + col2 * xd2 + col3 * xd3) / (3.0 * two_gl)
-        obs[PHI] = phi
-        obs[PHIDOT] = phidot
-        obs[PHIDDOT] = phiddot
-        obs[RHO] = kin + V
-        obs[POT] = V
+    xbar_dot = (xd1 + xd2 + xd3) * _THIRD
+    if phase == PRE:
+        u = -xbar_dot / base
+    elif phase == POST:
+        u = xbar_dot / base
+    else:
+        u = 0.0
+    rhs = (u, y[1] * (three_h - sym), y[2] * (three_h - sym), three_h * _THIRD, phidot,
+           phiddot)
+    if not want_obs:
+        return rhs, _ZERO8
+    # Hdot = mean_i sum_j (dH_i/dx_j) xdot_j (bianchi.rate_jacobian); the column sums of
+    # 2 gamma lambda J are d(c1 a1 + c2 a2 + c3 a3)/dx_j = c_j (c_k + c_l) - s_j a_j
+    col1 = c1 * (c2 + c3) - s1 * a1
+    col2 = c2 * (c1 + c3) - s2 * a2
+    col3 = c3 * (c1 + c2) - s3 * a3
+    hdot = (col1 * xd1 + col2 * xd2 + col3 * xd3) * inv * _THIRD
+    return rhs, (y[3], three_h * _THIRD, hdot, phi, phidot, phiddot, kin + V, V)
 
 
 @_jit
 def _bianchi_residual(prm, kind, pp, y, phase):
     s1, s2, s3, _, _, _, _, _, _, _ = _bianchi_angles(prm, kind, pp, y, phase)
     rho = 0.5 * y[5] * y[5] + potential_terms(kind, pp, y[4])[0]
-    return abs(prm[0] * (s1 * s2 + s2 * s3 + s3 * s1) / 3.0 - rho) / rho
+    return abs(prm[0] * (s1 * s2 + s2 * s3 + s3 * s1) * _THIRD - rho) / rho
 
 
 # -- asymmetric (state [u, ln a, phi, phidot]; prm = [rho_c, gamma, gamma lambda, beta_0]) -------
@@ -191,35 +226,27 @@ def _asym_theta(prm, kind, pp, y, phase):
 
 
 @_jit
-def _asymmetric(prm, kind, pp, y, phase, out, obs):
+def _asymmetric(prm, kind, pp, y, phase, want_obs):
     theta = _asym_theta(prm, kind, pp, y, phase)
     g2 = prm[1] * prm[1]
     two_gl = 2.0 * prm[2]
-    hub = math.sin(2 * theta) * ((1 + g2) * math.cos(2 * theta) - g2) / two_gl
+    s2t, c2t = math.sin(2 * theta), math.cos(2 * theta)
+    hub = s2t * ((1 + g2) * c2t - g2) / two_gl
     phi, phidot = y[2], y[3]
     V, dV, _ = potential_terms(kind, pp, phi)
     thetadot = -4.0 * math.pi * prm[2] * phidot * phidot
     phiddot = -3.0 * hub * phidot - dV
-    if out.shape[0] > 0:
-        if phase == PRE:
-            out[0] = -thetadot / math.exp(y[0])
-        elif phase == POST:
-            out[0] = thetadot / theta
-        else:
-            out[0] = 0.0
-        out[1] = hub
-        out[2] = phidot
-        out[3] = phiddot
-    if obs.shape[0] > 0:
-        dh = 2.0 * ((1 + g2) * math.cos(4 * theta) - g2 * math.cos(2 * theta)) / two_gl
-        obs[LN_A] = y[1]
-        obs[HUB] = hub
-        obs[HDOT] = dh * thetadot
-        obs[PHI] = phi
-        obs[PHIDOT] = phidot
-        obs[PHIDDOT] = phiddot
-        obs[RHO] = 0.5 * phidot * phidot + V
-        obs[POT] = V
+    if phase == PRE:
+        u = -thetadot / math.exp(y[0])
+    elif phase == POST:
+        u = thetadot / theta
+    else:
+        u = 0.0
+    rhs = (u, hub, phidot, phiddot, 0.0, 0.0)
+    if not want_obs:
+        return rhs, _ZERO8
+    dh = 2.0 * ((1 + g2) * math.cos(4 * theta) - g2 * c2t) / two_gl
+    return rhs, (y[1], hub, dh * thetadot, phi, phidot, phiddot, 0.5 * phidot * phidot + V, V)
 
 
 @_jit
@@ -255,35 +282,25 @@ def _loop_angle(prm, kind, pp, y, phase):
 
 
 @_jit
-def _loop(prm, kind, pp, y, phase, out, obs):
+def _loop(prm, kind, pp, y, phase, want_obs):
     w = _loop_angle(prm, kind, pp, y, phase)
     ell = prm[2]
     big_a, qv = _loop_factor(prm, y[1])
     sgn = -1.0 if phase == PRE else 1.0
-    s2 = math.sin(2.0 * w)
-    hub = sgn * big_a * s2 / (2.0 * ell)
+    hub = sgn * big_a * math.sin(2.0 * w) / (2.0 * ell)
     phi, phidot = y[2], y[3]
     V, dV, _ = potential_terms(kind, pp, phi)
     kin = 0.5 * phidot * phidot
     rho = kin + V
     phiddot = -3.0 * hub * phidot - dV
-    if out.shape[0] > 0:
-        drive = 4.0 * math.pi * ell * (2.0 * kin - rho * qv / big_a)
-        wdot = drive if phase == PRE else -drive
-        out[0] = 0.0 if phase == LATE else wdot / w
-        out[1] = hub
-        out[2] = phidot
-        out[3] = phiddot
-    if obs.shape[0] > 0:
-        thetadot = -4.0 * math.pi * ell * (2.0 * kin - rho * qv / big_a)
-        obs[LN_A] = y[1]
-        obs[HUB] = hub
-        obs[HDOT] = -3.0 * hub * hub * qv / big_a + big_a * math.cos(2.0 * w) * thetadot / ell
-        obs[PHI] = phi
-        obs[PHIDOT] = phidot
-        obs[PHIDDOT] = phiddot
-        obs[RHO] = rho
-        obs[POT] = V
+    drive = 4.0 * math.pi * ell * (2.0 * kin - rho * qv / big_a)
+    wdot = drive if phase == PRE else -drive
+    rhs = (0.0 if phase == LATE else wdot / w, hub, phidot, phiddot, 0.0, 0.0)
+    if not want_obs:
+        return rhs, _ZERO8
+    thetadot = -drive
+    hdot = -3.0 * hub * hub * qv / big_a + big_a * math.cos(2.0 * w) * thetadot / ell
+    return rhs, (y[1], hub, hdot, phi, phidot, phiddot, rho, V)
 
 
 @_jit
@@ -296,24 +313,79 @@ def _loop_residual(prm, kind, pp, y, phase):
 
 # -- dispatch --------------------------------------------------------------------------------------
 @_jit
-def evaluate(code, prm, kind, pp, y, phase, out, obs):
-    """dy/dt into ``out`` and observables into ``obs`` (either may have length 0)."""
+def _system(code, prm, kind, pp, y, phase, want_obs):
     if code == SYS_BIANCHI:
-        _bianchi(prm, kind, pp, y, phase, out, obs)
-    elif code == SYS_ASYMMETRIC:
-        _asymmetric(prm, kind, pp, y, phase, out, obs)
-    else:
-        _loop(prm, kind, pp, y, phase, out, obs)
+        return _bianchi(prm, kind, pp, y, phase, want_obs)
+    if code == SYS_ASYMMETRIC:
+        return _asymmetric(prm, kind, pp, y, phase, want_obs)
+    return _loop(prm, kind, pp, y, phase, want_obs)
 
 
 @_jit
-def residual(code, prm, kind, pp, y, phase):
-    """Relative constraint residual of the state."""
+def _residual(code, prm, kind, pp, y, phase):
     if code == SYS_BIANCHI:
         return _bianchi_residual(prm, kind, pp, y, phase)
     if code == SYS_ASYMMETRIC:
         return _asym_residual(prm, kind, pp, y, phase)
     return _loop_residual(prm, kind, pp, y, phase)
+
+
+@_inline
+def _tup(a):
+    """A state array (length 4 or 6) as a 6-tuple padded with zeros."""
+    if a.shape[0] == 6:
+        return (a[0], a[1], a[2], a[3], a[4], a[5])
+    return (a[0], a[1], a[2], a[3], 0.0, 0.0)
+
+
+@_inline
+def _tup4(a):
+    """Up to four parameters as a 4-tuple padded with zeros."""
+    n = a.shape[0]
+    return (a[0] if n > 0 else 0.0, a[1] if n > 1 else 0.0, a[2] if n > 2 else 0.0,
+            a[3] if n > 3 else 0.0)
+
+
+@_inline
+def _rhs_into(code, prm, kind, pp, y, phase, k, row):
+    """dy/dt at the state array ``y`` into k[row]."""
+    r, _ = _system(code, prm, kind, pp, _tup(y), phase, False)
+    for i in range(y.shape[0]):
+        k[row, i] = r[i]
+
+
+@_inline
+def _obs_into(code, prm, kind, pp, y, phase, o):
+    """Observables at the state array ``y`` into ``o``."""
+    _, ob = _system(code, prm, kind, pp, _tup(y), phase, True)
+    for i in range(N_OBS):
+        o[i] = ob[i]
+
+
+@_inline
+def _both_into(code, prm, kind, pp, y, phase, k, row, o):
+    r, ob = _system(code, prm, kind, pp, _tup(y), phase, True)
+    for i in range(y.shape[0]):
+        k[row, i] = r[i]
+    for i in range(N_OBS):
+        o[i] = ob[i]
+
+
+@_jit
+def evaluate(code, prm, kind, pp, y, phase, out, obs):
+    """dy/dt into ``out`` and observables into ``obs`` (arrays; ``prm`` and ``pp`` of length
+    4): the entry point for tests and tools."""
+    r, ob = _system(code, _tup4(prm), kind, _tup4(pp), _tup(y), phase, True)
+    for i in range(y.shape[0]):
+        out[i] = r[i]
+    for i in range(N_OBS):
+        obs[i] = ob[i]
+
+
+@_jit
+def residual(code, prm, kind, pp, y, phase):
+    """Relative constraint residual of the state array ``y``."""
+    return _residual(code, _tup4(prm), kind, _tup4(pp), _tup(y), phase)
 
 
 @_jit
@@ -328,6 +400,7 @@ def _to_post(code, prm, y):
 @_jit
 def _to_late(code, prm, kind, pp, y):
     """Map a POST state to the LATE one (angle from the constraint; in place)."""
+    yt = _tup(y)
     if code == SYS_BIANCHI:
         f = math.exp(-3.0 * y[3]) / 3.0
         d1 = (2.0 * y[1] + y[2]) * f
@@ -336,9 +409,9 @@ def _to_late(code, prm, kind, pp, y):
         rho = 0.5 * y[5] * y[5] + potential_terms(kind, pp, y[4])[0]
         y[0] = math.log(solve_mean_angle(3.0 * rho / prm[0], d1, d2, d3))
     elif code == SYS_ASYMMETRIC:
-        y[0] = math.log(_asym_theta(prm, kind, pp, y, LATE))
+        y[0] = math.log(_asym_theta(prm, kind, pp, yt, LATE))
     else:
-        y[0] = math.log(_loop_angle(prm, kind, pp, y, LATE))
+        y[0] = math.log(_loop_angle(prm, kind, pp, yt, LATE))
 
 
 # -- events --------------------------------------------------------------------------------------
@@ -390,7 +463,9 @@ def _initial_step(code, prm, kind, pp, phase, y, f0, interval, rtol, atol, ytmp,
     h0 = min(h0, interval)
     for i in range(n):
         ytmp[i] = y[i] + h0 * f0[i]
-    evaluate(code, prm, kind, pp, ytmp, phase, f1, empty)
+    r, _ = _system(code, prm, kind, pp, _tup(ytmp), phase, False)
+    for i in range(n):
+        f1[i] = r[i]
     for i in range(n):
         ytmp[i] = f1[i] - f0[i]
     d2 = _rms_scaled(ytmp, scale) / h0
@@ -411,7 +486,7 @@ def _dense(code, prm, kind, pp, phase, y, ynew, k, h, ytmp, F, empty):
             for j in range(st):
                 acc += _A[st, j] * k[j, i]
             ytmp[i] = y[i] + h * acc
-        evaluate(code, prm, kind, pp, ytmp, phase, k[st], empty)
+        _rhs_into(code, prm, kind, pp, ytmp, phase, k, st)
     for i in range(n):
         dy = ynew[i] - y[i]
         F[0, i] = dy
@@ -440,24 +515,25 @@ def _interp(y0, F, theta, out):
 @_jit
 def _root(code, prm, kind, pp, phase, which, yold, F, t_old, h, ta, tb, yout, obs, empty):
     """Zero of event ``which`` between times ta < tb inside the step [t_old, t_old + h], by
-    bisection on the continuous extension to 1e-14 (|t| + 1); the state there into ``yout``."""
-    _interp(yold, F, (ta - t_old) / h, yout)
-    evaluate(code, prm, kind, pp, yout, phase, empty, obs)
+    bisection in the step fraction on the continuous extension down to 1e-15 of the step
+    (finer than the time itself resolves far from t = 0); the state there into ``yout``."""
+    lo, hi = (ta - t_old) / h, (tb - t_old) / h
+    _interp(yold, F, lo, yout)
+    _obs_into(code, prm, kind, pp, yout, phase, obs)
     lo_pos = _event_value(which, obs) > 0.0
-    lo, hi = ta, tb
-    for _ in range(200):
-        if hi - lo <= 1e-14 * (abs(hi) + 1.0):
+    for _ in range(80):
+        if hi - lo <= 1e-15:
             break
         mid = 0.5 * (lo + hi)
-        _interp(yold, F, (mid - t_old) / h, yout)
-        evaluate(code, prm, kind, pp, yout, phase, empty, obs)
+        _interp(yold, F, mid, yout)
+        _obs_into(code, prm, kind, pp, yout, phase, obs)
         if (_event_value(which, obs) > 0.0) == lo_pos:
             lo = mid
         else:
             hi = mid
-    tr = 0.5 * (lo + hi)
-    _interp(yold, F, (tr - t_old) / h, yout)
-    return tr
+    th = 0.5 * (lo + hi)
+    _interp(yold, F, th, yout)
+    return t_old + th * h
 
 
 @_jit
@@ -493,6 +569,8 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
     [t, phase, y..., ln a, H, Hdot, phi, phidot, phiddot, rho, V].
     """
     n = y0.shape[0]
+    prm = _tup4(prm)
+    pp = _tup4(pp)
     summary = np.full(CANONICAL_SUMMARY_SIZE, np.nan)
     summary[S_BOUNCE_RECORD] = -1.0
     empty = np.empty(0)
@@ -522,10 +600,10 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
     status = ST_FAILED
     reason = R_NONFINITE
 
-    evaluate(code, prm, kind, pp, y, phase, k[0], o)
+    _both_into(code, prm, kind, pp, y, phase, k, 0, o)
     n_rhs += 1
     rec, n_rec = _record(rec, n_rec, t, phase, y, o, store)
-    pending = residual(code, prm, kind, pp, y, phase)
+    pending = _residual(code, prm, kind, pp, _tup(y), phase)
     if classical and _start_indicator(o) > 0.0:
         started = True
         ln_a_start = o[LN_A]
@@ -582,13 +660,13 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
                     for j in range(st):
                         acc += _A[st, j] * k[j, i]
                     ytmp[i] = y[i] + h * acc
-                evaluate(code, prm, kind, pp, ytmp, phase, k[st], empty)
+                _rhs_into(code, prm, kind, pp, ytmp, phase, k, st)
             for i in range(n):
                 acc = 0.0
                 for j in range(12):
                     acc += _B[j] * k[j, i]
                 ynew[i] = y[i] + h * acc
-            evaluate(code, prm, kind, pp, ynew, phase, k[12], empty)
+            _rhs_into(code, prm, kind, pp, ynew, phase, k, 12)
             n_rhs += 12
             e5sq = 0.0
             e3sq = 0.0
@@ -626,7 +704,7 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
         t_new = t + h
         for i in range(N_OBS):
             o_old[i] = o[i]
-        evaluate(code, prm, kind, pp, ynew, phase, empty, o)
+        _obs_into(code, prm, kind, pp, ynew, phase, o)
         finite = True
         for i in range(N_OBS):
             if not math.isfinite(o[i]):
@@ -641,14 +719,14 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
                 n_rhs += 3
                 tb = _root(code, prm, kind, pp, phase, 0, y, F, t_old, h, t_old, t_new, yev,
                            o_ev, empty)
-                evaluate(code, prm, kind, pp, yev, PRE, empty, o_ev)
+                _obs_into(code, prm, kind, pp, yev, PRE, o_ev)
                 max_res = max(max_res, pending)
                 rec, n_rec = _record(rec, n_rec, tb, PRE, yev, o_ev, store)
-                pending = residual(code, prm, kind, pp, yev, PRE)
+                pending = _residual(code, prm, kind, pp, _tup(yev), PRE)
                 _to_post(code, prm, yev)
                 phase = POST
                 atol = atol_post
-                evaluate(code, prm, kind, pp, yev, phase, k[0], o)
+                _both_into(code, prm, kind, pp, yev, phase, k, 0, o)
                 n_rhs += 1
                 summary[S_T_BOUNCE] = tb
                 summary[S_LNA_BOUNCE] = o[LN_A]
@@ -657,7 +735,7 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
                 summary[S_BOUNCE_RECORD] = n_rec
                 max_res = max(max_res, pending)
                 rec, n_rec = _record(rec, n_rec, tb, POST, yev, o, store)
-                pending = residual(code, prm, kind, pp, yev, POST)
+                pending = _residual(code, prm, kind, pp, _tup(yev), POST)
                 if _start_indicator(o) > 0.0:
                     started = True
                     ln_a_start = o[LN_A]
@@ -672,7 +750,7 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
                 continue
             max_res = max(max_res, pending)
             rec, n_rec = _record(rec, n_rec, t_new, phase, ynew, o, store)
-            pending = residual(code, prm, kind, pp, ynew, phase)
+            pending = _residual(code, prm, kind, pp, _tup(ynew), phase)
             t = t_new
             for i in range(n):
                 y[i] = ynew[i]
@@ -685,7 +763,7 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
             have_dense = True
             ts = _root(code, prm, kind, pp, phase, 1, y, F, t_old, h, t_old, t_new, yev, o_ev,
                        empty)
-            evaluate(code, prm, kind, pp, yev, phase, empty, o_ev)
+            _obs_into(code, prm, kind, pp, yev, phase, o_ev)
             si_ended = True
             summary[S_T_SI_END] = ts
             summary[S_LNA_SI_END] = o_ev[LN_A]
@@ -696,10 +774,10 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
                 have_dense = True
             ts = _root(code, prm, kind, pp, phase, 2, y, F, t_old, h, t_old, t_new, yev, o_ev,
                        empty)
-            evaluate(code, prm, kind, pp, yev, phase, empty, o_ev)
+            _obs_into(code, prm, kind, pp, yev, phase, o_ev)
             max_res = max(max_res, pending)
             rec, n_rec = _record(rec, n_rec, ts, phase, yev, o_ev, store)
-            pending = residual(code, prm, kind, pp, yev, phase)
+            pending = _residual(code, prm, kind, pp, _tup(yev), phase)
             started = True
             ln_a_start = o_ev[LN_A]
             summary[S_T_INF_START] = ts
@@ -707,7 +785,7 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
             if _addot_norm(o) >= 0.0:
                 max_res = max(max_res, pending)
                 rec, n_rec = _record(rec, n_rec, t_new, phase, ynew, o, store)
-                pending = residual(code, prm, kind, pp, ynew, phase)
+                pending = _residual(code, prm, kind, pp, _tup(ynew), phase)
                 t = t_new
                 for i in range(n):
                     y[i] = ynew[i]
@@ -721,10 +799,10 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
             ta = max(t_old, summary[S_T_INF_START])
             te = _root(code, prm, kind, pp, phase, 3, y, F, t_old, h, ta, t_new, yev, o_ev,
                        empty)
-            evaluate(code, prm, kind, pp, yev, phase, empty, o_ev)
+            _obs_into(code, prm, kind, pp, yev, phase, o_ev)
             max_res = max(max_res, pending)
             rec, n_rec = _record(rec, n_rec, te, phase, yev, o_ev, store)
-            pending = residual(code, prm, kind, pp, yev, phase)
+            pending = _residual(code, prm, kind, pp, _tup(yev), phase)
             summary[S_T_INF_END] = te
             summary[S_LNA_INF_END] = o_ev[LN_A]
             t = te
@@ -734,7 +812,7 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
             break
         max_res = max(max_res, pending)
         rec, n_rec = _record(rec, n_rec, t_new, phase, ynew, o, store)
-        pending = residual(code, prm, kind, pp, ynew, phase)
+        pending = _residual(code, prm, kind, pp, _tup(ynew), phase)
         t = t_new
         for i in range(n):
             y[i] = ynew[i]
@@ -746,8 +824,8 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
                 rec[n_rec - 1, 1] = LATE
                 for i in range(n):
                     rec[n_rec - 1, 2 + i] = y[i]
-            pending = residual(code, prm, kind, pp, y, LATE)
-            evaluate(code, prm, kind, pp, y, phase, k[0], empty)
+            pending = _residual(code, prm, kind, pp, _tup(y), LATE)
+            _rhs_into(code, prm, kind, pp, y, phase, k, 0)
             n_rhs += 1
             h_abs = _initial_step(code, prm, kind, pp, phase, y, k[0], max_time - t, rtol, atol,
                                   ytmp, f1, empty)
