@@ -208,7 +208,10 @@ def _bianchi(prm, kind, pp, y, phase, want_obs):
 def _bianchi_residual(prm, kind, pp, y, phase):
     s1, s2, s3, _, _, _, _, _, _, _ = _bianchi_angles(prm, kind, pp, y, phase)
     rho = 0.5 * y[5] * y[5] + potential_terms(kind, pp, y[4])[0]
-    return abs(prm[0] * (s1 * s2 + s2 * s3 + s3 * s1) * _THIRD - rho) / rho
+    # normalised by the size of the constraint's terms: where shear dominates, the gravitational
+    # sum is a near-cancellation of O(rho_c) products and rho alone would measure round-off
+    scale = max(rho, prm[0] * _THIRD * (abs(s1 * s2) + abs(s2 * s3) + abs(s3 * s1)))
+    return abs(prm[0] * (s1 * s2 + s2 * s3 + s3 * s1) * _THIRD - rho) / scale
 
 
 # -- asymmetric (state [u, ln a, phi, phidot]; prm = [rho_c, gamma, gamma lambda, beta_0]) -------
