@@ -188,15 +188,20 @@ class AsymmetricDynamics:
 
     critical_density: float = lqc_critical_density()
     gamma: float = IMMIRZI_DEFAULT
+    engine: str = "compiled"  # "scipy": the scipy-stepped reference driver
 
     NAME = "asymmetric"
     CONFIG_KEYS = ("gamma",)
+    #: |H| ~ 0.42 before the bounce, far above the inflaton mass: no oscillation (docstring)
+    FIELD_OSCILLATES_BEFORE_BOUNCE = False
 
     def __post_init__(self) -> None:
         if not (self.critical_density > 0 and math.isfinite(self.critical_density)):
             raise InputError(
                 f"'background.critical_density' = {self.critical_density!r}; allowed: > 0"
             )
+        if self.engine not in ("compiled", "scipy"):
+            raise InputError(f"asymmetric engine = {self.engine!r}; allowed: compiled, scipy")
         if not (0 < self.gamma < 10):
             raise InputError(
                 f"'background.asymmetric.gamma' = {self.gamma!r}; allowed: > 0 and < 10"
@@ -258,6 +263,35 @@ class AsymmetricDynamics:
             "'asymmetric'; allowed: bounce, classical, contracting"
         )
 
+    def _compiled(self, potential: Any) -> bool:
+        return self.engine == "compiled" and cn.compiled_potential(potential) is not None
+
+    def _run_compiled(self, potential: Any, initial: Any, settings: IntegrationSettings,
+                      store: bool) -> tuple[np.ndarray, cn.RawRun | None]:
+        from .canonical_kernels import SYS_ASYMMETRIC
+
+        y0, phase = self.initial_state(potential, initial)
+        system = self.system(potential)
+        atol, atol_post = cn.tolerances(settings, y0)
+        return cn.integrate_compiled(
+            SYS_ASYMMETRIC, np.array([self.critical_density, self.gamma, system.gl,
+                                      system.beta0]),
+            potential, y0, phase, settings, atol, atol_post,
+            late_density=cn.LATE_FRACTION * self.maximum_density,
+            classical=isinstance(initial, ClassicalStart), store=store,
+        )
+
+    def evolve_summary(self, potential: Any, initial: Any,
+                       settings: IntegrationSettings | None = None) -> np.ndarray:
+        """Summary vector only (layout of :mod:`bouncelike.background.canonical_kernels`)."""
+        settings = settings or IntegrationSettings()
+        if self._compiled(potential):
+            summary = self._run_compiled(potential, initial, settings, store=False)[0]
+            if isinstance(initial, ClassicalStart):
+                summary[0] = 3  # "no_bounce" by construction (cn.as_classical)
+            return summary
+        return cn.summary_from_trajectory(self.evolve(potential, initial, settings))
+
     def evolve(
         self, potential: Any, initial: Any, settings: IntegrationSettings | None = None
     ) -> BackgroundTrajectory:
@@ -266,10 +300,13 @@ class AsymmetricDynamics:
         system = self.system(potential)
         atol, atol_post = cn.tolerances(settings, y0)
         classical = isinstance(initial, ClassicalStart)
-        run = cn.integrate(
-            system, y0, phase, settings, atol=atol, atol_post=atol_post,
-            late_density=cn.LATE_FRACTION * self.maximum_density, classical=classical,
-        )
+        if self._compiled(potential):
+            run = self._run_compiled(potential, initial, settings, store=True)[1]
+        else:
+            run = cn.integrate(
+                system, y0, phase, settings, atol=atol, atol_post=atol_post,
+                late_density=cn.LATE_FRACTION * self.maximum_density, classical=classical,
+            )
         tr = cn.assemble(
             self.NAME,
             run,
@@ -277,7 +314,8 @@ class AsymmetricDynamics:
             cn.residuals(system, run),
             extras={"steps": run.steps, "maximum_density": self.maximum_density,
                     "emergent_hubble_rate": emergent_hubble_rate(self.critical_density,
-                                                                 self.gamma)},
+                                                                 self.gamma),
+                    "engine": "compiled" if self._compiled(potential) else "scipy"},
             settings={**settings.as_dict(), "initial": repr(initial), **self.describe()},
         )
         return cn.as_classical(tr) if classical else tr

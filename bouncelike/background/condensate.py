@@ -145,11 +145,15 @@ class CondensateDynamics:
     rescale: float = 1.0
     condensate_term: float = 0.0
     canonical: bool = False  # force the canonical integrator even without the extra term
+    canonical_engine: str = "compiled"  # "scipy": the scipy-stepped reference driver
 
     NAME = "condensate"
     CONFIG_KEYS = ("rescale", "condensate_term")
 
     def __post_init__(self) -> None:
+        if self.canonical_engine not in ("compiled", "scipy"):
+            raise InputError(f"condensate canonical_engine = {self.canonical_engine!r}; "
+                             "allowed: compiled, scipy")
         if not (self.critical_density > 0 and math.isfinite(self.critical_density)):
             raise InputError(
                 f"'background.critical_density' = {self.critical_density!r} must be > 0"
@@ -219,10 +223,42 @@ class CondensateDynamics:
 
     @property
     def evolve_summary(self) -> Any:
-        """The isotropic engine's fast summary (absent with the condensate term)."""
-        if not self.uses_isotropic_engine:
-            raise AttributeError("evolve_summary")
-        return self._isotropic().evolve_summary
+        """Summary vector only: the isotropic engine's without the extra term, else the
+        canonical driver's (same layout for the fields distributions read)."""
+        if self.uses_isotropic_engine:
+            return self._isotropic().evolve_summary
+        return self._canonical_summary
+
+    def _run_compiled(self, potential: Any, initial: Any, settings: IntegrationSettings,
+                      store: bool) -> tuple[np.ndarray, cn.RawRun | None]:
+        from .canonical_kernels import SYS_LOOP
+
+        y0, phase = self.initial_state(potential, initial)
+        atol, atol_post = cn.tolerances(settings, y0)
+        system = self.system(potential)
+        return cn.integrate_compiled(
+            SYS_LOOP, np.array([system.rho_c, system.q, system.ell]), potential, y0, phase,
+            settings, atol, atol_post,
+            late_density=cn.LATE_FRACTION * self.effective_critical_density, store=store,
+        )
+
+    def _canonical_compiled(self, potential: Any) -> bool:
+        return self.engine_name(potential) == "canonical (compiled)"
+
+    def engine_name(self, potential: Any) -> str:
+        """Which integrator runs this dynamics for ``potential``."""
+        if self.uses_isotropic_engine:
+            return "isotropic (compiled)"
+        if self.canonical_engine == "compiled" and cn.compiled_potential(potential) is not None:
+            return "canonical (compiled)"
+        return "canonical (scipy)"
+
+    def _canonical_summary(self, potential: Any, initial: Any,
+                           settings: IntegrationSettings | None = None) -> np.ndarray:
+        settings = settings or IntegrationSettings()
+        if self._canonical_compiled(potential):
+            return self._run_compiled(potential, initial, settings, store=False)[0]
+        return cn.summary_from_trajectory(self.evolve(potential, initial, settings))
 
     def evolve(
         self, potential: Any, initial: Any, settings: IntegrationSettings | None = None
@@ -234,16 +270,19 @@ class CondensateDynamics:
         y0, phase = self.initial_state(potential, initial)
         system = self.system(potential)
         atol, atol_post = cn.tolerances(settings, y0)
-        run = cn.integrate(
-            system, y0, phase, settings, atol=atol, atol_post=atol_post,
-            late_density=cn.LATE_FRACTION * self.effective_critical_density,
-        )
+        if self._canonical_compiled(potential):
+            run = self._run_compiled(potential, initial, settings, store=True)[1]
+        else:
+            run = cn.integrate(
+                system, y0, phase, settings, atol=atol, atol_post=atol_post,
+                late_density=cn.LATE_FRACTION * self.effective_critical_density,
+            )
         return cn.assemble(
             self.NAME,
             run,
             self.effective_critical_density,
             cn.residuals(system, run),
-            extras={"steps": run.steps},
+            extras={"steps": run.steps, "engine": self.engine_name(potential)},
             settings={**settings.as_dict(), "initial": repr(initial), **self.describe()},
         )
 
@@ -254,7 +293,9 @@ class CondensateDynamics:
             "rescale": self.rescale,
             "base_critical_density": self.critical_density,
             "condensate_term": self.condensate_term,
-            "engine": "isotropic (compiled)" if self.uses_isotropic_engine else "canonical",
+            "engine": "isotropic (compiled)" if self.uses_isotropic_engine else (
+                "canonical (compiled unless the potential is Python-only)"
+                if self.canonical_engine == "compiled" else "canonical (scipy)"),
             "equations": "H^2 = (8 pi/3) rho (1 - rho/rho_c' + q/v), rho_c' = rescale * rho_c, "
             "v = (a/a_0)^3 (a_0 on the initial surface)",
             "contracting_start": "energy angle at density rho_0 as for the isotropic dynamics: "

@@ -14,6 +14,11 @@ Barrau, Phys. Rev. D 87 (2013) 123509). The phase is the energy angle of
   (default 1e-16, where H/m ~ 0.024 for m = 1.21e-6: the field oscillates many times per Hubble
   time throughout). This smears the staircase and gives a smooth distribution.
 
+Dynamics whose field does not oscillate before the bounce (``FIELD_OSCILLATES_BEFORE_BOUNCE =
+False``, the asymmetric bounce's de Sitter-like contracting branch) use the same draws as an
+energy split on the surface rho_0; the H/omega figure and the oscillation guard below do not
+apply to them. Every result carries ``dynamics.describe()`` (its conventions).
+
 The number of field oscillations before the bounce is about omega / (3 pi H) at rho_0 (omega
 the oscillation frequency at that density, :func:`hubble_to_frequency`); windows needing more
 than MAX_OSCILLATIONS are refused with an InputError. For V = m^2 phi^2 / 2 omega = m at every
@@ -169,6 +174,11 @@ class EfoldDistribution:
     settings: dict
     hubble_to_frequency: float
     mean_rhs_evaluations: float
+    #: ``dynamics.describe()``: parameters and conventions (initial data, shear, ...)
+    dynamics: dict = field(default_factory=dict)
+    #: False when the field does not oscillate before the bounce in this dynamics (the phase
+    #: is then an energy split, not an oscillation phase, and H/omega does not apply)
+    field_oscillates: bool = True
 
     def usable(self) -> np.ndarray:
         """E-folds of the non-failed samples (no inflation = 0, capped = the cap)."""
@@ -209,6 +219,8 @@ class EfoldDistribution:
             "prior": dict(self.prior),
             "hubble_to_frequency_at_start": self.hubble_to_frequency,
             "mean_rhs_evaluations": self.mean_rhs_evaluations,
+            "dynamics": dict(self.dynamics),
+            "field_oscillates_before_bounce": self.field_oscillates,
             "histogram": {"counts": np.asarray(counts).tolist(),
                           "edges": np.asarray(edges).tolist()},
             "settings": dict(self.settings),
@@ -340,7 +352,8 @@ def efolds_distribution(
     if not isinstance(n_samples, (int, np.integer)) or n_samples < 1:
         raise InputError(f"'efolds.n_samples' = {n_samples!r} is out of range; allowed: >= 1")
     settings = settings or IntegrationSettings()
-    if isinstance(prior, PhasePrior):
+    oscillates = bool(getattr(dynamics, "FIELD_OSCILLATES_BEFORE_BOUNCE", True))
+    if isinstance(prior, PhasePrior) and oscillates:
         lowest = prior.density * 10.0 ** -(prior.decades
                                            + (shift_decades if convergence_samples > 0 else 0))
         ratio = hubble_to_frequency(potential, lowest)
@@ -401,7 +414,7 @@ def efolds_distribution(
             max_residual = max(max_residual, convergence["max_constraint_residual_shifted"])
 
     h_over_w = (hubble_to_frequency(potential, prior.density)
-                if isinstance(prior, PhasePrior) else math.nan)
+                if isinstance(prior, PhasePrior) and oscillates else math.nan)
     rho_c = getattr(dynamics, "critical_density", default_critical_density())
     return EfoldDistribution(
         samples=samples,
@@ -425,6 +438,8 @@ def efolds_distribution(
                   "potential": {"name": potential.name, **potential.parameters}},
         hubble_to_frequency=h_over_w,
         mean_rhs_evaluations=float(np.nanmean(records[:, C_RHS])),
+        dynamics=dict(dynamics.describe()) if hasattr(dynamics, "describe") else {},
+        field_oscillates=oscillates,
     )
 
 

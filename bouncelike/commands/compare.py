@@ -182,6 +182,10 @@ def run(args: Any) -> int:
     cases = cases_from_config(table, rho_c)
     out_dir = Path(args.output) if args.output else Path("bouncelike-out") / Path(args.config).stem
 
+    from .efolds import warm_up
+
+    for _, dynamics in cases:  # compile before any worker process is forked
+        warm_up(dynamics, potential, prior)
     results: list[tuple[str, Any]] = []
     rows = []
     pool = make_pool(workers)

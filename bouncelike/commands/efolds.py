@@ -18,7 +18,11 @@ Reads ``[potential]``, ``[background]`` (dynamics, critical density, integration
     convergence_samples = 100 # re-run this many draws with rho_0 two decades lower
 
 Writes ``efolds_samples.csv``, ``efolds.pdf``, ``efolds.png`` and ``efolds_summary.json`` to
-``--output`` (default ``bouncelike-out/<config stem>/``), after everything is computed.
+``--output`` (default ``bouncelike-out/<config stem>/``), after everything is computed. The JSON
+(key ``dynamics``) and the table (block "dynamics conventions") carry ``describe()`` of the
+dynamics: its parameters and how it reads the initial data (e.g. the shear of Bianchi I, the
+energy-angle start of the asymmetric bounce). The H/omega figure and its warning apply only to
+dynamics whose field oscillates before the bounce.
 """
 
 from __future__ import annotations
@@ -78,12 +82,17 @@ def summary_lines(dist: Any, setup: Any) -> list[str]:
     params = ", ".join(f"{k} = {v:g}" if isinstance(v, float) else f"{k} = {v}"
                        for k, v in pot.parameters.items())
     prior = dist.prior
+    oscillates = getattr(dist, "field_oscillates", True)
     if prior["name"] == "phase":
         lo, hi = prior["window"]
         where = (f"rho_0 = {hi:.3g} (fixed surface)" if prior["density_decades"] == 0
                  else f"rho_0 log-uniform in [{lo:.3g}, {hi:.3g}]")
-        prior_text = (f"flat phase on [0, 2 pi), {where}; "
-                      f"H/omega at the top {dist.hubble_to_frequency:.3g}")
+        if oscillates:
+            prior_text = (f"flat phase on [0, 2 pi), {where}; "
+                          f"H/omega at the top {dist.hubble_to_frequency:.3g}")
+        else:
+            prior_text = (f"flat energy angle on [0, 2 pi), {where} (the field does not "
+                          "oscillate before this bounce: see contracting_start below)")
     else:
         prior_text = (f"{prior['fraction_scale']}-uniform V_B/rho_c in "
                       f"[{prior['fraction_min']:.3g}, {prior['fraction_max']:.3g}]")
@@ -116,10 +125,46 @@ def summary_lines(dist: Any, setup: Any) -> list[str]:
         lines.append(f"  note: {c['efold_cap']} runs reached the cap of "
                      f"{dist.settings['max_inflation_efolds']:g} e-folds; they count at the cap, "
                      "so statistics at or near it are lower bounds")
-    if prior["name"] == "phase" and not (dist.hubble_to_frequency < 0.1):
+    lines.extend(dynamics_lines(getattr(dist, "dynamics", {})))
+    if prior["name"] == "phase" and oscillates and not (dist.hubble_to_frequency < 0.1):
         lines.append("  warning: H/omega at the top of the rho_0 window is not small; lower "
                      "'efolds.density'")
     return lines
+
+
+def dynamics_lines(description: dict[str, Any], width: int = 96) -> list[str]:
+    """The dynamics' parameters and conventions (``describe()``), one wrapped entry each."""
+    import textwrap
+
+    if not description:
+        return []
+    lines = ["", "  dynamics conventions"]
+    for key, value in description.items():
+        if key in ("dynamics", "name"):
+            continue
+        if isinstance(value, float):
+            text = f"{value:.6g}"
+        elif isinstance(value, dict):
+            text = ", ".join(f"{k} = {v:.6g}" if isinstance(v, float) else f"{k} = {v}"
+                             for k, v in value.items())
+        else:
+            text = str(value)
+        lines.extend(textwrap.wrap(f"{key}: {text}", width=width, initial_indent="    ",
+                                   subsequent_indent="      "))
+    return lines
+
+
+def warm_up(dynamics: Any, potential: Any, prior: Any) -> None:
+    """Compile (or load the compiled kernels of) ``dynamics`` before any worker process is
+    forked: one very short run from a datum of ``prior`` (valid for every dynamics that
+    accepts the prior; a classical start is not offered by all of them)."""
+    import numpy as np
+
+    from ..background.initial import IntegrationSettings
+
+    draws = prior.draw(np.random.default_rng(0), 1)
+    dynamics.evolve(potential, prior.initial(draws, 0),
+                    IntegrationSettings(max_time=1e-6, dense_points=0))
 
 
 def make_figure(dist: Any, title: str) -> Any:
@@ -157,7 +202,6 @@ def make_figure(dist: Any, title: str) -> Any:
 
 def run(args: Any) -> int:
     from ..background.efolds import efolds_distribution
-    from ..background.initial import ClassicalStart, IntegrationSettings
     from ..background.setup import background_from_config
     from ..config import load_run_config
     from ..io import (
@@ -173,9 +217,7 @@ def run(args: Any) -> int:
     opts = _options(config, args.workers)
     out_dir = Path(args.output) if args.output else Path("bouncelike-out") / Path(args.config).stem
 
-    # compile (or load the compiled kernel) before any worker process is forked
-    setup.dynamics.evolve(setup.potential, ClassicalStart(1.0, 0.0),
-                          IntegrationSettings(max_time=1e-6, dense_points=0))
+    warm_up(setup.dynamics, setup.potential, opts["prior"])
     started = time.perf_counter()
     pool = make_pool(opts["workers"])
     try:
