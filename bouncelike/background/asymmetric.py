@@ -183,7 +183,7 @@ class AsymmetricSystem:
 
 
 @dataclass(frozen=True)
-class AsymmetricDynamics:
+class AsymmetricDynamics(cn.CompiledCanonicalDynamics):
     """Modified loop-quantised dynamics with an asymmetric bounce (module docstring)."""
 
     critical_density: float = lqc_critical_density()
@@ -263,8 +263,6 @@ class AsymmetricDynamics:
             "'asymmetric'; allowed: bounce, classical, contracting"
         )
 
-    def _compiled(self, potential: Any) -> bool:
-        return self.engine == "compiled" and cn.compiled_potential(potential) is not None
 
     def _run_compiled(self, potential: Any, initial: Any, settings: IntegrationSettings,
                       store: bool) -> tuple[np.ndarray, cn.RawRun | None]:
@@ -281,16 +279,6 @@ class AsymmetricDynamics:
             classical=isinstance(initial, ClassicalStart), store=store,
         )
 
-    def evolve_summary(self, potential: Any, initial: Any,
-                       settings: IntegrationSettings | None = None) -> np.ndarray:
-        """Summary vector only (layout of :mod:`bouncelike.background.canonical_kernels`)."""
-        settings = settings or IntegrationSettings()
-        if self._compiled(potential):
-            summary = self._run_compiled(potential, initial, settings, store=False)[0]
-            if isinstance(initial, ClassicalStart):
-                summary[0] = 3  # "no_bounce" by construction (cn.as_classical)
-            return summary
-        return cn.summary_from_trajectory(self.evolve(potential, initial, settings))
 
     def evolve(
         self, potential: Any, initial: Any, settings: IntegrationSettings | None = None

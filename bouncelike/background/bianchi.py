@@ -299,7 +299,7 @@ class BianchiSystem:
 
 
 @dataclass(frozen=True)
-class BianchiIDynamics:
+class BianchiIDynamics(cn.CompiledCanonicalDynamics):
     """Bianchi I effective dynamics; parameters ``shear_ratio`` and ``direction`` (degrees)."""
 
     critical_density: float = lqc_critical_density()
@@ -390,8 +390,6 @@ class BianchiIDynamics:
         classical = isinstance(initial, ClassicalStart)
         return y0, atol, atol_post, classical
 
-    def _compiled(self, potential: Any) -> bool:
-        return self.engine == "compiled" and cn.compiled_potential(potential) is not None
 
     def _run_compiled(self, potential: Any, initial: Any, settings: IntegrationSettings,
                       store: bool) -> tuple[np.ndarray, cn.RawRun | None]:
@@ -405,17 +403,6 @@ class BianchiIDynamics:
             store=store,
         )
 
-    def evolve_summary(self, potential: Any, initial: Any,
-                       settings: IntegrationSettings | None = None) -> np.ndarray:
-        """Summary vector only (layout of :mod:`bouncelike.background.canonical_kernels`):
-        what e-fold distributions need, without storing the trajectory."""
-        settings = settings or IntegrationSettings()
-        if self._compiled(potential):
-            summary = self._run_compiled(potential, initial, settings, store=False)[0]
-            if isinstance(initial, ClassicalStart):
-                summary[0] = 3  # "no_bounce" by construction (cn.as_classical)
-            return summary
-        return cn.summary_from_trajectory(self.evolve(potential, initial, settings))
 
     def evolve(
         self, potential: Any, initial: Any, settings: IntegrationSettings | None = None

@@ -53,7 +53,7 @@ from scipy.integrate import DOP853
 from scipy.optimize import brentq
 
 from ..errors import InputError
-from .initial import ContractingStart, IntegrationSettings
+from .initial import ClassicalStart, ContractingStart, IntegrationSettings
 from .result import BackgroundEvents, BackgroundTrajectory, EfoldCounts
 
 PRE, POST, LATE = 0, 1, 2
@@ -493,3 +493,27 @@ def summary_from_trajectory(trajectory: BackgroundTrajectory) -> np.ndarray:
     s[ck.S_T_FINAL] = trajectory.t[-1]
     s[ck.S_LNA_FINAL] = trajectory.ln_a[-1]
     return s
+
+
+class CompiledCanonicalDynamics:
+    """Mixin for dynamics integrated in canonical variables with a compiled copy.
+
+    The class provides ``engine`` ("compiled" or "scipy"), ``_run_compiled`` and ``evolve``;
+    this mixin adds the engine choice and the summary-only fast path used by e-fold
+    distributions.
+    """
+
+    def _compiled(self, potential: Any) -> bool:
+        return self.engine == "compiled" and compiled_potential(potential) is not None
+
+    def evolve_summary(self, potential: Any, initial: Any,
+                       settings: IntegrationSettings | None = None) -> np.ndarray:
+        """Summary vector only (layout of :mod:`bouncelike.background.canonical_kernels`):
+        what e-fold distributions need, without storing the trajectory."""
+        settings = settings or IntegrationSettings()
+        if self._compiled(potential):
+            summary = self._run_compiled(potential, initial, settings, store=False)[0]
+            if isinstance(initial, ClassicalStart):
+                summary[0] = 3  # "no_bounce" by construction (as_classical)
+            return summary
+        return summary_from_trajectory(self.evolve(potential, initial, settings))
