@@ -59,8 +59,15 @@ class ProcessPool(SerialPool):
 
     def map(self, func: Callable[[Any], Any], tasks: Iterable[Any]) -> list[Any]:
         tasks = list(tasks)
-        chunk = max(1, len(tasks) // (4 * self.workers))
-        return self._pool.map(func, tasks, chunksize=chunk)
+        n = len(tasks)
+        if n <= 64 * self.workers:
+            # small batches (an ensemble step): one chunk per worker; each message costs about a
+            # millisecond of inter-process traffic, as much as a cheap likelihood evaluation
+            chunk = -(-n // self.workers)
+        else:
+            # large batches of uneven cost (e-fold distributions): a few chunks per worker
+            chunk = max(1, n // (4 * self.workers))
+        return self._pool.map(func, tasks, chunksize=max(1, chunk))
 
     def close(self) -> None:
         self._pool.close()
