@@ -2,7 +2,7 @@
 
 What the transfer depends on (measured, tests/test_perturbation_transfer.py)
 -----------------------------------------------------------------------------
-Shortly after the bounce (at ln(a/a_B) = ``MATCH_EFOLDS`` = 3, still deep in the kinetic era for
+Shortly after the bounce (at ln(a/a_B) = ``MATCH_EFOLDS`` = 3.5, still in the kinetic era for
 every inflaton mass ~1e-6 of interest) each mode is a combination alpha f + beta f* of the
 adiabatic positive- and negative-frequency solutions. alpha(x) and beta(x), x = k/k_LQC, are set
 by the bounce alone: near the bounce the potential is a fraction ~1e-11 of rho_c, so every such
@@ -24,16 +24,28 @@ with D the conformal time from the bounce to the end of inflation in units of 1/
 the oscillation frequency of the features: one period is Delta x = pi/D, with D ~ 3e3-1e4 for
 masses 1e-6-4e-6 and phi_B in 0.7-2.5) and theta a slowly varying residual phase. theta depends
 on x and, for x below ~0.3, on how the kinetic era turns into inflation; that is measured to be
-a function of D again (D ~ 1.8 / (aH)_min in units of k_LQC: the same transition), so the cache
-tabulates theta on a 2-D grid in (ln x, ln D). The background enters the fast model through D
-and the tilts only. Nothing else of the background was found to matter (mass and phi_B at equal
-D agree to the certificate's accuracy).
+mostly a function of D again (D ~ 1.8 / (aH)_min in units of k_LQC: the same transition), so
+the cache tabulates theta on a 2-D grid in (ln x, ln D). At equal D, backgrounds with another
+phi_B differ in theta by up to ~7e-3 rad below 0.1 k_LQC (measured), and that difference is
+carried by the tilt of the same background: the dressed-metric caches add a least-squares
+correction sum_i c_i(x) b_i(dt, ln D), dt = tilt - tilt0(D) (tilt0: the phi_B = 1.2 rows;
+basis in :func:`_tilt_basis`), fitted on 27 further backgrounds (phi_B = 0.7, 1.8, 2.5 at the
+calibration masses, those with D inside the calibrated range); the tilt is clipped to the
+calibrated range (scalar -0.048 to -0.014, tensor -0.024 to -0.007). The background enters the
+fast model through D and the tilts only.
 
-The cache (``data/transfer_<prescription>_<state>.npz``, ~150 kB each, 450 kB in all) holds
+Where ln x is finer than the tabulation, theta also carried a ripple of ~1e-3 rad at the
+fast frequency when the modes were matched at 3 e-folds: the second-order adiabatic basis
+there is not exact for k (eta_m - eta_B) ~ 5 (x = 0.01), so X_+ holds a small negative-frequency
+part. Matching at 3.5 e-folds removes it (measured ripple < 2e-6 rad at 4 e-folds).
+
+The cache (``data/transfer_<prescription>_<state>.npz``, ~150-200 kB each) holds
 ln|alpha|, ln rho and theta on X_GRID (401 points over 0.01-100) x the D of nine calibration
 backgrounds (phi_B = 1.2, masses 4.5e-7-6.5e-6: D = 3.1e3-1.7e4), interpolated linearly in
-(ln x, ln D). Rebuild it with ``python3 -m bouncelike.perturbations.transfer`` (~15 s per table
-on one core). The remote-past state is the one set at the forward model's default
+(ln x, ln D), and for the dressed metric the tilt correction above. Rebuild it with
+``python3 -m bouncelike.perturbations.transfer`` (~1 min per dressed-metric table, ~15 s for
+the deformed algebra, on one core). The remote-past state is the one set at the forward
+model's default
 past_density = 1e-11: for x below ~0.05 the spectrum depends on where that state is set once
 the contracting branch there is no longer kinetic (measured: scalar T(0.01) = 47 at 1e-11 and
 1.9e3 at 1e-13), so the cache does not apply to other past densities.
@@ -41,19 +53,22 @@ the contracting branch there is no longer kinetic (measured: scalar T(0.01) = 47
 Measured accuracy (``bouncelike transfer-check --backgrounds 6 --seed 11``, max relative error
 at 360 random points; pointwise / of the period-averaged T):
 
-* dressed metric, remote past: 0.01-0.03 k_LQC 2.1% / 6e-5; 0.03-0.1: 1.1% / 1e-5;
-  0.1-0.3: 0.29%; 0.3-1: 0.08%; 1-3: 0.02%; above 3: < 3e-5. Target met pointwise above
-  0.1 k_LQC; below it the misses sit in the deepest troughs (|1 + rho e^{i phi}|^2 ~ 1e-3 at
-  rho ~ 0.96), where a residual phase error of 0.01-0.02 rad (from the transition to
-  inflation, which D does not capture completely) is amplified.
+* dressed metric, remote past: 0.01-0.03 k_LQC 0.15% / 3e-5; 0.03-0.1: 0.45% / 1e-5;
+  0.1-0.3: 0.08%; 0.3-1: 0.06%; 1-3: 0.013%; above 3: < 1.2e-5. Target met pointwise
+  everywhere. With ``--seed 5`` (other backgrounds): 0.90% at 0.01-0.03 and 0.15% at
+  0.03-0.1. The tightest points are the deepest troughs below 0.1 k_LQC (|1 + rho e^{i phi}|^2
+  ~ 3e-3 at rho ~ 0.95), where a phase error dphi gives a relative error ~ dphi/(1 - rho):
+  1% there needs theta to ~5e-4 rad; the remaining error is the tilt correction's residual.
 * deformed algebra: 1.5-4% pointwise below 3 k_LQC (0.4% at 0.1-0.3), period mean
   <= 0.06% below 1 k_LQC and 0.96% at 1-3 k_LQC (CERTIFIED_RANGES keeps below 1); above,
   the exact integrations of different backgrounds differ by 1-3% in the exponent of the
   Euclidean growth (e^50-e^160) in a way D does not capture (not understood; the same
   background on finer grids reproduces itself to 1e-4), and the full-depth oscillations
-  (rho -> 1) make pointwise errors unbounded near their nodes. Target not met there.
-* dressed metric, 4th-order adiabatic state at the bounce: as the remote-past state except
-  1-10 k_LQC (up to 70% pointwise, 12% of the mean): that state switches to its zeroth-order
+  (rho -> 1) make pointwise errors unbounded near their nodes. Target not met there. (No tilt
+  correction of theta: these errors are not phase errors of that size.)
+* dressed metric, 4th-order adiabatic state at the bounce: 0.5% pointwise at 0.01-0.03 k_LQC,
+  <= 0.16% at 0.03-1 and above 10 k_LQC; 1-10 k_LQC up to 63% pointwise (12% of the mean):
+  that state switches to its zeroth-order
   fallback near 2.4 k_LQC (states.py), a jump in k whose position depends on the grid.
 Above the grid the dressed-metric T is 1 (rho < 1e-12 there); the deformed-algebra ln|alpha|
 continues linearly with the WKB growth rate of the Euclidean phase.
@@ -76,11 +91,13 @@ import numpy as np
 
 from ..errors import InputError, NumericalFailure
 
-MATCH_EFOLDS = 3.0
+MATCH_EFOLDS = 3.5
 X_GRID = np.geomspace(0.01, 100.0, 401)
 # calibration backgrounds: phi_B = 1.2 and masses chosen to span D ~ 2.5e3 - 1.4e4
 CALIBRATION_MASSES = tuple(float(m) for m in np.geomspace(0.45e-6, 6.5e-6, 9))
 CALIBRATION_PHI_B = 1.2
+# further bounce fields at the same masses: fit of the tilt dependence of theta (TILT_BASIS)
+TILT_PHI_B = (0.7, 1.8, 2.5)
 DATA = Path(__file__).with_name("data")
 FIELDS = ("scalar", "tensor")
 CAP_EXPONENT = 600.0
@@ -173,6 +190,16 @@ def _theta(dec: Decomposition, tilt: np.ndarray) -> np.ndarray:
     return np.angle(np.exp(1j * th))
 
 
+def _tilt_basis(ln_d: np.ndarray, dt: np.ndarray) -> np.ndarray:
+    """Basis of the tilt correction of theta (dt = tilt - tilt0(D), l = ln D - 9).
+
+    dt, dt l, dt l^2, dt^2, dt^2 l, dt^3 along the last axis; every term vanishes at dt = 0
+    (the phi_B = 1.2 rows).
+    """
+    ld = ln_d - 9.0
+    return np.stack([dt, dt * ld, dt * ld * ld, dt * dt, dt * dt * ld, dt**3], axis=-1)
+
+
 def _tilt(x: np.ndarray, ln_standard: np.ndarray) -> np.ndarray:
     """One tilt per background: slope of a straight-line fit of ln P_std against ln x.
 
@@ -193,6 +220,9 @@ class TransferTable:
     ln_rho: dict                       # field -> (nD, nx)
     theta: dict                        # field -> (nD, nx), unwrapped along x
     growth_per_x: float                # d ln T / dx beyond the grid (deformed algebra); 0 else
+    tilt0: dict | None = None          # field -> (nD,) tilt of the calibration rows
+    tilt_coef: dict | None = None      # field -> (nbasis, nx): theta correction per basis term
+    tilt_range: dict | None = None     # field -> (lo, hi) tilts of the calibration backgrounds
 
     @property
     def d_range(self) -> tuple[float, float]:
@@ -206,7 +236,8 @@ class TransferTable:
         j = int(np.clip(np.searchsorted(lgd, ld) - 1, 0, len(lgd) - 2))
         return j, float((ld - lgd[j]) / (lgd[j + 1] - lgd[j]))
 
-    def _smooth(self, f: str, lx: np.ndarray, duration: float | None):
+    def _smooth(self, f: str, lx: np.ndarray, duration: float | None,
+                tilt: float | None = None):
         """ln|alpha|, ln rho, theta at ln x, interpolated in ln D, and the growth G of ln T.
 
         Below the grid the edge values are held. Deformed algebra: above UV_ANCHOR (30 k_LQC)
@@ -224,6 +255,18 @@ class TransferTable:
             return (1 - w) * np.interp(lxc, lg, a[j]) + w * np.interp(lxc, lg, a[j + 1])
 
         la, lr, th = row(self.ln_alpha[f]), row(self.ln_rho[f]), row(self.theta[f])
+        if tilt is not None and self.tilt_coef is not None and duration is not None:
+            # theta also depends on the tilt at equal D (how the kinetic era turns into
+            # inflation): least-squares correction in dt = tilt - tilt0(D), tilt clipped to
+            # the calibrated range
+            lo, hi = self.tilt_range[f]
+            t0 = (1 - w) * self.tilt0[f][j] + w * self.tilt0[f][j + 1]
+            dt = min(max(float(np.mean(tilt)), lo), hi) - t0
+            ld = math.log(min(max(duration, self.d_grid[0]), self.d_grid[-1]))
+            basis = _tilt_basis(np.array(ld), np.array(dt))
+            coef = self.tilt_coef[f]
+            th = th + np.sum([b * np.interp(lxc, lg, c) for b, c in zip(basis, coef,
+                                                                        strict=True)], axis=0)
         growth = np.zeros_like(la)
         above = lx > top
         if self.growth_per_x:
@@ -247,7 +290,7 @@ class TransferTable:
         xe = np.exp(np.minimum(lx, 700.0))
         out = {}
         for f in FIELDS:
-            la, lr, th, growth = self._smooth(f, lx, duration)
+            la, lr, th, growth = self._smooth(f, lx, duration, tilt[f])
             rho = np.exp(lr)
             with np.errstate(invalid="ignore", over="ignore"):
                 phi = (np.mod(2 * xe * duration, 2 * math.pi) - math.pi
@@ -288,7 +331,10 @@ class TransferTable:
             path, x=self.x, d_grid=self.d_grid, growth=self.growth_per_x,
             meta=np.array([self.prescription, self.state]),
             **{f"{q}_{f}": getattr(self, q)[f] for q in ("ln_alpha", "ln_rho", "theta")
-               for f in FIELDS})
+               for f in FIELDS},
+            **({} if self.tilt_coef is None else {
+                f"{q}_{f}": np.asarray(getattr(self, q)[f], dtype=float)
+                for q in ("tilt0", "tilt_coef", "tilt_range") for f in FIELDS}))
 
 
 def build_transfer(prescription: str = "dressed_metric", state: str = "remote_past",
@@ -297,25 +343,56 @@ def build_transfer(prescription: str = "dressed_metric", state: str = "remote_pa
     from ..progress import progress
 
     rows = {f: [] for f in FIELDS}
+    extra = {f: [] for f in FIELDS}
     durations = []
-    for m in progress(CALIBRATION_MASSES, total=len(CALIBRATION_MASSES), desc="calibration",
-                      enabled=show_progress):
-        tab = quadratic_bounce(m, CALIBRATION_PHI_B)
+    grid = [(m, CALIBRATION_PHI_B) for m in CALIBRATION_MASSES]
+    if prescription == "dressed_metric":
+        grid += [(m, pb) for pb in TILT_PHI_B for m in CALIBRATION_MASSES]
+    for m, pb in progress(grid, total=len(grid), desc="calibration", enabled=show_progress):
+        try:
+            tab = quadratic_bounce(m, pb)
+            decs = {f: decompose(tab, X_GRID, f, prescription, state) for f in FIELDS}
+        except NumericalFailure:
+            if pb == CALIBRATION_PHI_B:
+                raise
+            continue  # the state cannot be set at the default past density there
         for f in FIELDS:
-            rows[f].append(decompose(tab, X_GRID, f, prescription, state))
-        durations.append(rows["scalar"][-1].duration)
+            (rows if pb == CALIBRATION_PHI_B else extra)[f].append(decs[f])
+        if pb == CALIBRATION_PHI_B:
+            durations.append(decs["scalar"].duration)
     order = np.argsort(durations)
     d_grid = np.array(durations)[order]
     ln_alpha, ln_rho, theta = {}, {}, {}
+    tilt0, tilt_coef, tilt_range = {}, {}, {}
     for f in FIELDS:
         decs = [rows[f][i] for i in order]
         ln_alpha[f] = np.array([d.ln_alpha for d in decs])
         ln_rho[f] = np.log(np.maximum(np.array([d.rho for d in decs]), 1e-300))
-        ths = np.array([_theta(d, _tilt(d.x, d.ln_standard)) for d in decs])
+        tilts = np.array([_tilt(d.x, d.ln_standard)[0] for d in decs])
+        ths = np.array([_theta(d, np.full(len(d.x), t)) for d, t in zip(decs, tilts,
+                                                                         strict=True)])
         # unwrap along x, then align every row with the first (same branch)
         ths = np.unwrap(ths, axis=1)
         ths -= 2 * math.pi * np.round((ths - ths[0]) / (2 * math.pi))
         theta[f] = ths
+        tilt0[f] = tilts
+        if extra[f]:
+            base = TransferTable(prescription, state, X_GRID.copy(), d_grid, ln_alpha, ln_rho,
+                                 theta, 0.0)
+            lg = np.log(X_GRID)
+            A, R = [], []
+            inside = [d for d in extra[f] if d_grid[0] <= d.duration <= d_grid[-1]]
+            for d in inside:
+                t = _tilt(d.x, d.ln_standard)[0]
+                _, _, th0, _ = base._smooth(f, lg, d.duration)
+                j, w = base._weights(d.duration)
+                r = _theta(d, np.full(len(d.x), t)) - th0
+                R.append(np.angle(np.exp(1j * r)))
+                A.append(_tilt_basis(np.array(math.log(d.duration)),
+                                     np.array(t - ((1 - w) * tilts[j] + w * tilts[j + 1]))))
+            tilt_coef[f] = np.linalg.lstsq(np.array(A), np.array(R), rcond=None)[0]
+            alltilts = [*tilts, *(_tilt(d.x, d.ln_standard)[0] for d in inside)]
+            tilt_range[f] = (float(min(alltilts)), float(max(alltilts)))
     growth = 0.0
     if prescription == "deformed_algebra":
         from .forward import euclidean_growth_rate
@@ -323,7 +400,7 @@ def build_transfer(prescription: str = "dressed_metric", state: str = "remote_pa
         tab = quadratic_bounce(CALIBRATION_MASSES[0], CALIBRATION_PHI_B)
         growth = euclidean_growth_rate(tab) * tab.k_lqc
     return TransferTable(prescription, state, X_GRID.copy(), d_grid, ln_alpha, ln_rho, theta,
-                         growth)
+                         growth, *((tilt0, tilt_coef, tilt_range) if tilt_coef else ()))
 
 
 @functools.lru_cache(maxsize=4)
@@ -337,13 +414,17 @@ def load_transfer(prescription: str = "dressed_metric",
             return TransferTable(prescription, state, d["x"], d["d_grid"],
                                  {f: d[f"ln_alpha_{f}"] for f in FIELDS},
                                  {f: d[f"ln_rho_{f}"] for f in FIELDS},
-                                 {f: d[f"theta_{f}"] for f in FIELDS}, float(d["growth"]))
+                                 {f: d[f"theta_{f}"] for f in FIELDS}, float(d["growth"]),
+                                 *(({f: d[f"tilt0_{f}"] for f in FIELDS},
+                                    {f: d[f"tilt_coef_{f}"] for f in FIELDS},
+                                    {f: tuple(d[f"tilt_range_{f}"]) for f in FIELDS})
+                                   if "tilt_coef_scalar" in d else ()))
     return build_transfer(prescription, state)
 
 
 # k/k_LQC intervals where the period-averaged transfer met 1% in ``bouncelike transfer-check
-# --backgrounds 6 --seed 11`` (measured; pointwise, where the oscillations are resolved, the
-# dressed metric meets 1% from 0.1 k_LQC up, ~2% in the troughs below)
+# --backgrounds 6 --seed 11`` (measured; the dressed metric, remote past, meets 1% pointwise
+# too: max 0.45%, and 0.9% with --seed 5)
 CERTIFIED_RANGES = {
     ("dressed_metric", "remote_past"): ((0.01, math.inf),),
     ("deformed_algebra", "remote_past"): ((0.01, 1.0),),
@@ -366,9 +447,10 @@ class BounceSpectraModel:
     average (``average_unresolved=False``: pointwise T). ``derived(params)`` gives
     ``certified`` (the window 1e-4-0.2 Mpc^-1 lies within the tabulated 0.01-100 k_LQC or
     above it, and D within the calibrated range) and ``x_window_min``. Certified accuracy
-    (``bouncelike transfer-check``, dressed metric, remote-past state): <= 0.3% for window
-    points above 0.1 k_LQC, ~2-3% pointwise in the deepest troughs between 0.01 and 0.1 k_LQC
-    (< 1% against the period-averaged power there).
+    (``bouncelike transfer-check``, dressed metric, remote-past state): <= 0.1% for window
+    points above 0.1 k_LQC, <= 1% pointwise (max 0.45% with --seed 11, 0.9% with --seed 5) in
+    the deepest troughs between 0.01 and 0.1 k_LQC, for tilts within the calibrated range
+    (others are clipped to it).
     """
 
     parameter_names = ("ln_1e10_As", "n_s", "r", "log10_k_lqc", "log10_conformal_duration")
