@@ -33,8 +33,9 @@ from __future__ import annotations
 import json
 import math
 import time
-from pathlib import Path
 from typing import Any
+
+from ._common import add_config_output_arguments, output_dir
 
 NAME = "compare"
 HELP = "e-fold distributions of several bounce dynamics or shear values side by side"
@@ -46,15 +47,9 @@ COMPARE_KEYS = ("n_samples", "seed", "threshold", "bins", "workers", "cases", "s
 
 
 def add_arguments(parser: Any) -> None:
-    parser.add_argument("config", help="run configuration (TOML) with [potential], "
-                        "[background] and [compare]")
-    parser.add_argument("--output", metavar="DIR", default=None,
-                        help="output folder (default bouncelike-out/<config stem>/)")
-    parser.add_argument("--json", action="store_true",
-                        help="print one JSON object instead of the table")
+    add_config_output_arguments(parser, "[potential], [background] and [compare]")
     parser.add_argument("--workers", type=int, default=None, metavar="N",
                         help="local worker processes (overrides [compare] workers)")
-    parser.add_argument("--quiet", action="store_true", help="hide the progress bar")
 
 
 def cases_from_config(table: Any, critical_density: float) -> list[tuple[str, Any]]:
@@ -180,7 +175,7 @@ def run(args: Any) -> int:
     prior = prior_from_config(Table({k: v for k, v in table.data.items() if k in PRIOR_KEYS},
                                     "compare", PRIOR_KEYS))
     cases = cases_from_config(table, rho_c)
-    out_dir = Path(args.output) if args.output else Path("bouncelike-out") / Path(args.config).stem
+    out_dir = output_dir(args)
 
     from .efolds import warm_up
 

@@ -30,8 +30,9 @@ from __future__ import annotations
 import json
 import math
 import time
-from pathlib import Path
 from typing import Any
+
+from ._common import add_config_output_arguments, output_dir
 
 NAME = "efolds"
 HELP = "distribution of the number of inflationary e-folds after the bounce"
@@ -42,15 +43,9 @@ EFOLDS_KEYS = ("n_samples", "seed", "threshold", "prior", "density", "density_de
 
 
 def add_arguments(parser: Any) -> None:
-    parser.add_argument("config", help="run configuration (TOML) with [potential], "
-                        "[background] and [efolds]")
-    parser.add_argument("--output", metavar="DIR", default=None,
-                        help="output folder (default bouncelike-out/<config stem>/)")
-    parser.add_argument("--json", action="store_true",
-                        help="print one JSON object instead of the table")
+    add_config_output_arguments(parser, "[potential], [background] and [efolds]")
     parser.add_argument("--workers", type=int, default=None, metavar="N",
                         help="local worker processes (overrides [efolds] workers)")
-    parser.add_argument("--quiet", action="store_true", help="hide the progress bar")
 
 
 def _options(config: Any, workers_cli: int | None) -> dict[str, Any]:
@@ -215,7 +210,7 @@ def run(args: Any) -> int:
     config = load_run_config(args.config)
     setup = background_from_config(config)
     opts = _options(config, args.workers)
-    out_dir = Path(args.output) if args.output else Path("bouncelike-out") / Path(args.config).stem
+    out_dir = output_dir(args)
 
     warm_up(setup.dynamics, setup.potential, opts["prior"])
     started = time.perf_counter()

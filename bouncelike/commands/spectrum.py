@@ -8,9 +8,10 @@ power-law reference of the pivot summary) and ``spectrum.json``; ``--json`` prin
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
 import numpy as np
+
+from ._common import output_dir
 
 NAME = "spectrum"
 HELP = "primordial scalar and tensor spectra of a bounce configuration (table, figure, summary)"
@@ -114,7 +115,7 @@ def run(args) -> int:
     br = run_from_config(config, show_progress=not args.quiet)
     sp = br.spectrum
     summary = pivot_summary(br.k_mpc, sp.scalar, sp.tensor, br.scales.pivot)
-    out = Path(args.output) if args.output else Path("bouncelike-out") / Path(args.config).stem
+    out = output_dir(args)
     frame = pd.DataFrame({"k_mpc": br.k_mpc, "k_over_k_lqc": sp.k / sp.k_lqc,
                           "P_s": sp.scalar, "P_t": sp.tensor})
     fig = _figure(br, summary)
