@@ -54,7 +54,10 @@ from .kernels import (
     S_T_SI_END,
     S_VFRAC_BOUNCE,
     SUMMARY_SIZE,
+    dense_interpolate,
+    dense_rows,
     potential_terms,
+    stage_point,
 )
 
 SYS_BIANCHI, SYS_ASYMMETRIC, SYS_LOOP = 0, 1, 2
@@ -484,35 +487,14 @@ def _dense(code, prm, kind, pp, phase, y, ynew, k, h, ytmp, F, empty):
     """Stages 13-15 and the coefficient rows of the continuous extension (scipy's layout)."""
     n = y.shape[0]
     for st in range(13, 16):
-        for i in range(n):
-            acc = 0.0
-            for j in range(st):
-                acc += _A[st, j] * k[j, i]
-            ytmp[i] = y[i] + h * acc
+        stage_point(y, k, h, st, ytmp, n)
         _rhs_into(code, prm, kind, pp, ytmp, phase, k, st)
-    for i in range(n):
-        dy = ynew[i] - y[i]
-        F[0, i] = dy
-        F[1, i] = h * k[0, i] - dy
-        F[2, i] = 2.0 * dy - h * (k[12, i] + k[0, i])
-        for r in range(4):
-            acc = 0.0
-            for j in range(16):
-                acc += _D[r, j] * k[j, i]
-            F[3 + r, i] = h * acc
+    dense_rows(y, ynew, k, h, F, n)
 
 
 @_jit
 def _interp(y0, F, theta, out):
-    for i in range(y0.shape[0]):
-        acc = 0.0
-        for m in range(7):
-            acc += F[6 - m, i]
-            if m % 2 == 0:
-                acc *= theta
-            else:
-                acc *= 1.0 - theta
-        out[i] = y0[i] + acc
+    dense_interpolate(y0, F, theta, out, y0.shape[0])
 
 
 @_jit
@@ -658,11 +640,7 @@ def integrate(code, prm, kind, pp, y0, phase0, rtol, atol_pre, atol_post, late_d
             h = t_new - t
             h_abs = abs(h)
             for st in range(1, 12):
-                for i in range(n):
-                    acc = 0.0
-                    for j in range(st):
-                        acc += _A[st, j] * k[j, i]
-                    ytmp[i] = y[i] + h * acc
+                stage_point(y, k, h, st, ytmp, n)
                 _rhs_into(code, prm, kind, pp, ytmp, phase, k, st)
             for i in range(n):
                 acc = 0.0

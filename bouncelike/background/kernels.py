@@ -159,16 +159,19 @@ def event_values(kind, p, y, mode, s, inv_rho_c, lna_cap, g):
 
 
 @_jit
-def _dense_coefficients(kind, p, y, ynew, k, h, mode, s, inv_rho_c, ytmp, F):
-    """Extra stages 13-15 and the 7 coefficient rows F of the continuous extension."""
-    for st in range(13, 16):
-        for i in range(4):
-            acc = 0.0
-            for j in range(st):
-                acc += _A[st, j] * k[j, i]
-            ytmp[i] = y[i] + h * acc
-        _rates_row(kind, p, ytmp, mode, s, inv_rho_c, k, st)
-    for i in range(4):
+def stage_point(y, k, h, st, ytmp, n):
+    """ytmp = y + h sum_j A[st, j] k_j (first n components): the argument of DOP853 stage st."""
+    for i in range(n):
+        acc = 0.0
+        for j in range(st):
+            acc += _A[st, j] * k[j, i]
+        ytmp[i] = y[i] + h * acc
+
+
+@_jit
+def dense_rows(y, ynew, k, h, F, n):
+    """The 7 coefficient rows F of the DOP853 continuous extension from stages 0-15."""
+    for i in range(n):
         dy = ynew[i] - y[i]
         F[0, i] = dy
         F[1, i] = h * k[0, i] - dy
@@ -181,9 +184,9 @@ def _dense_coefficients(kind, p, y, ynew, k, h, mode, s, inv_rho_c, ytmp, F):
 
 
 @_jit
-def _interp(y0, F, theta, out):
+def dense_interpolate(y0, F, theta, out, n):
     """DOP853 continuous extension at theta in [0, 1] of the step from y0 (coefficients F)."""
-    for i in range(4):
+    for i in range(n):
         acc = 0.0
         for m in range(7):
             acc += F[6 - m, i]
@@ -192,6 +195,21 @@ def _interp(y0, F, theta, out):
             else:
                 acc *= 1.0 - theta
         out[i] = y0[i] + acc
+
+
+@_jit
+def _dense_coefficients(kind, p, y, ynew, k, h, mode, s, inv_rho_c, ytmp, F):
+    """Extra stages 13-15 and the 7 coefficient rows F of the continuous extension."""
+    for st in range(13, 16):
+        stage_point(y, k, h, st, ytmp, 4)
+        _rates_row(kind, p, ytmp, mode, s, inv_rho_c, k, st)
+    dense_rows(y, ynew, k, h, F, 4)
+
+
+@_jit
+def _interp(y0, F, theta, out):
+    """DOP853 continuous extension at theta in [0, 1] of the step from y0 (coefficients F)."""
+    dense_interpolate(y0, F, theta, out, 4)
 
 
 @_jit
@@ -366,11 +384,7 @@ def integrate(kind, p, y0, mode, s, inv_rho_c, bounced, rtol, atol, max_efolds, 
             h = max_time - t
         # DOP853 stages 1-11, the 8th-order solution and the FSAL evaluation (stage 12)
         for st in range(1, 12):
-            for i in range(4):
-                acc = 0.0
-                for j in range(st):
-                    acc += _A[st, j] * k[j, i]
-                ytmp[i] = y[i] + h * acc
+            stage_point(y, k, h, st, ytmp, 4)
             _rates_row(kind, p, ytmp, mode, s, inv_rho_c, k, st)
         for i in range(4):
             acc = 0.0
