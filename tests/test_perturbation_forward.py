@@ -118,7 +118,7 @@ def test_examples_score(name, verdict):
 
     from bouncelike.config import load_run_config
     from bouncelike.likelihood.gaussian import likelihood_from_config
-    from bouncelike.models import spectra_from_config
+    from bouncelike.models.registry import spectra_from_config
 
     cfg = load_run_config(Path(__file__).resolve().parents[1] / "examples" / f"{name}.toml")
     spectra = spectra_from_config(cfg)
@@ -151,8 +151,8 @@ def test_contracting_start_on_negative_branch_gives_slow_roll(tmp_path):
     cfg = tmp_path / "c.toml"
     cfg.write_text('[model]\nspectra = "bounce"\n[potential]\nname = "quadratic"\n'
                    'mass = 1.2e-6\n[background]\ndynamics = "isotropic"\nstart = "contracting"\n'
-                   '[background.contracting]\ndensity = 1e-14\nphase = 1.0\n'
-                   '[perturbations]\nk_count = 16\n[reheating]\nn_star = 55.0\n')
+                   '[background.contracting]\nstart_density = 1e-14\nphase = 1.0\n'
+                   '[perturbations]\nk_count = 16\n[reheating]\nN_star = 55.0\n')
     run = run_from_config(load_run_config(cfg))
     assert run.table.phi[-1] < 0
     s = pivot_summary(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor, 0.05)

@@ -7,8 +7,8 @@ import math
 import numpy as np
 import pytest
 
+from bouncelike.models.bounce_transfer import BounceSpectraModel
 from bouncelike.perturbations.transfer import (
-    BounceSpectraModel,
     certificate,
     conformal_duration,
     decompose,

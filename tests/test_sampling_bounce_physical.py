@@ -16,14 +16,14 @@ from bouncelike.cli import main  # noqa: E402
 from bouncelike.config import load_run_config  # noqa: E402
 from bouncelike.errors import NumericalFailure  # noqa: E402
 from bouncelike.likelihood.gaussian import GaussianLikelihood  # noqa: E402
+from bouncelike.models.registry import forward_model  # noqa: E402
 from bouncelike.sampling.driver import (  # noqa: E402
     ModelPosterior,
     SamplerSettings,
     failure_code,
     run_sampler,
 )
-from bouncelike.sampling.parametric import model_prior, parametric_model  # noqa: E402
-from bouncelike.sampling.priors import SHIPPED_PRIORS, prior_from_text  # noqa: E402
+from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior, prior_from_text  # noqa: E402
 from bouncelike.spectra.summary import summarize  # noqa: E402
 
 RHO_C = 0.40937  # gamma = 0.2375 (physics notes, section 0)
@@ -49,13 +49,13 @@ phidot_sign = 1
 prescription = "dressed_metric"
 state = "remote_past"
 [reheating]
-n_star = 55.0
+N_star = 55.0
 """
 
 
 @pytest.fixture(scope="module")
 def model():
-    return parametric_model("bounce_physical_dressed_metric")
+    return forward_model("bounce_physical_dressed_metric")
 
 
 def test_reproduces_full_forward_model_at_the_pivot(tmp_path, model):
@@ -67,7 +67,7 @@ def test_reproduces_full_forward_model_at_the_pivot(tmp_path, model):
     cfg = tmp_path / "full.toml"
     cfg.write_text(FULL)
     config = load_run_config(cfg)
-    from bouncelike.models import spectra_from_config
+    from bouncelike.models.registry import spectra_from_config
 
     full = summarize(spectra_from_config(config), 0.05)
     # the full forward model (background + exact mode integration; what `bouncelike score`
@@ -102,9 +102,7 @@ def test_failing_backgrounds_give_minus_infinity_with_counted_reasons(tmp_path, 
     text = (SHIPPED_PRIORS / "bounce_dressed_metric_physical.toml").read_text()
     # widen the potential fraction down to bounces that inflate for fewer e-folds than N_*
     text = text.replace("min = -11.75", "min = -12.6")
-    prior = prior_from_text(text, model_parameters=model.parameter_names,
-                            derived_parameters=model.derived_names,
-                            optional_parameters=model.optional_parameter_names)
+    prior = prior_from_text(text, model=model)
     lk = GaussianLikelihood.from_names(["planck2018_base", "bk18"])
     post = ModelPosterior(prior, model, lk)
     bad = np.array([-12.5, 1.28e-6, 57.0])
@@ -119,9 +117,7 @@ def test_failing_backgrounds_give_minus_infinity_with_counted_reasons(tmp_path, 
     # counted by the driver: a short run from walkers spread over the widened prior
     start = text.replace("start = -11.45\nstart_width = 0.05", "start = -11.9\n"
                          "start_width = 0.3")
-    prior2 = prior_from_text(start, model_parameters=model.parameter_names,
-                             derived_parameters=model.derived_names,
-                             optional_parameters=model.optional_parameter_names)
+    prior2 = prior_from_text(start, model=model)
     settings = SamplerSettings(walkers=8, max_steps=6, min_steps=6, checkpoint_every=6, seed=3)
     r = run_sampler(ModelPosterior(prior2, model, lk), settings, tmp_path / "run",
                     show_progress=False)
@@ -132,7 +128,7 @@ def test_failing_backgrounds_give_minus_infinity_with_counted_reasons(tmp_path, 
 def test_phase_prior_drives_the_inflationary_efolds(model):
     # the shipped prior whose N_inflation carries the contracting-branch phase prior
     # (Linsefors & Barrau, Phys. Rev. D 87 (2013) 123509: ~140-145 e-folds for m = 1.21e-6)
-    prior = model_prior(model, SHIPPED_PRIORS / "bounce_dressed_metric_phase.toml")
+    prior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric_phase.toml", model)
     p = prior.get("N_inflation")
     assert p.distribution == "efolds_from_phase"
     grid = np.linspace(p.lower, p.upper, 201)
@@ -145,13 +141,14 @@ def test_phase_prior_drives_the_inflationary_efolds(model):
     assert d["N_B_star"] > 60 and d["certified"] == 1.0  # bounce far below the window
 
 
-def test_sample_and_report_end_to_end(tmp_path, capsys):
+def test_sample_and_report_end_to_end(tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)  # chains_dir is relative to the working folder
     cfg = tmp_path / "physical.toml"
     cfg.write_text(
         '[likelihood]\nsets = ["planck2018_base", "bk18"]\n\n[sampling]\n'
         'prior = "bounce_dressed_metric_physical"\nwalkers = 8\nmax_steps = 40\n'
         'min_steps = 40\ncheckpoint_every = 20\nseed = 2\nprogress = false\n'
-        f'chains_dir = "{tmp_path / "chains"}"\n\n[report]\n'
+        'chains_dir = "chains"\n\n[report]\n'
         'exclusion_map = ["log10_potential_fraction", "mass"]\ngrid = 4\nprior_draws = 20\n'
         'rescore_samples = 5\nband_samples = 10\nevidence_draws = 100\n')
     assert main(["sample", str(cfg), "--quiet", "--json"]) == 0
@@ -186,12 +183,14 @@ def test_sample_and_report_end_to_end(tmp_path, capsys):
                          "role = \"fixed\"\nvalue = 0.0\n\n[parameters.critical_density]"),
      "needs [parameters.N_star], or both"),
 ])
-def test_bad_physical_priors_exit_2_and_write_nothing(tmp_path, capsys, edit, message):
+def test_bad_physical_priors_exit_2_and_write_nothing(tmp_path, capsys, monkeypatch, edit,
+                                                     message):
+    monkeypatch.chdir(tmp_path)
     text = edit((SHIPPED_PRIORS / "bounce_dressed_metric_physical.toml").read_text())
     (tmp_path / "prior.toml").write_text(text)
     cfg = tmp_path / "bad.toml"
     cfg.write_text('[likelihood]\nsets = ["planck2018_base"]\n\n[sampling]\n'
-                   f'prior = "prior.toml"\nchains_dir = "{tmp_path / "chains"}"\n')
+                   'prior = "prior.toml"\nchains_dir = "chains"\n')
     assert main(["sample", str(cfg), "--quiet"]) == 2
     err = capsys.readouterr().err.strip()
     assert message in err and "\n" not in err
@@ -204,7 +203,7 @@ def test_process_pool_gives_the_serial_chain(tmp_path, model):
     from bouncelike.parallel import ProcessPool
     from bouncelike.sampling.driver import install_posterior
 
-    prior = model_prior(model, SHIPPED_PRIORS / "bounce_dressed_metric_phase.toml")
+    prior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric_phase.toml", model)
     post = ModelPosterior(prior, model, GaussianLikelihood.from_names(["planck2018_base"]))
     settings = SamplerSettings(walkers=8, max_steps=5, min_steps=5, checkpoint_every=5, seed=4)
     run_sampler(post, settings, tmp_path / "serial", show_progress=False)

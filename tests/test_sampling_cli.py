@@ -122,7 +122,7 @@ def test_workers_zero_and_report_on_non_run(tmp_path, capsys, monkeypatch):
 
 def test_shipped_priors_load():
     from bouncelike.errors import InputError
-    from bouncelike.sampling.parametric import PARAMETRIC_MODELS, model_prior, parametric_model
+    from bouncelike.models.registry import forward_model
     from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior
 
     names = sorted(p.stem for p in SHIPPED_PRIORS.glob("*.toml"))
@@ -136,8 +136,7 @@ def test_shipped_priors_load():
         except InputError as exc:  # needs the background package's e-fold distribution
             assert "efolds_from_phase" in str(exc)
             continue
-        if prior.model in PARAMETRIC_MODELS:
-            model_prior(parametric_model(prior.model), SHIPPED_PRIORS / f"{n}.toml")
+        load_prior(SHIPPED_PRIORS / f"{n}.toml", forward_model(prior.model, sampled=True))
 
 
 EFOLD_PRIOR = """

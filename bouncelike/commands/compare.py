@@ -14,8 +14,8 @@ the dynamics of ``[background]`` is not used: the cases name theirs) and ``[comp
     bins = 40
     workers = 1               # local processes (MPI ranks under mpiexec)
     prior = "phase"           # prior keys as in [efolds]: phase | bounce_fraction
-    density = 1e-16
-    density_decades = 2.0
+    start_density = 1e-16
+    start_density_decades = 2.0
     cases = [                 # each: label, dynamics, and that dynamics' own keys
       { label = "LQC", dynamics = "isotropic" },
       { label = "condensate rho_c/2", dynamics = "condensate", rescale = 0.5 },
@@ -37,11 +37,12 @@ from typing import Any
 
 from ..plugins import loaded_plugins
 from ._common import add_config_output_arguments, output_dir
+from .efolds import start_density_ceiling
 
 NAME = "compare"
 HELP = "e-fold distributions of several bounce dynamics or shear values side by side"
 
-PRIOR_KEYS = ("prior", "density", "density_decades", "fraction_min", "fraction_max",
+PRIOR_KEYS = ("prior", "start_density", "start_density_decades", "fraction_min", "fraction_max",
               "fraction_scale")
 COMPARE_KEYS = ("n_samples", "seed", "threshold", "bins", "workers", "cases", "shear_ratios",
                 "shear_direction") + PRIOR_KEYS
@@ -145,9 +146,14 @@ def make_figure(results: list[tuple[str, Any]], threshold: float, title: str) ->
 
 
 def run(args: Any) -> int:
+    from ..background.dynamics import DYNAMICS_REGISTRY
     from ..background.efolds import efolds_distribution, prior_from_config
     from ..background.potentials import potential_from_config
-    from ..background.setup import critical_density_from_config, settings_from_config
+    from ..background.setup import (
+        BACKGROUND_KEYS,
+        critical_density_from_config,
+        settings_from_config,
+    )
     from ..config import Table, load_run_config
     from ..errors import InputError
     from ..io import json_safe, save_figure_atomic, write_csv_atomic, write_json_atomic
@@ -157,6 +163,8 @@ def run(args: Any) -> int:
     raw_bg = config.raw("background", {}) or {}
     if not isinstance(raw_bg, dict):
         raise InputError("[background] must be a table of keys")
+    # every key of [background] is checked (the dynamics and start are the cases' business)
+    Table(raw_bg, "background", BACKGROUND_KEYS + tuple(DYNAMICS_REGISTRY))
     bg = Table({k: v for k, v in raw_bg.items() if k in ("gamma", "critical_density",
                                                          "integration")},
                "background", ("gamma", "critical_density", "integration"))
@@ -173,9 +181,10 @@ def run(args: Any) -> int:
         if args.workers < 1:
             raise InputError(f"'--workers' = {args.workers} is out of range; allowed: >= 1")
         workers = args.workers
-    prior = prior_from_config(Table({k: v for k, v in table.data.items() if k in PRIOR_KEYS},
-                                    "compare", PRIOR_KEYS))
     cases = cases_from_config(table, rho_c)
+    ceilings = [c for c in (start_density_ceiling(d) for _, d in cases) if c is not None]
+    prior = prior_from_config(Table({k: v for k, v in table.data.items() if k in PRIOR_KEYS},
+                                    "compare", PRIOR_KEYS), min(ceilings) if ceilings else None)
     out_dir = output_dir(args)
 
     from .efolds import warm_up

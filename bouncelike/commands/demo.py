@@ -83,9 +83,9 @@ compare = [{comp}]
 def run(args: argparse.Namespace) -> int:
     from ..io import json_safe, write_json_atomic, write_text_atomic
     from ..likelihood.gaussian import GaussianLikelihood
+    from ..models.registry import forward_model
     from ..reporting.report import compute_report, write_report
     from ..sampling.driver import result_summary, run_sampler
-    from ..sampling.parametric import parametric_model
     from ..sampling.priors import resolve_prior_path
     from ..sampling.setup import build_run
     from ..sampling.verdicts import format_interval
@@ -93,7 +93,7 @@ def run(args: argparse.Namespace) -> int:
     out = Path(args.output)
     say = (lambda *a: None) if args.json else (lambda *a: print(*a, flush=True))
     # 1. score one point of the scenario
-    model = parametric_model("slow_roll_starobinsky")
+    model = forward_model("slow_roll_starobinsky")
     likelihood = GaussianLikelihood.from_names(SETS)
     point = {"N_star": 55.0, "ln_1e10_As": 3.044}
     score = likelihood.score(model.spectra(point))

@@ -8,8 +8,8 @@ Reads ``[potential]``, ``[background]`` (dynamics, critical density, integration
     seed = 0                  # one generator, drawn up front: identical for any worker count
     threshold = 60.0          # e-folds observations need (fraction above is reported)
     prior = "phase"           # phase | bounce_fraction
-    density = 1e-16           # phase prior: top of the rho_0 window (Planck units)
-    density_decades = 2.0     # phase prior: log-uniform width below density (0: fixed surface)
+    start_density = 1e-16     # phase prior: top of the rho_0 window (Planck units), < rho_c
+    start_density_decades = 2.0  # phase prior: log-uniform width below it (0: fixed surface)
     # fraction_min = 1e-13    # bounce_fraction prior: x = V_B / rho_c range
     # fraction_max = 1e-9
     # fraction_scale = "log"  # log | linear
@@ -38,7 +38,8 @@ from ._common import add_config_output_arguments, output_dir
 NAME = "efolds"
 HELP = "distribution of the number of inflationary e-folds after the bounce"
 
-EFOLDS_KEYS = ("n_samples", "seed", "threshold", "prior", "density", "density_decades",
+EFOLDS_KEYS = ("n_samples", "seed", "threshold", "prior", "start_density",
+               "start_density_decades",
                "fraction_min", "fraction_max", "fraction_scale", "workers", "bins",
                "convergence_samples")
 
@@ -49,7 +50,8 @@ def add_arguments(parser: Any) -> None:
                         help="local worker processes (overrides [efolds] workers)")
 
 
-def _options(config: Any, workers_cli: int | None) -> dict[str, Any]:
+def _options(config: Any, workers_cli: int | None, critical_density: float | None = None
+             ) -> dict[str, Any]:
     from ..background.efolds import prior_from_config
     from ..errors import InputError
 
@@ -61,7 +63,7 @@ def _options(config: Any, workers_cli: int | None) -> dict[str, Any]:
         "workers": table.integer("workers", 1, minimum=1, maximum=1024),
         "bins": table.integer("bins", 60, minimum=2, maximum=10**4),
         "convergence_samples": table.integer("convergence_samples", 100, minimum=0),
-        "prior": prior_from_config(table),
+        "prior": prior_from_config(table, critical_density),
     }
     if workers_cli is not None:
         if workers_cli < 1:
@@ -81,7 +83,7 @@ def summary_lines(dist: Any, setup: Any) -> list[str]:
     oscillates = getattr(dist, "field_oscillates", True)
     if prior["name"] == "phase":
         lo, hi = prior["window"]
-        where = (f"rho_0 = {hi:.3g} (fixed surface)" if prior["density_decades"] == 0
+        where = (f"rho_0 = {hi:.3g} (fixed surface)" if prior["start_density_decades"] == 0
                  else f"rho_0 log-uniform in [{lo:.3g}, {hi:.3g}]")
         if oscillates:
             prior_text = (f"flat phase on [0, 2 pi), {where}; "
@@ -124,7 +126,7 @@ def summary_lines(dist: Any, setup: Any) -> list[str]:
     lines.extend(dynamics_lines(getattr(dist, "dynamics", {})))
     if prior["name"] == "phase" and oscillates and not (dist.hubble_to_frequency < 0.1):
         lines.append("  warning: H/omega at the top of the rho_0 window is not small; lower "
-                     "'efolds.density'")
+                     "'efolds.start_density'")
     return lines
 
 
@@ -148,6 +150,14 @@ def dynamics_lines(description: dict[str, Any], width: int = 96) -> list[str]:
         lines.extend(textwrap.wrap(f"{key}: {text}", width=width, initial_indent="    ",
                                    subsequent_indent="      "))
     return lines
+
+
+def start_density_ceiling(dynamics: Any) -> float | None:
+    """The critical density the contracting branch must start below (the effective one of a
+    dynamics that rescales it)."""
+    rho_c = getattr(dynamics, "effective_critical_density",
+                    getattr(dynamics, "critical_density", None))
+    return float(rho_c) if rho_c is not None else None
 
 
 def warm_up(dynamics: Any, potential: Any, prior: Any) -> None:
@@ -210,7 +220,7 @@ def run(args: Any) -> int:
 
     config = load_run_config(args.config)
     setup = background_from_config(config)
-    opts = _options(config, args.workers)
+    opts = _options(config, args.workers, start_density_ceiling(setup.dynamics))
     out_dir = output_dir(args)
 
     warm_up(setup.dynamics, setup.potential, opts["prior"])

@@ -20,7 +20,7 @@ from ..errors import NumericalFailure
 from ..io import json_safe
 from ..likelihood.gaussian import Score, likelihood_from_config
 from ..likelihood.sets import QUANTITY_LABELS
-from ..models import spectra_from_config
+from ..models.registry import spectra_from_config
 from ..plugins import loaded_plugins
 
 NAME = "score"

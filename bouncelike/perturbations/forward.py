@@ -19,9 +19,10 @@ step                   integrator step x frequency (default 0.08)
 switch_density         deformed-algebra scalars: regular variables where rho > this x rho_c
 =====================  ==========================================================================
 
-``[reheating]``: ``n_star`` (e-folds from the pivot's exit to the end of inflation) or
-``equation_of_state`` w and ``density`` rho_reh (Planck units) for the Liddle & Leach estimate;
-``pivot`` (Mpc^-1, default 0.05); ``hubble_constant`` (km/s/Mpc, default Planck 2018).
+``[reheating]`` (:mod:`bouncelike.models.reheating`): ``N_star`` (e-folds from the pivot's exit
+to the end of inflation), or ``equation_of_state`` w and ``log10_reheating_density`` (log10
+rho_reh, Planck units) for the Liddle & Leach estimate; ``pivot`` (Mpc^-1, default 0.05);
+``hubble_constant`` (km/s/Mpc, default Planck 2018).
 
 Deformed-algebra modes whose Euclidean growth exp(2 k int sqrt(-Omega) d eta) would exceed
 e^600 are not integrated. Scalars and tensors grow there with the same exponent (the same
@@ -45,6 +46,7 @@ import numpy as np
 
 from ..config import Table
 from ..errors import InputError
+from ..models.reheating import reheating_from_config
 from .background import BackgroundTable, integrate_background
 from .mapping import ScaleMap, liddle_leach_n_star, scale_map
 from .prescriptions import PRESCRIPTIONS, SIGN_CONVENTIONS
@@ -54,7 +56,6 @@ from .states import STATES, Bogoliubov
 PERTURBATION_KEYS = ("prescription", "state", "sign_convention", "k_min", "k_max", "k_count",
                      "bogoliubov_beta", "bogoliubov_scale", "bogoliubov_phase", "past_density",
                      "freeze", "adiabatic_ratio", "step", "switch_density")
-REHEATING_KEYS = ("n_star", "equation_of_state", "density", "pivot", "hubble_constant")
 WINDOW_GRID = (1e-5, 1.0, 40)
 MAX_GROWTH_EXPONENT = 600.0
 
@@ -243,7 +244,8 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
         return _beyond_cap(tab, potential, opts, n_star, reheating, pivot, h0)
     if n_star is None:
         if reheating is None:
-            raise InputError("[reheating] needs n_star, or equation_of_state and density")
+            raise InputError("[reheating] needs N_star, or equation_of_state and "
+                             "log10_reheating_density")
         n_star = liddle_leach_n_star(tab, reheating[0], reheating[1], pivot, h0)
     sm = scale_map(tab, n_star, pivot)
     k_lqc = tab.k_lqc
@@ -396,25 +398,13 @@ def bounce_spectra_from_config(config: Table) -> Any:
                             notes=run.notes, label=f"bounce ({run.spectrum.prescription})")
 
 
-def reheating_from_table(t: Table) -> tuple[float | None, tuple[float, float] | None, float,
-                                            float | None]:
-    pivot = t.positive("pivot", 0.05)
-    h0 = t.positive("hubble_constant", None) if "hubble_constant" in t else None
-    if "n_star" in t:
-        if "equation_of_state" in t or "density" in t:
-            raise InputError("reheating: give either n_star or equation_of_state + density")
-        return t.positive("n_star"), None, pivot, h0
-    if "equation_of_state" in t and "density" in t:
-        return None, (t.number("equation_of_state"), t.positive("density")), pivot, h0
-    raise InputError("[reheating] needs n_star, or equation_of_state and density")
-
-
 def run_from_config(config: Table, show_progress: bool = False) -> BounceRun:
     pt = config.table("perturbations", PERTURBATION_KEYS)
     opts = PerturbationOptions.from_table(pt)
-    rt = config.table("reheating", REHEATING_KEYS, required=True)
-    n_star, reh, pivot, h0 = reheating_from_table(rt)
+    reheating = reheating_from_config(config)
+    history = None if reheating.given else (reheating.equation_of_state,
+                                            10.0 ** reheating.log10_reheating_density)
     tab, notes, pot = _background(config, opts.past_density)
-    run = run_bounce(tab, opts, n_star, reh, pivot, h0, potential=pot,
-                     show_progress=show_progress)
+    run = run_bounce(tab, opts, reheating.N_star, history, reheating.pivot,
+                     reheating.hubble_constant, potential=pot, show_progress=show_progress)
     return BounceRun(run.table, run.spectrum, run.scales, run.k_mpc, (*run.notes, *notes))

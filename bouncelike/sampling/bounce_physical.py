@@ -55,36 +55,46 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError, NumericalFailure
+from ..models.base import ForwardModel
+from ..quantities import (
+    AMPLITUDE,
+    CERTIFIED,
+    CRITICAL_DENSITY,
+    EPSILON_STAR,
+    LN_AMPLITUDE,
+    LOG10_BOUNCE_SCALE,
+    LOG10_CONFORMAL_DURATION,
+    LOG10_POTENTIAL_FRACTION,
+    N_BOUNCE_END,
+    N_BOUNCE_PIVOT,
+    N_INFLATION,
+    N_STAR,
+    PIVOT,
+    QUADRATIC_MASS,
+    REHEATING,
+    TENSOR_RATIO,
+    TILT,
+    WINDOW_IN_BOUNCE_UNITS,
+)
 
-PIVOT = 0.05
 #: C = -2 + ln 2 + Euler's gamma (Stewart & Lyth 1993)
 C_SL = -2.0 + math.log(2.0) + 0.5772156649015329
 BACKGROUND_CHOICES = ("log10_potential_fraction", "N_inflation")
-REHEATING_KEYS = ("N_star", "equation_of_state", "log10_reheating_density")
+REHEATING_KEYS = tuple(p.name for p in REHEATING)
 #: fast-model parameters this module supplies itself
 _SUPPLIED = ("ln_1e10_As", "n_s", "r", "log10_k_lqc")
 
 
-class _PhysicalBounce:
+class _PhysicalBounce(ForwardModel):
     prescription = ""
-    parameter_names = ("log10_potential_fraction", "N_inflation", "mass", "critical_density",
-                       "N_star", "equation_of_state", "log10_reheating_density")
+    parameters = (LOG10_POTENTIAL_FRACTION, N_INFLATION, QUADRATIC_MASS, CRITICAL_DENSITY,
+                  *REHEATING)
     optional_parameter_names = ("log10_potential_fraction", "N_inflation", "N_star",
                                 "equation_of_state", "log10_reheating_density")
-    derived_names = ("log10_potential_fraction", "N_inflation", "N_bounce_end", "N_star",
-                     "N_B_star", "log10_k_lqc", "log10_conformal_duration", "ln_1e10_As",
-                     "A_s", "n_s", "r", "epsilon_star", "x_window_min", "certified")
-    labels = {
-        "log10_potential_fraction": r"\log_{10}(V_B/\rho_c)", "N_inflation": r"N_\mathrm{inf}",
-        "mass": r"m/m_\mathrm{Pl}", "critical_density": r"\rho_c", "N_star": "N_*",
-        "equation_of_state": r"w_\mathrm{reh}",
-        "log10_reheating_density": r"\log_{10}\rho_\mathrm{reh}",
-        "N_bounce_end": r"N_{B,\mathrm{end}}", "N_B_star": r"N_{B*}",
-        "log10_k_lqc": r"\log_{10}(k_\mathrm{LQC}/\mathrm{Mpc}^{-1})",
-        "log10_conformal_duration": r"\log_{10} D", "ln_1e10_As": r"\ln(10^{10} A_s)",
-        "A_s": "A_s", "n_s": "n_s", "r": "r", "epsilon_star": r"\epsilon_*",
-        "x_window_min": r"k_\mathrm{min}/k_\mathrm{LQC}", "certified": r"\mathrm{certified}",
-    }
+    derived_parameters = (LOG10_POTENTIAL_FRACTION, N_INFLATION, N_BOUNCE_END, N_STAR,
+                          N_BOUNCE_PIVOT, LOG10_BOUNCE_SCALE, LOG10_CONFORMAL_DURATION,
+                          LN_AMPLITUDE, AMPLITUDE, TILT, TENSOR_RATIO, EPSILON_STAR,
+                          WINDOW_IN_BOUNCE_UNITS, CERTIFIED)
 
     def __init__(self) -> None:
         self._fast_model: Any = None
@@ -116,7 +126,7 @@ class _PhysicalBounce:
     # -- evaluation -----------------------------------------------------------------------
     def _fast(self) -> Any:
         if self._fast_model is None:
-            from ..perturbations.transfer import BounceSpectraModel
+            from ..models.bounce_transfer import BounceSpectraModel
 
             self._fast_model = BounceSpectraModel(prescription=self.prescription, pivot=PIVOT)
         return self._fast_model

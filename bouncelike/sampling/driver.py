@@ -119,7 +119,7 @@ class Posterior:
 
 
 class ModelPosterior(Posterior):
-    """Posterior of a parametric model (:mod:`bouncelike.sampling.parametric`) scored by a
+    """Posterior of a forward model (:mod:`bouncelike.models`) scored by a
     likelihood object with ``.log_likelihood(spectra)`` (:mod:`bouncelike.likelihood`).
 
     ``require_summary_fit``: the Gaussian likelihood scores the amplitude, tilt, running and r

@@ -1,7 +1,7 @@
 """Prior files for posterior runs: loading, validation, densities and draws.
 
 A prior file is TOML with one ``[prior]`` table and one ``[parameters.<name>]`` table per
-parameter of the parametric model (see :mod:`bouncelike.sampling.parametric`)::
+parameter of the forward model (see :mod:`bouncelike.models`)::
 
     [prior]
     model = "power_law"               # parametric model this prior belongs to
@@ -12,7 +12,8 @@ parameter of the parametric model (see :mod:`bouncelike.sampling.parametric`)::
     distribution = "uniform"          # uniform | log_uniform | gaussian | efolds_from_phase
     min = 0.85
     max = 1.10
-    label = 'n_s'                     # LaTeX, without dollar signs
+    label = 'n_s'                     # optional: LaTeX without dollar signs (default: the
+                                      # model's declaration of the parameter)
     start = 0.965                     # optional: centre of the walkers' starting ball
     start_width = 0.01                # optional: its width (clipped to the support)
     nested_value = 1.0                # optional: value of the nested model (Savage-Dickey)
@@ -20,11 +21,9 @@ parameter of the parametric model (see :mod:`bouncelike.sampling.parametric`)::
     [parameters.r]
     role = "fixed"
     value = 0.0
-    label = 'r'
 
     [parameters.A_s]
     role = "derived"                  # computed by the model, stored with the samples
-    label = 'A_s'
 
 ``gaussian`` takes ``mean`` and ``sigma`` (optional ``min``/``max`` truncate it);
 ``log_uniform`` needs ``0 < min < max``. ``efolds_from_phase`` is the duration-of-inflation
@@ -32,11 +31,14 @@ distribution obtained by evolving a flat prior on the oscillation phase of the c
 branch through the bounce (physics notes, section 2); it takes ``min``/``max`` and a
 ``[parameters.<name>.phase]`` sub-table handed to
 :func:`bouncelike.background.efolds.efolds_distribution` (``potential``, ``mass``,
-``dynamics``, ``critical_density``, ``density`` and ``density_decades`` of the contracting-branch
-surface where the phase is flat, ``n_samples``, ``seed``). Its density is a Gaussian kernel
-density estimate of the computed e-fold samples restricted to ``[min, max]``.
+``dynamics``, ``critical_density``, ``start_density`` and ``start_density_decades`` of the
+contracting-branch window where the phase is flat, ``n_samples``, ``seed``). Its density is a
+Gaussian kernel density estimate of the computed e-fold samples restricted to ``[min, max]``.
 
-Every problem raises :class:`~bouncelike.errors.InputError` with one line naming the key.
+Validated against the model's declared parameters (:class:`bouncelike.config.Parameter`): the
+names, the range [min, max] of a sampled parameter and the value of a fixed one must lie in
+the declared range (a gaussian prior is truncated to it). Every problem raises
+:class:`~bouncelike.errors.InputError` with one line naming the key.
 """
 
 from __future__ import annotations
@@ -49,8 +51,9 @@ from typing import Any
 
 import numpy as np
 
-from ..config import Table, read_toml, tomllib
+from ..config import Parameter, Table, read_toml, tomllib
 from ..errors import InputError
+from ..quantities import START_DENSITY, START_DENSITY_DECADES
 
 ROLES = ("sampled", "fixed", "derived")
 DISTRIBUTIONS = ("uniform", "log_uniform", "gaussian", "efolds_from_phase")
@@ -58,8 +61,8 @@ PARAMETER_KEYS = (
     "role", "distribution", "min", "max", "mean", "sigma", "value", "label",
     "start", "start_width", "nested_value", "phase",
 )
-PHASE_KEYS = ("potential", "mass", "dynamics", "critical_density", "density",
-              "density_decades", "n_samples", "seed")
+PHASE_KEYS = ("potential", "mass", "dynamics", "critical_density", "start_density",
+              "start_density_decades", "n_samples", "seed")
 
 #: Folder of the prior files shipped with the project (``priors/`` at the top of the tree).
 SHIPPED_PRIORS = Path(__file__).resolve().parents[2] / "priors"
@@ -263,43 +266,53 @@ def resolve_prior_path(name: str, base: Path | None = None) -> Path:
     raise InputError(f"prior file '{name}' not found; give a path or one of: {shipped}")
 
 
-def load_prior(path: str | Path, model_parameters: tuple[str, ...] | None = None,
-               derived_parameters: tuple[str, ...] | None = None,
-               optional_parameters: tuple[str, ...] = ()) -> Prior:
-    """Read and validate a prior file.
-
-    Parameters
-    ----------
-    path : path of the TOML file.
-    model_parameters : when given, every sampled or fixed parameter must be one of these and
-        each of them must appear in the file.
-    derived_parameters : when given, every derived parameter must be one of these.
-    optional_parameters : model parameters the file may leave out.
-    """
+def load_prior(path: str | Path, model: Any = None, **kw: Any) -> Prior:
+    """Read and validate a prior file (for ``model``, a registered forward model: its
+    declared parameters, derived numbers and :meth:`check_prior`; see :func:`parse_prior`)."""
     path = Path(path)
     data = read_toml(path, "prior file")
-    return parse_prior(data, str(path), path.read_text(encoding="utf-8"), model_parameters,
-                       derived_parameters, optional_parameters)
+    return parse_prior(data, str(path), path.read_text(encoding="utf-8"), model, **kw)
 
 
-def prior_from_text(text: str, source: str = "<text>", **kw: Any) -> Prior:
+def prior_from_text(text: str, source: str = "<text>", model: Any = None, **kw: Any) -> Prior:
     """A prior from the text of a prior file (as stored in a run's manifest)."""
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"prior file '{source}' is not valid TOML: {exc}") from None
-    return parse_prior(data, source, text, **kw)
+    return parse_prior(data, source, text, model, **kw)
 
 
-def parse_prior(data: dict[str, Any], source: str, text: str = "",
-                model_parameters: tuple[str, ...] | None = None,
-                derived_parameters: tuple[str, ...] | None = None,
+def parse_prior(data: dict[str, Any], source: str, text: str = "", model: Any = None,
+                model_parameters: tuple[Parameter | str, ...] | None = None,
+                derived_parameters: tuple[Parameter | str, ...] | None = None,
                 optional_parameters: tuple[str, ...] = ()) -> Prior:
-    """Validate the parsed contents of a prior file."""
+    """Validate the parsed contents of a prior file.
+
+    Parameters
+    ----------
+    model : a forward model (:class:`bouncelike.models.base.ForwardModel`); gives the three
+        lists below and its own ``check_prior``.
+    model_parameters : when given, every sampled or fixed parameter must be one of these and
+        each of them must appear in the file (declarations also bound the ranges and give the
+        default labels).
+    derived_parameters : when given, every derived parameter must be one of these.
+    optional_parameters : model parameters the file may leave out.
+    """
+    if model is not None:
+        model_parameters = tuple(model.parameters)
+        derived_parameters = tuple(model.derived_parameters)
+        optional_parameters = tuple(model.optional_parameter_names)
+    declared = {d.name: d for d in (*(model_parameters or ()), *(derived_parameters or ()))
+                if isinstance(d, Parameter)}
+    model_names = None if model_parameters is None else tuple(
+        d.name if isinstance(d, Parameter) else d for d in model_parameters)
+    derived_names = None if derived_parameters is None else tuple(
+        d.name if isinstance(d, Parameter) else d for d in derived_parameters)
     path = source
     top = Table(data, "", ("prior", "parameters"))
     head = top.table("prior", ("model", "title", "description"), required=True)
-    model = head.string("model")
+    model_name = head.string("model")
     title = head.string("title", "")
     head.string("description", "")
     raw = top.raw("parameters")
@@ -311,32 +324,44 @@ def parse_prior(data: dict[str, Any], source: str, text: str = "",
         raise InputError(f"prior file '{path}': [parameters] is empty; give one table per "
                          "parameter")
     params_tab = top.table("parameters", names, required=True)
-    params = tuple(_parameter(params_tab.table(n, PARAMETER_KEYS), n) for n in names)
+    for n in names:  # names first: a misspelt parameter is named as such
+        role = raw[n].get("role") if isinstance(raw[n], dict) else None
+        if role in ("sampled", "fixed") and model_names is not None and n not in model_names:
+            raise InputError(
+                f"'parameters.{n}' is not a parameter of model '{model_name}'; allowed: "
+                f"{', '.join(model_names)}")
+    params = tuple(_parameter(params_tab.table(n, PARAMETER_KEYS), n, declared.get(n))
+                   for n in names)
     if not any(p.role == "sampled" for p in params):
         raise InputError(f"prior file '{path}': no parameter has role = 'sampled'")
-    if model_parameters is not None:
-        for p in params:
-            if p.role != "derived" and p.name not in model_parameters:
-                raise InputError(
-                    f"'parameters.{p.name}' is not a parameter of model '{model}'; allowed: "
-                    f"{', '.join(model_parameters)}")
+    if model_names is not None:
         given = {p.name for p in params}
-        for n in model_parameters:
+        for n in model_names:
             if n not in given and n not in optional_parameters:
-                raise InputError(f"missing table '[parameters.{n}]' (model '{model}' needs "
+                raise InputError(f"missing table '[parameters.{n}]' (model '{model_name}' needs "
                                  "it: give role = 'sampled' or 'fixed')")
-    if derived_parameters is not None:
+    if derived_names is not None:
         for p in params:
-            if p.role == "derived" and p.name not in derived_parameters:
+            if p.role == "derived" and p.name not in derived_names:
                 raise InputError(
-                    f"'parameters.{p.name}.role' = 'derived' but model '{model}' derives only: "
-                    f"{', '.join(derived_parameters) or 'nothing'}")
-    return Prior(model=model, title=title, parameters=params, source=str(path), text=text)
+                    f"'parameters.{p.name}.role' = 'derived' but model '{model_name}' derives "
+                    f"only: {', '.join(derived_names) or 'nothing'}")
+    prior = Prior(model=model_name, title=title, parameters=params, source=str(path), text=text)
+    if model is not None:
+        check_model_prior(model, prior)
+    return prior
 
 
-def _parameter(t: Table, name: str) -> ParameterPrior:
+def check_model_prior(model: Any, prior: Prior) -> None:
+    """The model's own check of the chosen parameters (e.g. one background choice)."""
+    check = getattr(model, "check_prior", None)
+    if check is not None:
+        check(tuple(p.name for p in prior.parameters if p.role != "derived"))
+
+
+def _parameter(t: Table, name: str, declared: Parameter | None = None) -> ParameterPrior:
     role = t.string("role", choices=ROLES)
-    label = t.string("label", name)
+    label = t.string("label", declared.tex if declared is not None else name)
     if role == "derived":
         for k in t.data:
             if k not in ("role", "label"):
@@ -348,13 +373,25 @@ def _parameter(t: Table, name: str) -> ParameterPrior:
             if k not in ("role", "label", "value"):
                 raise InputError(f"'{t.key(k)}' is not allowed for a fixed parameter "
                                  "(allowed: role, label, value)")
-        return ParameterPrior(name=name, role=role, label=label, value=t.number("value"))
+        value = t.number("value")
+        if declared is not None:
+            declared.check(value, t.key("value"))
+        return ParameterPrior(name=name, role=role, label=label, value=value)
     dist = t.string("distribution", choices=DISTRIBUTIONS)
     if dist != "gaussian":
         _required(t, "min")
         _required(t, "max")
     lower = t.number("min") if "min" in t else -math.inf
     upper = t.number("max") if "max" in t else math.inf
+    if declared is not None:
+        for key, bound in (("min", lower), ("max", upper)):
+            if key in t:
+                declared.check(bound, t.key(key))
+        if dist == "gaussian":  # truncated to the declared range
+            if declared.lower is not None and "min" not in t:
+                lower = declared.lower
+            if declared.upper is not None and "max" not in t:
+                upper = declared.upper
     if not lower < upper:
         raise InputError(f"'{t.key('max')}' = {upper:g} must be larger than "
                          f"'{t.key('min')}' = {lower:g}")
@@ -435,8 +472,7 @@ def _compute_efolds(t: Table, dist_fn: Any) -> np.ndarray:
                                   "mass": t.positive("mass", 1.21e-6)},
                     "background": background}, "", ("potential", "background"))
     setup = setup_mod.background_from_config(config)
-    phase = efolds_mod.PhasePrior(t.positive("density", 1e-16),
-                                  t.number("density_decades", 2.0, minimum=0.0, maximum=10.0))
+    phase = efolds_mod.PhasePrior(START_DENSITY.read(t), START_DENSITY_DECADES.read(t))
     result = dist_fn(setup.dynamics, setup.potential, phase,
                      t.integer("n_samples", 200, minimum=10), t.integer("seed", 0, minimum=0),
                      settings=setup.settings, convergence_samples=0)

@@ -1,0 +1,84 @@
+"""The one registry of forward models, for configurations and posterior runs alike.
+
+A configuration selects a model with ``[model] spectra = "<name>"`` (``bouncelike score``,
+``bouncelike spectrum``) and gives its parameter values in the model's section; a prior file
+selects it with ``[prior] model = "<name>"`` (``bouncelike sample``). Both look the name up
+in :data:`MODELS`. The classes are imported here directly: a configuration names a model, it
+never chooses code to import.
+
+========================================  ====================================================
+``power_law``                             power-law spectra (``[power_law]``)
+``slow_roll_quadratic``                   slow roll of m^2 phi^2 / 2 (``[slow_roll]``)
+``slow_roll_starobinsky``                 slow roll of the Starobinsky plateau (``[slow_roll]``)
+``bounce``                                the full bounce forward model: background, exact mode
+                                          integration, mapping to Mpc^-1 (``[potential]``,
+                                          ``[background]``, ``[perturbations]``,
+                                          ``[reheating]``); too slow to sample
+``bounce_dressed_metric``,                power law times the cached transfer of the bounce
+``bounce_deformed_algebra``               (``[bounce_transfer]``)
+``bounce_physical_dressed_metric``,       background -> e-folds -> N_* -> N_B* -> k_LQC ->
+``bounce_physical_deformed_algebra``      pivot spectrum (Stewart-Lyth) -> cached transfer
+========================================  ====================================================
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from ..config import Table
+from ..errors import InputError
+from ..sampling.bounce_physical import PhysicalBounceDeformedAlgebra, PhysicalBounceDressedMetric
+from .base import ForwardModel
+from .bounce_transfer import BounceDeformedAlgebra, BounceDressedMetric
+from .powerlaw import PowerLawModel
+from .slowroll import QuadraticSlowRoll, StarobinskySlowRoll
+
+
+class BounceModel(ForwardModel):
+    """The full forward model of a bounce configuration (``[model] spectra = "bounce"``):
+    background through the bounce, modes integrated exactly, spectra in Mpc^-1
+    (:mod:`bouncelike.perturbations.forward`). Minutes per point: it is scored, not
+    sampled; posterior runs use the ``bounce_physical_*`` models, which reproduce it at the
+    pivot through the certified transfer."""
+
+    name = "bounce"
+    title = "Bounce: background, exact modes, mapping to Mpc^-1"
+    samplable = False
+
+    def from_config(self, config: Table) -> Any:
+        from ..perturbations.forward import bounce_spectra_from_config
+
+        return bounce_spectra_from_config(config)
+
+
+#: every forward model by its name
+MODELS: dict[str, type[ForwardModel]] = {cls.name: cls for cls in (
+    PowerLawModel, QuadraticSlowRoll, StarobinskySlowRoll, BounceModel, BounceDressedMetric,
+    BounceDeformedAlgebra, PhysicalBounceDressedMetric, PhysicalBounceDeformedAlgebra)}
+
+#: models a prior file may name (the others are evaluated from a configuration only)
+SAMPLABLE = tuple(name for name, cls in MODELS.items() if getattr(cls, "samplable", True))
+
+_OLD_NAMES = {"slow_roll": "'slow_roll_quadratic' or 'slow_roll_starobinsky' (the potential "
+                           "is part of the model name; drop 'slow_roll.potential')"}
+
+
+def forward_model(name: str, where: str = "model", sampled: bool = False) -> ForwardModel:
+    """A new instance of the model registered under ``name`` (``where`` names the key in
+    messages; ``sampled``: the model must be one a prior file may name)."""
+    if name in _OLD_NAMES:
+        raise InputError(f"'{where}' = '{name}' was renamed {_OLD_NAMES[name]}")
+    allowed = SAMPLABLE if sampled else tuple(MODELS)
+    if name not in allowed:
+        extra = ("; 'bounce' integrates the modes exactly and is too slow to sample: use "
+                 "bounce_physical_dressed_metric" if name == "bounce" else "")
+        raise InputError(f"'{where}' = '{name}' is not known; allowed: "
+                         f"{', '.join(sorted(allowed))}{extra}")
+    return MODELS[name]()
+
+
+def spectra_from_config(config: Table) -> Any:
+    """The spectra object a run configuration asks for (``[model] spectra = ...``)."""
+    model = config.table("model", ("spectra",), required=True)
+    name = model.string("spectra")
+    return forward_model(name, "model.spectra").from_config(config)
