@@ -347,7 +347,7 @@ class Parameter:
             return "true or false"
         text = _range_text(self.lower, self.upper, self.lower_open, self.upper_open)
         if self.unit and (self.lower is not None or self.upper is not None):
-            text += f" ({self.unit})"
+            text += f" {self.unit}"
         return text
 
     def check(self, value: Any, key: str | None = None, *, lower: float | None = None,
@@ -394,7 +394,7 @@ class Parameter:
         if bad_lo or bad_hi:
             text = _range_text(lo, hi, lo_open, hi_open)
             if self.unit:
-                text += f" ({self.unit})"
+                text += f" {self.unit}"
             because = lo_why if bad_lo else hi_why
             shown = f"{value}" if self.kind == "integer" else f"{number:g}"
             raise InputError(f"'{key}' = {shown} is out of range; allowed: {text}"

@@ -31,8 +31,8 @@ LN_1E10 = math.log(1e10)
 
 PIVOT_SCALE = Parameter(
     "pivot", "pivot wavenumber k_* at which the spectra are quoted", "Mpc^-1",
-    1e-5, 1.0, why="a decade beyond the observable window 1e-4 - 0.2 Mpc^-1 on either side "
-    "(physics notes, section 5); a pivot elsewhere is not constrained by CMB data",
+    1e-5, 1.0, why="a decade beyond the observable window 1e-4 - 0.2 Mpc^-1 on either side, "
+    "physics notes section 5; a pivot elsewhere is not constrained by CMB data",
     label=r"k_*", default=PIVOT)
 LN_AMPLITUDE = Parameter(
     "ln_1e10_As", "scalar amplitude at the pivot, ln(1e10 A_s)", "",
@@ -50,15 +50,16 @@ TILT = Parameter(
     "window, far from any scale-invariant spectrum the data describe", label="n_s")
 RUNNING = Parameter(
     "running", "running of the scalar index, dn_s/dln k, at the pivot", "", -1.0, 1.0,
-    why="|alpha| <= 1: the expansion in ln(k/k_*) is used across the observable window "
-    "(|ln(k/k_*)| < 7), where a larger running is no longer a small correction",
+    why="the expansion in ln(k/k_*) is used across the observable window, |ln(k/k_*)| < 7, "
+    "where a larger running is no longer a small correction",
     label=r"\mathrm{d}n_s/\mathrm{d}\ln k")
 RUNNING_OF_RUNNING = Parameter(
     "running_of_running", "running of the running, d^2 n_s/dln k^2, at the pivot", "", -1.0,
-    1.0, why="|beta| <= 1, as for the running", label=r"\mathrm{d}^2 n_s/\mathrm{d}\ln k^2")
+    1.0, why="as for the running", label=r"\mathrm{d}^2 n_s/\mathrm{d}\ln k^2")
 TENSOR_RATIO = Parameter(
     "r", "tensor-to-scalar ratio P_t/P_s at the pivot", "", 0.0, 16.0,
-    why="r = 16 epsilon_1 < 16 while inflation lasts (epsilon_1 < 1, first-order slow roll)",
+    why="r = 16 epsilon_1 < 16 while inflation lasts, epsilon_1 < 1 at first order in slow "
+    "roll",
     label="r")
 TENSOR_TILT = Parameter(
     "n_t", "tensor spectral index at the pivot", "", -2.0, 2.0,
@@ -70,19 +71,19 @@ SPECTRAL = (LN_AMPLITUDE, TILT, RUNNING, RUNNING_OF_RUNNING, TENSOR_RATIO)
 
 N_STAR = Parameter(
     "N_star", "e-folds from the exit of the pivot scale to the end of inflation, N_*",
-    "e-folds", 1.0, 200.0, why="the pivot must leave the Hubble radius during inflation "
-    "(N_* >= 1); no reheating history gives more than ~100 (Liddle & Leach, PRD 68 (2003) "
-    "103503), 200 is a generous cap", label="N_*")
+    "e-folds", 1.0, 200.0, why="the pivot must leave the Hubble radius during inflation; no "
+    "reheating history gives more than ~100 e-folds, Liddle & Leach PRD 68 103503, and 200 is "
+    "a generous cap", label="N_*")
 EQUATION_OF_STATE = Parameter(
     "equation_of_state", "mean equation of state w of the reheating era", "", -1.0 / 3.0, 1.0,
-    lower_open=True, why="w > -1/3 (reheating is not inflation) and w <= 1 (causality)",
+    lower_open=True, why="reheating is not inflation, w > -1/3, and w <= 1 by causality",
     label=r"w_\mathrm{reh}")
 LOG10_REHEATING_DENSITY = Parameter(
     "log10_reheating_density", "log10 of the density rho_reh at the end of reheating",
     "log10 Planck density", -88.0, 0.0,
-    why="below the Planck density, and above ~1e-88 (reheating temperature above ~1 MeV, "
-    "before big-bang nucleosynthesis; common practice); also at most the density at the end "
-    "of inflation, checked on each background", label=r"\log_{10}\rho_\mathrm{reh}")
+    why="below the Planck density and above ~1e-88, a reheating temperature above ~1 MeV "
+    "before big-bang nucleosynthesis, common practice; also at most the density at the end of "
+    "inflation, checked on each background", label=r"\log_{10}\rho_\mathrm{reh}")
 HUBBLE_CONSTANT = Parameter(
     "hubble_constant", "H_0, for a_0 H_0 in the N_* relation (default: astropy Planck18)",
     "km/s/Mpc", 20.0, 150.0, why="a generous window around every measurement (~67-73)",
@@ -92,8 +93,8 @@ REHEATING = (N_STAR, EQUATION_OF_STATE, LOG10_REHEATING_DENSITY)
 
 # -- inflaton potentials ----------------------------------------------------------------------
 
-_SUB_PLANCKIAN = ("sub-Planckian: the semiclassical inflaton needs masses << m_Pl (the measured "
-                  "A_s = 2.1e-9 asks for ~1e-6)")
+_SUB_PLANCKIAN = ("sub-Planckian: the semiclassical inflaton needs masses << m_Pl; the "
+                  "measured A_s = 2.1e-9 asks for ~1e-6")
 QUADRATIC_MASS = Parameter(
     "mass", "inflaton mass m of V = m^2 phi^2 / 2 (0: a free massless field, which never "
     "inflates)", "m_Pl", 0.0, 1.0, upper_open=True, why=_SUB_PLANCKIAN,
@@ -108,8 +109,8 @@ STAROBINSKY_MASS = Parameter(
 CRITICAL_DENSITY = Parameter(
     "critical_density", "critical (maximum) density rho_c of the effective bounce",
     "Planck density", 0.0, None, lower_open=True,
-    why="rho_c = sqrt(3)/(32 pi^2 gamma^3) = 0.40937 for gamma = 0.2375 (Ashtekar & Singh "
-    "2011)", label=r"\rho_c")
+    why="rho_c = sqrt(3)/(32 pi^2 gamma^3) = 0.40937 for gamma = 0.2375, Ashtekar & Singh "
+    "2011", label=r"\rho_c")
 START_DENSITY = Parameter(
     "start_density", "density rho_0 where the contracting branch starts (for a phase prior: "
     "the top of the rho_0 window)", "Planck density", 0.0, 1.0, lower_open=True,
@@ -118,7 +119,7 @@ START_DENSITY = Parameter(
 START_DENSITY_DECADES = Parameter(
     "start_density_decades", "width in decades of the log-uniform rho_0 window below "
     "start_density (0: one fixed surface)", "decades", 0.0, 10.0,
-    why="the distribution converges within two decades (physics notes, section 2); ten is "
+    why="the distribution converges within two decades, physics notes section 2; ten is "
     "ample", label=r"\Delta\log_{10}\rho_0", default=2.0)
 POTENTIAL_FRACTION = Parameter(
     "potential_fraction", "fraction of the bounce density in the potential, V(phi_B)/rho_c",

@@ -24,16 +24,29 @@ def test_scale_map_relation():
     assert math.log(sm.pivot / sm.k_lqc_mpc) == pytest.approx(rhs, abs=1e-3)
 
 
-def test_liddle_leach_range():
-    # Liddle & Leach (PRD 68 (2003) 103503): N_* ~ 50-60 for GUT-scale inflation with
-    # instant to matter-like reheating; w = 1/3 removes the reheating term exactly.
+def test_liddle_leach_solves_the_published_relation():
+    # Liddle & Leach (PRD 68 (2003) 103503), in the form of the Planck 2018 inflation paper
+    # (physics notes s.5, from memory): N_* = 67 - ln(k_*/a_0 H_0) + (1/4) ln(V_*^2/(M_Pl^4
+    # rho_end)) + ((1 - 3w)/(12 (1 + w))) ln(rho_reh/rho_end), reduced M_Pl^4 = 1/(64 pi^2);
+    # a_0 H_0 from astropy's Planck18. Instant reheating (rho_reh = rho_end) drops the last term.
+    from astropy import constants as const
+    from astropy import units as u
+    from astropy.cosmology import Planck18
+
     tab = bounce_background()
-    n_inst = liddle_leach_n_star(tab, 1 / 3, 1e-20)
     i_end = np.argmin(np.abs(tab.t - tab.t_inflation_end))
-    n_rad = liddle_leach_n_star(tab, 1 / 3, float(tab.rho[i_end]))
-    assert n_inst == pytest.approx(n_rad, abs=1e-9)
-    assert 50 < n_inst < 62
-    assert liddle_leach_n_star(tab, 0.0, 1e-20) < n_inst
+    rho_end = float(tab.rho[i_end])
+    n_inst = liddle_leach_n_star(tab, 0.0, rho_end)
+    post = tab.t > tab.t_bounce
+    v_star = np.interp(tab.ln_a[i_end] - n_inst, tab.ln_a[post], tab.V[post])
+    k0 = (Planck18.H0 / const.c).to(1 / u.Mpc).value
+    published = 67 - math.log(0.05 / k0) + 0.25 * math.log(v_star**2 * 64 * math.pi**2 / rho_end)
+    assert n_inst == pytest.approx(published, abs=1e-6)
+    assert 50 < n_inst < 62  # Liddle & Leach: N_* ~ 50-60 for GUT-scale inflation
+    # matter-like reheating (w = 0) to rho_reh lowers N_* by (1/12) ln(rho_end/rho_reh), up to
+    # the small change of V_* it brings (d ln V_*/dN ~ 1/N_* for m^2 phi^2)
+    shift = liddle_leach_n_star(tab, 0.0, 1e-20) - n_inst
+    assert shift == pytest.approx(math.log(1e-20 / rho_end) / 12, rel=0.02)
 
 
 @pytest.mark.parametrize("presc", ["dressed_metric", "deformed_algebra"])

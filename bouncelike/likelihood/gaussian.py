@@ -35,7 +35,7 @@ from ..config import Table
 from ..errors import InputError, NumericalFailure
 from ..spectra.powerlaw import PowerLawSpectra, reexpand
 from ..spectra.summary import DEFAULT_HALF_WIDTH, DEFAULT_TOLERANCE, PivotSummary, summarize
-from .sets import QUANTITIES, ConstraintSet, load_constraint_set
+from .sets import QUANTITIES, QUANTITY_LABELS, ConstraintSet, load_constraint_set
 
 #: (confidence level, p-value threshold), strictest first.
 VERDICT_LEVELS = ((0.997, 0.003), (0.95, 0.05))
@@ -368,8 +368,27 @@ class GaussianLikelihood:
             if s.correlation_note:
                 notes.append(f"{s.name}: {s.correlation_note}")
         notes.extend(self._overlap_notes)
+        notes.extend(unconstrained_notes(self._sets, summaries))
         notes.append("sets are treated as independent of each other; " + VERDICT_RULE)
         return notes
+
+
+def unconstrained_notes(sets: Sequence[ConstraintSet],
+                        summaries: Sequence[PivotSummary]) -> list[str]:
+    """One note per quantity the spectra carry (non-zero) that no chosen set constrains: the
+    verdict says nothing about it."""
+    constrained = {t.quantity for s in sets for t in s.terms}
+    names = ", ".join(s.name for s in sets)
+    notes = []
+    for q in QUANTITIES:
+        if q in constrained or not summaries:
+            continue
+        value = summaries[0].value(q)
+        if value != 0 and math.isfinite(value):
+            notes.append(f"{QUANTITY_LABELS[q]} = {value:.4g} (k = {summaries[0].pivot:g} "
+                         f"Mpc^-1) is not constrained by the chosen sets ({names}): the verdict "
+                         "says nothing about it")
+    return notes
 
 
 def likelihood_from_config(config: Table, base_dir: str | Path | None = None) -> GaussianLikelihood:
