@@ -12,10 +12,11 @@ Top-level sections of a run configuration (each validated by the module that own
 ``model``         which forward model produces the spectra (``spectra = ...``)
 ``power_law``     a power-law primordial spectrum
 ``slow_roll``     slow-roll prediction of a potential at N_* e-folds
+``bounce_transfer`` a power law times the cached transfer of the bounce
 ``potential``     inflaton potential (name and parameters)
 ``background``    effective bounce dynamics and initial data
 ``perturbations`` prescription, initial state and options for the modes
-``reheating``     N_* directly, or reheating equation of state and density
+``reheating``     N_star directly, or equation_of_state and log10_reheating_density
 ``likelihood``    constraint sets to score against
 ``efolds``        duration-of-inflation distribution settings
 ``compare``       side-by-side comparison of dynamics
@@ -53,6 +54,7 @@ TOP_LEVEL_SECTIONS = (
     "model",
     "power_law",
     "slow_roll",
+    "bounce_transfer",
     "potential",
     "background",
     "perturbations",

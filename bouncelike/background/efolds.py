@@ -59,7 +59,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..progress import progress as progress_bar
-from ..quantities import START_DENSITY, START_DENSITY_DECADES
+from ..quantities import POTENTIAL_FRACTION, START_DENSITY, START_DENSITY_DECADES
 from ..units import critical_density as default_critical_density
 from .initial import BounceStart, ContractingStart, IntegrationSettings
 from .result import STATUSES
@@ -448,6 +448,14 @@ def efolds_distribution(
     )
 
 
+def start_density_ceiling(dynamics: Any) -> float | None:
+    """The critical density the contracting branch must start below (the effective one of a
+    dynamics that rescales it; None when the dynamics has none)."""
+    rho_c = getattr(dynamics, "effective_critical_density",
+                    getattr(dynamics, "critical_density", None))
+    return float(rho_c) if rho_c is not None else None
+
+
 def prior_from_config(table: Any, critical_density: float | None = None) -> Any:
     """Prior from the ``[efolds]`` table (keys prior, start_density, start_density_decades,
     fraction_*); with ``critical_density``, the start density must lie below it."""
@@ -466,8 +474,13 @@ def prior_from_config(table: Any, critical_density: float | None = None) -> Any:
     for key in ("start_density", "start_density_decades"):
         if key in table:
             raise InputError(f"'{table.key(key)}' applies only to prior = 'phase'")
+
+    def fraction(key: str, default: float) -> float:
+        if key not in table:
+            return default
+        return POTENTIAL_FRACTION.check(table.raw(key), table.key(key))
+
     return BounceFractionPrior(
-        table.number("fraction_min", 1e-13, minimum=0.0, maximum=1.0),
-        table.number("fraction_max", 1e-9, minimum=0.0, maximum=1.0),
+        fraction("fraction_min", 1e-13), fraction("fraction_max", 1e-9),
         table.string("fraction_scale", "log", choices=("log", "linear")),
     )

@@ -37,7 +37,6 @@ from typing import Any
 
 from ..plugins import loaded_plugins
 from ._common import add_config_output_arguments, output_dir
-from .efolds import start_density_ceiling
 
 NAME = "compare"
 HELP = "e-fold distributions of several bounce dynamics or shear values side by side"
@@ -147,7 +146,11 @@ def make_figure(results: list[tuple[str, Any]], threshold: float, title: str) ->
 
 def run(args: Any) -> int:
     from ..background.dynamics import DYNAMICS_REGISTRY
-    from ..background.efolds import efolds_distribution, prior_from_config
+    from ..background.efolds import (
+        efolds_distribution,
+        prior_from_config,
+        start_density_ceiling,
+    )
     from ..background.potentials import potential_from_config
     from ..background.setup import (
         BACKGROUND_KEYS,

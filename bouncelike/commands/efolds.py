@@ -152,14 +152,6 @@ def dynamics_lines(description: dict[str, Any], width: int = 96) -> list[str]:
     return lines
 
 
-def start_density_ceiling(dynamics: Any) -> float | None:
-    """The critical density the contracting branch must start below (the effective one of a
-    dynamics that rescales it)."""
-    rho_c = getattr(dynamics, "effective_critical_density",
-                    getattr(dynamics, "critical_density", None))
-    return float(rho_c) if rho_c is not None else None
-
-
 def warm_up(dynamics: Any, potential: Any, prior: Any) -> None:
     """Compile (or load the compiled kernels of) ``dynamics`` before any worker process is
     forked: one very short run from a datum of ``prior`` (valid for every dynamics that
@@ -207,7 +199,7 @@ def make_figure(dist: Any, title: str) -> Any:
 
 
 def run(args: Any) -> int:
-    from ..background.efolds import efolds_distribution
+    from ..background.efolds import efolds_distribution, start_density_ceiling
     from ..background.setup import background_from_config
     from ..config import load_run_config
     from ..io import (

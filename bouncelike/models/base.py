@@ -84,7 +84,10 @@ class ForwardModel:
         if self.config_section is None:
             raise InputError(f"model '{self.name}' cannot be evaluated from a configuration")
         table = config.table(self.config_section, self.parameter_names, required=True)
-        values = read_parameters(table, self.parameters, present_only=True)
+        optional = set(self.optional_parameter_names)
+        values = read_parameters(table, [p for p in self.parameters if p.name not in optional])
+        values.update(read_parameters(table, [p for p in self.parameters if p.name in optional],
+                                      present_only=True))
         self.check_prior(values)
         return evaluate_at(self, values, self.config_section)
 

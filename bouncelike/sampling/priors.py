@@ -472,8 +472,15 @@ def _compute_efolds(t: Table, dist_fn: Any) -> np.ndarray:
                                   "mass": t.positive("mass", 1.21e-6)},
                     "background": background}, "", ("potential", "background"))
     setup = setup_mod.background_from_config(config)
-    phase = efolds_mod.PhasePrior(START_DENSITY.read(t), START_DENSITY_DECADES.read(t))
+    ceiling = efolds_mod.start_density_ceiling(setup.dynamics)
+    phase = efolds_mod.PhasePrior(
+        START_DENSITY.read(t, upper=ceiling, reason="the contracting branch starts below the "
+                           f"critical density rho_c = {ceiling:.5g}"),
+        START_DENSITY_DECADES.read(t))
+    # at most 1e5 backgrounds (~1 ms each on the compiled engine): a kernel density estimate
+    # of the e-folds converges long before
     result = dist_fn(setup.dynamics, setup.potential, phase,
-                     t.integer("n_samples", 200, minimum=10), t.integer("seed", 0, minimum=0),
+                     t.integer("n_samples", 200, minimum=10, maximum=10**5),
+                     t.integer("seed", 0, minimum=0),
                      settings=setup.settings, convergence_samples=0)
     return np.asarray(result.usable(), dtype=float)
