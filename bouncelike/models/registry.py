@@ -26,7 +26,7 @@ from __future__ import annotations
 from typing import Any
 
 from ..config import Table
-from ..errors import InputError
+from ..errors import InputError, NumericalFailure
 from ..sampling.bounce_physical import PhysicalBounceDeformedAlgebra, PhysicalBounceDressedMetric
 from .base import ForwardModel
 from .bounce_transfer import BounceDeformedAlgebra, BounceDressedMetric
@@ -48,7 +48,27 @@ class BounceModel(ForwardModel):
     def from_config(self, config: Table) -> Any:
         from ..perturbations.forward import bounce_spectra_from_config
 
-        return bounce_spectra_from_config(config)
+        try:
+            return bounce_spectra_from_config(config)
+        except NumericalFailure as exc:
+            raise InputError(f"model 'bounce' cannot be evaluated at "
+                             f"{configured_values(config)}: {exc}") from None
+
+
+def configured_values(config: Table) -> str:
+    """The physical inputs of a bounce configuration as ``key = value`` text (for messages)."""
+    items = []
+    for section, sub in (("potential", None), ("background", "bounce"),
+                         ("background", "contracting"), ("background", "classical"),
+                         ("reheating", None)):
+        table = config.raw(section, {}) or {}
+        if sub is not None:
+            table = table.get(sub, {}) if isinstance(table, dict) else {}
+        where = f"{section}.{sub}" if sub else section
+        if isinstance(table, dict):
+            items += [f"{where}.{k} = {v:g}" if isinstance(v, float) else f"{where}.{k} = {v}"
+                      for k, v in table.items() if not isinstance(v, dict)]
+    return ", ".join(items) or "the defaults"
 
 
 #: every forward model by its name
