@@ -146,15 +146,19 @@ class Decomposition:
 
 
 def decompose(tab, x: np.ndarray, field_: str, prescription: str = "dressed_metric",
-              state: str = "remote_past", match_efolds: float = MATCH_EFOLDS) -> Decomposition:
-    """Integrate the modes x k_LQC exactly and split them as in the module docstring."""
+              state: str = "remote_past", match_efolds: float = MATCH_EFOLDS,
+              solver_options: dict | None = None) -> Decomposition:
+    """Integrate the modes x k_LQC exactly and split them as in the module docstring.
+
+    ``solver_options``: keyword arguments of the ModeSolver (step, ...).
+    """
     from .modes import ModeSolver
     from .prescriptions import mode_system
     from .states import make_state
 
     x = np.asarray(x, dtype=float)
     k = x * tab.k_lqc
-    sol = ModeSolver(mode_system(tab, field_, prescription))
+    sol = ModeSolver(mode_system(tab, field_, prescription), **(solver_options or {}))
     ib = tab.bounce_index()
     after = np.nonzero(tab.ln_a[ib:] - tab.ln_a[ib] >= match_efolds)[0]
     if not len(after):
