@@ -5,7 +5,8 @@
 =====================  ==========================================================================
 prescription           "dressed_metric" (default) | "deformed_algebra"
 state                  "remote_past" (default) | "bounce_adiabatic4"
-sign_convention        "published" (default, s = -1) | "classical" (s = sign(phidot H))
+sign_convention        "classical" (default, s = sign(phidot H)) | "fixed_slow_roll" (s held at
+                       its slow-roll value: the printed s = -1); see prescriptions.py
 k_min, k_max           feature range in units of k_LQC (default 0.01, 100)
 k_count                wavenumbers over [k_min, k_max] (default 120); 40 more cover the
                        observable window 1e-5-1 Mpc^-1 when it lies outside that range
@@ -47,7 +48,7 @@ from ..config import Table
 from ..errors import InputError
 from .background import BackgroundTable, integrate_background
 from .mapping import ScaleMap, liddle_leach_n_star, scale_map
-from .prescriptions import PRESCRIPTIONS, SIGN_CONVENTIONS
+from .prescriptions import DEFAULT_SIGN_CONVENTION, PRESCRIPTIONS, SIGN_CONVENTIONS
 from .spectra import BounceSpectrum, bounce_spectra
 from .states import STATES, Bogoliubov
 
@@ -63,7 +64,7 @@ MAX_GROWTH_EXPONENT = 600.0
 class PerturbationOptions:
     prescription: str = "dressed_metric"
     state: str = "remote_past"
-    sign_convention: str = "published"
+    sign_convention: str = DEFAULT_SIGN_CONVENTION
     k_min: float = 0.01
     k_max: float = 100.0
     k_count: int = 120
@@ -276,7 +277,7 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
     scal[through], tens[through] = sp.scalar, sp.tensor
     if opts.prescription == "dressed_metric":
         # show what the sign ambiguity of the regular potential does (physics notes s.4)
-        other = "classical" if opts.sign_convention == "published" else "published"
+        other = next(c for c in SIGN_CONVENTIONS if c != opts.sign_convention)
         from .modes import ModeSolver
         from .prescriptions import mode_system
         from .states import make_state

@@ -147,18 +147,22 @@ class Decomposition:
 
 def decompose(tab, x: np.ndarray, field_: str, prescription: str = "dressed_metric",
               state: str = "remote_past", match_efolds: float = MATCH_EFOLDS,
+              sign_convention: str | None = None,
               solver_options: dict | None = None) -> Decomposition:
     """Integrate the modes x k_LQC exactly and split them as in the module docstring.
 
-    ``solver_options``: keyword arguments of the ModeSolver (step, ...).
+    ``sign_convention``: of the dressed-metric scalar potential (None: the default of
+    prescriptions.py); ``solver_options``: keyword arguments of the ModeSolver (step, ...).
     """
     from .modes import ModeSolver
-    from .prescriptions import mode_system
+    from .prescriptions import DEFAULT_SIGN_CONVENTION, mode_system
     from .states import make_state
 
     x = np.asarray(x, dtype=float)
     k = x * tab.k_lqc
-    sol = ModeSolver(mode_system(tab, field_, prescription), **(solver_options or {}))
+    sol = ModeSolver(mode_system(tab, field_, prescription,
+                                 sign_convention or DEFAULT_SIGN_CONVENTION),
+                     **(solver_options or {}))
     ib = tab.bounce_index()
     after = np.nonzero(tab.ln_a[ib:] - tab.ln_a[ib] >= match_efolds)[0]
     if not len(after):
@@ -229,6 +233,7 @@ class TransferTable:
     tilt0: dict | None = None          # field -> (nD,) tilt of the calibration rows
     tilt_coef: dict | None = None      # field -> (nbasis, nx): theta correction per basis term
     tilt_range: dict | None = None     # field -> (lo, hi) tilts of the calibration backgrounds
+    sign_convention: str = "fixed_slow_roll"  # dressed-metric scalar potential it was built with
 
     @property
     def d_range(self) -> tuple[float, float]:
@@ -335,7 +340,7 @@ class TransferTable:
     def save(self, path: Path) -> None:
         np.savez_compressed(
             path, x=self.x, d_grid=self.d_grid, growth=self.growth_per_x,
-            meta=np.array([self.prescription, self.state]),
+            meta=np.array([self.prescription, self.state, self.sign_convention]),
             **{f"{q}_{f}": getattr(self, q)[f] for q in ("ln_alpha", "ln_rho", "theta")
                for f in FIELDS},
             **({} if self.tilt_coef is None else {
@@ -405,8 +410,13 @@ def build_transfer(prescription: str = "dressed_metric", state: str = "remote_pa
 
         tab = quadratic_bounce(CALIBRATION_MASSES[0], CALIBRATION_PHI_B)
         growth = euclidean_growth_rate(tab) * tab.k_lqc
+    from .prescriptions import DEFAULT_SIGN_CONVENTION
+
     return TransferTable(prescription, state, X_GRID.copy(), d_grid, ln_alpha, ln_rho, theta,
-                         growth, *((tilt0, tilt_coef, tilt_range) if tilt_coef else ()))
+                         growth, *((tilt0, tilt_coef, tilt_range) if tilt_coef else
+                                   (None, None, None)),
+                         "classical" if prescription == "deformed_algebra"
+                         else DEFAULT_SIGN_CONVENTION)
 
 
 @functools.lru_cache(maxsize=4)
@@ -417,14 +427,17 @@ def load_transfer(prescription: str = "dressed_metric",
     if path.is_file():
         d = np.load(path)
         if "d_grid" in d:
+            # tables written before the sign convention was recorded used "fixed_slow_roll"
+            meta = [str(v) for v in d["meta"]]
+            tilt = (({f: d[f"tilt0_{f}"] for f in FIELDS},
+                     {f: d[f"tilt_coef_{f}"] for f in FIELDS},
+                     {f: tuple(d[f"tilt_range_{f}"]) for f in FIELDS})
+                    if "tilt_coef_scalar" in d else (None, None, None))
             return TransferTable(prescription, state, d["x"], d["d_grid"],
                                  {f: d[f"ln_alpha_{f}"] for f in FIELDS},
                                  {f: d[f"ln_rho_{f}"] for f in FIELDS},
                                  {f: d[f"theta_{f}"] for f in FIELDS}, float(d["growth"]),
-                                 *(({f: d[f"tilt0_{f}"] for f in FIELDS},
-                                    {f: d[f"tilt_coef_{f}"] for f in FIELDS},
-                                    {f: tuple(d[f"tilt_range_{f}"]) for f in FIELDS})
-                                   if "tilt_coef_scalar" in d else ()))
+                                 *tilt, meta[2] if len(meta) > 2 else "fixed_slow_roll")
     return build_transfer(prescription, state)
 
 
@@ -596,7 +609,8 @@ def certificate(n_backgrounds: int = 3, n_x: int = 40, seed: int = 0,
         exact, tilts = {}, {}
         try:
             for f in FIELDS:
-                dec = decompose(tab, x, f, prescription, state)
+                dec = decompose(tab, x, f, prescription, state,
+                                sign_convention=tab_c.sign_convention)
                 exact[f] = dec
                 tilts[f] = _tilt(x, dec.ln_standard)
         except NumericalFailure as exc:
