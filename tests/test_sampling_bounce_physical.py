@@ -26,6 +26,13 @@ from bouncelike.sampling.driver import (  # noqa: E402
 from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior, prior_from_text  # noqa: E402
 from bouncelike.spectra.summary import summarize  # noqa: E402
 
+
+@pytest.fixture(autouse=True)
+def _work_in_tmp(tmp_path, monkeypatch):
+    """Runs write below the working folder (sampling.chains_dir is relative to it)."""
+    monkeypatch.chdir(tmp_path)
+
+
 RHO_C = 0.40937  # gamma = 0.2375 (physics notes, section 0)
 # our own scenario: a bounce whose scale falls ~1.5 decades below the observable window, where
 # the cached transfer is certified
@@ -141,8 +148,7 @@ def test_phase_prior_drives_the_inflationary_efolds(model):
     assert d["N_B_star"] > 60 and d["certified"] == 1.0  # bounce far below the window
 
 
-def test_sample_and_report_end_to_end(tmp_path, capsys, monkeypatch):
-    monkeypatch.chdir(tmp_path)  # chains_dir is relative to the working folder
+def test_sample_and_report_end_to_end(tmp_path, capsys):
     cfg = tmp_path / "physical.toml"
     cfg.write_text(
         '[likelihood]\nsets = ["planck2018_base", "bk18"]\n\n[sampling]\n'
@@ -183,9 +189,7 @@ def test_sample_and_report_end_to_end(tmp_path, capsys, monkeypatch):
                          "role = \"fixed\"\nvalue = 0.0\n\n[parameters.critical_density]"),
      "needs [parameters.N_star], or both"),
 ])
-def test_bad_physical_priors_exit_2_and_write_nothing(tmp_path, capsys, monkeypatch, edit,
-                                                     message):
-    monkeypatch.chdir(tmp_path)
+def test_bad_physical_priors_exit_2_and_write_nothing(tmp_path, capsys, edit, message):
     text = edit((SHIPPED_PRIORS / "bounce_dressed_metric_physical.toml").read_text())
     (tmp_path / "prior.toml").write_text(text)
     cfg = tmp_path / "bad.toml"

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 from pathlib import Path
 
 import numpy as np
@@ -16,6 +17,13 @@ from bouncelike.cli import main  # noqa: E402
 from bouncelike.models.registry import forward_model  # noqa: E402
 from bouncelike.sampling import verdicts as V  # noqa: E402
 from bouncelike.sampling.priors import ParameterPrior, Prior  # noqa: E402
+
+
+@pytest.fixture(autouse=True)
+def _work_in_tmp(tmp_path, monkeypatch):
+    """Runs write below the working folder (sampling.chains_dir is relative to it)."""
+    monkeypatch.chdir(tmp_path)
+
 
 PRIOR_PL = """
 [prior]
@@ -60,12 +68,11 @@ def _write_run(tmp: Path, name: str, prior: str, sets: list[str], walkers: int, 
     return cfg
 
 
-def test_power_law_posterior_reproduces_planck_2018(tmp_path, capsys, monkeypatch):
+def test_power_law_posterior_reproduces_planck_2018(tmp_path, capsys):
     # Planck 2018 VI (arXiv:1807.06209), TT,TE,EE+lowE+lensing, k_* = 0.05 Mpc^-1:
     # ln(1e10 A_s) = 3.044 +- 0.014, n_s = 0.9649 +- 0.0042. The posterior of a power law
     # scored against that set alone (flat priors) must return the inputs (the likelihood's
     # own consistency) within 0.1 sigma.
-    monkeypatch.chdir(tmp_path)  # chains_dir is relative to the working folder
     cfg = _write_run(tmp_path, "pl", PRIOR_PL, ["planck2018_base"], 32, 6000, 7)
     assert main(["sample", str(cfg), "--quiet", "--json"]) == 0
     summary = json.loads(capsys.readouterr().out)
@@ -84,9 +91,12 @@ def quadratic_report(tmp_path_factory):
     cfg = _write_run(tmp, "quad", "quadratic_slow_roll", ["planck2018_base", "bk18"], 16, 1200,
                      3, '\n[report]\ngrid = 8\nprior_draws = 100\nrescore_samples = 40\n'
                      'band_samples = 40\nevidence_draws = 400\n')
-    with pytest.MonkeyPatch.context() as mp:
-        mp.chdir(tmp)  # chains_dir is relative to the working folder
+    here = os.getcwd()
+    os.chdir(tmp)  # the run goes below the working folder
+    try:
         assert main(["sample", str(cfg), "--quiet"]) == 0
+    finally:
+        os.chdir(here)
     run = tmp / "chains" / "quad"
     return run
 
@@ -133,8 +143,7 @@ def test_savage_dickey_and_evidence_against_analytic():
                                        abs=max(0.03, 4 * ev["ln_Z_error"]))
 
 
-def test_cli_resume_and_changed_configuration(tmp_path, capsys, monkeypatch):
-    monkeypatch.chdir(tmp_path)
+def test_cli_resume_and_changed_configuration(tmp_path, capsys):
     cfg = _write_run(tmp_path, "res", PRIOR_PL, ["planck2018_base"], 8, 300, 4)
     cfg.write_text(cfg.read_text().replace("max_steps = 300", "max_steps = 200"))
     assert main(["sample", str(cfg), "--quiet"]) == 0
@@ -159,7 +168,7 @@ def test_cli_resume_and_changed_configuration(tmp_path, capsys, monkeypatch):
     assert (run / "chain.csv").read_bytes() == before
 
 
-def test_bounce_dressed_metric_model_and_short_run(tmp_path, capsys, monkeypatch):
+def test_bounce_dressed_metric_model_and_short_run(tmp_path, capsys):
     pytest.importorskip("bouncelike.perturbations.transfer",
                         reason="bounce transfer model not built")
     m = forward_model("bounce_dressed_metric")
@@ -171,7 +180,6 @@ def test_bounce_dressed_metric_model_and_short_run(tmp_path, capsys, monkeypatch
     p2 = dict(p, log10_k_lqc=p["log10_k_lqc"] - 2.0)
     assert m.derived(p2)["N_B_star"] - m.derived(p)["N_B_star"] == pytest.approx(
         2 * math.log(10.0))
-    monkeypatch.chdir(tmp_path)
     cfg = _write_run(tmp_path, "bounce", "bounce_dressed_metric", ["planck2018_base", "bk18"],
                      12, 150, 9, '\n[report]\ngrid = 6\nprior_draws = 50\nrescore_samples = 20\n'
                      'band_samples = 20\nevidence_draws = 200\n'
