@@ -106,13 +106,20 @@ CAP_EXPONENT = 600.0
 UV_ANCHOR = 30.0  # deformed algebra: above this x the WKB growth carries T (see _smooth)
 
 
-def quadratic_bounce(mass: float, phi_b: float, past_density: float = 1e-11):
-    """Bounce background of V = m^2 phi^2/2 with phi = phi_B at the bounce (phidot > 0)."""
+def quadratic_bounce(mass: float, phi_b: float, past_density: float | None = None):
+    """Bounce background of V = m^2 phi^2/2 with phi = phi_B at the bounce (phidot > 0).
+
+    The contracting branch reaches ``past_density`` (default: far enough for the remote-past
+    state of every x >= X_GRID[0], :func:`.states.remote_past_density`).
+    """
     from ..background.potentials import Quadratic
     from ..units import critical_density
     from .background import integrate_background
+    from .states import remote_past_density
 
     rc = critical_density()
+    if past_density is None:
+        past_density = remote_past_density(float(X_GRID[0]), rc)
     pot = Quadratic(mass=mass)
     return integrate_background(pot, rc, phi_b, math.sqrt(2 * (rc - float(pot.V(phi_b)))),
                                 past_density=past_density)
