@@ -46,7 +46,8 @@ def test_forward_model_covers_window_and_notes_bounce_scale(presc):
     assert np.all(np.isfinite(run.spectrum.scalar)) and np.all(run.spectrum.tensor > 0)
     j = np.argmin(np.abs(run.k_mpc - 0.05))
     if presc == "dressed_metric":
-        assert any(n.startswith("sign convention: 'classical'") for n in run.notes)
+        assert any(n.startswith("sign convention: 'fixed_slow_roll' instead of 'classical'")
+                   for n in run.notes)
     if presc == "deformed_algebra":
         # UV growth: k_* ~ 23 k_LQC here, far above the dressed-metric (standard) value
         dm = run_bounce(tab, PerturbationOptions(k_count=24), n_star=55.0)
