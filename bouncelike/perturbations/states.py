@@ -2,8 +2,8 @@
 
 * ``remote_past`` -- second-order adiabatic (Minkowski-like) vacuum set, for each k, at the
   latest node before the bounce where the mode is adiabatic to ``REMOTE_PAST_TOLERANCE``:
-  eps = (background rate)/W <= 0.05, W^2 = k^2 Omega - z''/z (the rate is the step-control
-  rate a omega_bg of the mode's form; eps is reported per mode as ``start_adiabaticity``).
+  eps = rate/W <= 0.05, W^2 = k^2 Omega - z''/z, rate^2 = (background rate)^2 + (W'/W)^2 +
+  |W''/W| (:func:`adiabaticity`; reported per mode as ``start_adiabaticity``).
   In the contracting branch of these backgrounds that point lies in the kinetic era (eps ~
   2 aH/k falls into the past as a^-2 there). Earlier, the contracting branch leaves the kinetic
   era (a few e-folds of potential-dominated contraction where |aH| grows into the past, then
@@ -62,15 +62,16 @@ ADIABATIC4_CRITERION = 0.25
 
 
 def adiabaticity(solver, k: float) -> np.ndarray:
-    """eps = rate/W per node, each node in its own form (inf where W^2 <= 0)."""
-    eps = np.full(len(solver.t), np.inf)
-    for f, F in enumerate(solver.system.forms):
-        m = solver.form_of_node == f
-        w2 = (k * k * F.omega_eff - F.zz)[m]
-        rate = solver.a[m] * np.sqrt(F.wbg2[m])
-        with np.errstate(invalid="ignore", divide="ignore"):
-            eps[m] = np.where(np.isfinite(w2) & (w2 > 0), rate / np.sqrt(np.abs(w2)), np.inf)
-    return eps
+    """eps = rate/W per node (inf where W^2 <= 0): the solver's adiabaticity test.
+
+    rate^2 = a^2 omega_bg^2 + (W'/W)^2 + |W''/W| (:meth:`.modes.ModeSolver.adiabatic_rate2`):
+    eps bounds the background rate over W, |W'|/W^2 and sqrt(|W''|/W^3) together, which also
+    sees the turning points Omega = 0 of the deformed algebra.
+    """
+    rate2, w2 = solver.adiabatic_rate2(k)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ok = np.isfinite(w2) & np.isfinite(rate2) & (w2 > 0)
+        return np.where(ok, np.sqrt(np.abs(rate2 / np.where(ok, w2, 1.0))), np.inf)
 
 
 def remote_past_density(x_min: float, critical_density: float,
@@ -90,6 +91,9 @@ def remote_past_density(x_min: float, critical_density: float,
 def remote_past(solver, k: float, tolerance: float = REMOTE_PAST_TOLERANCE):
     tab = solver.system.table
     if tab.has_bounce:
+        if tab.bounce_index() == 0:
+            raise NumericalFailure("the remote-past state needs the contracting branch in the "
+                                   "background table (this one starts at the bounce)")
         eps = adiabaticity(solver, k)[:tab.bounce_index()]
         ok = np.nonzero(eps <= tolerance)[0]
         i0 = int(ok[-1]) if len(ok) else int(np.argmin(eps))

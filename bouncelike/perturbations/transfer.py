@@ -44,11 +44,19 @@ ln|alpha|, ln rho and theta on X_GRID (401 points over 0.01-100) x the D of nine
 backgrounds (phi_B = 1.2, masses 4.5e-7-6.5e-6: D = 3.1e3-1.7e4), interpolated linearly in
 (ln x, ln D), and for the dressed metric the tilt correction above. Rebuild it with
 ``python3 -m bouncelike.perturbations.transfer`` (~1 min per dressed-metric table, ~20 s for
-the deformed algebra, on one core). The remote-past state is the one set at the forward
-model's default
-past_density = 1e-11: for x below ~0.05 the spectrum depends on where that state is set once
-the contracting branch there is no longer kinetic (measured: scalar T(0.01) = 47 at 1e-11 and
-1.9e3 at 1e-13), so the cache does not apply to other past densities.
+the deformed algebra, on one core). The remote-past state is set per mode where
+rate/W <= 0.05 (:mod:`.states`; the calibration backgrounds reach down to
+:func:`.states.remote_past_density` of x = 0.01, ~1.2e-12 Planck units): every calibration and
+certificate background reaches that tolerance for x >= 0.01 within its kinetic contracting era
+(measured minimum rate/W at x = 0.01: 0.007-0.048 for masses 4.5e-7-6.5e-6), and the spectra
+do not depend on how far back the table starts (1e-11, 1e-13, 1e-15 agree to 2e-6 in ln T;
+before, the state sat at the table's first node and T(0.01) went from 47 to 1.9e3). The
+state is the adiabatic vacuum of the kinetic contracting era: its infrared is universal
+(period-averaged T at 0.01 k_LQC 23.996 for m = 1.2e-6 and 23.997 for 4e-6); the earlier
+contracting history (a potential-dominated contraction and field oscillations further back,
+where modes below ~k_LQC are not adiabatic) is not part of it. Certified in x >= 0.01 for
+masses up to 6.5e-6 (the minimum rate/W grows ~m^(2/3)/x: for heavier fields or x < 0.01 the
+forward model notes modes that do not reach the tolerance).
 
 Measured accuracy (``bouncelike transfer-check --backgrounds 6 --seed 11``, max relative error
 at 360 random points; pointwise / of the period-averaged T):
