@@ -49,10 +49,12 @@ def build_parser() -> argparse.ArgumentParser:
     for mod in _command_modules():
         p = sub.add_parser(mod.NAME, help=mod.HELP, description=mod.HELP)
         mod.add_arguments(p)
+        p.add_argument("--plugin", action="append", default=[], metavar="FILE.py",
+                       help="run this Python file first (it may register user potentials "
+                       "with bouncelike.background.potentials.register_potential); named in "
+                       "the provenance of the outputs; repeatable")
         p.set_defaults(_run=mod.run)
     return parser
-
-
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -62,6 +64,10 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return EXIT_INPUT_ERROR
     try:
+        from .plugins import load_plugin
+
+        for plugin in getattr(args, "plugin", []):
+            load_plugin(plugin)
         return int(args._run(args) or 0)
     except InputError as exc:
         print(f"bouncelike: error: {exc}", file=sys.stderr)

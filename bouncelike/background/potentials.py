@@ -5,7 +5,7 @@ units (G = c = hbar = 1, non-reduced Planck mass m_Pl = 1; the reduced Planck ma
 M_Pl = 1/sqrt(8 pi), :data:`bouncelike.units.REDUCED_PLANCK_MASS`), a ``name`` and a
 ``parameters`` dict. Built-in potentials also carry a ``kernel`` code and a parameter vector
 read by the compiled integrator (:mod:`bouncelike.background.kernels`); a user potential
-(``custom``) has neither and is integrated by the slower pure-Python path.
+(:func:`register_potential`) has neither and is integrated by the slower pure-Python path.
 
 Registry (``[potential] name = ...``):
 
@@ -19,10 +19,13 @@ Registry (``[potential] name = ...``):
 ``monomial``    V = lambda |phi|^p (the "flattened" family p = 2/3, 1, 4/3, and any p > 0); keys
                 ``amplitude`` (lambda, Planck units), ``power`` (p), ``smoothing``.
 ``linear``      V = lambda |phi| (the p = 1 member, by its slope); keys ``slope``, ``smoothing``.
-``custom``      a user object: key ``object`` = "package.module:attribute" naming an object with
-                methods V, dV, d2V on arrays (imported, never evaluated from a string); if the
-                attribute is a factory without V, the optional sub-table ``[potential.arguments]``
-                is passed to it as keyword arguments.
+
+User potentials. A configuration file is data: it can never name code to import or run. A user
+potential is registered from Python, by code the user chose to run, with
+:func:`register_potential` (directly in a script, or in a plugin file given on the command
+line with ``--plugin FILE.py``, see :mod:`bouncelike.plugins`); a configuration then selects it
+by its registered name and gives its numeric parameters. Registered potentials have no
+compiled kernel and are integrated by the slower pure-Python path.
 
 Smoothing at phi = 0. For p < 2, |phi|^p has a divergent V'' (and for p < 1 a divergent V') at
 phi = 0, and in the contracting branch the field oscillates through 0 many times. The monomial
@@ -36,8 +39,8 @@ the field amplitude at the starting density of the contracting branch,
 
 from __future__ import annotations
 
-import importlib
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any, ClassVar
 
@@ -223,29 +226,31 @@ class Linear(Monomial):
 
 @dataclass(frozen=True)
 class CustomPotential:
-    """A user object with V, dV, d2V, imported from ``object`` = "package.module:attribute".
+    """A user object with V, dV, d2V, registered under ``name`` by :func:`register_potential`.
 
     The contracting-branch start assumes the minimum V = 0 sits at phi = 0 and that V grows
     monotonically on each side (the field value for a given V is found by bisection).
+    ``origin`` says where the code came from (a plugin file and its SHA-256, or the Python
+    object that registered it); it is part of :attr:`parameters` and so of every output's
+    provenance.
     """
 
     target: Any
-    path: str = ""
-    name: ClassVar[str] = "custom"
-    PARAMETERS: ClassVar[tuple[str, ...]] = ("object", "arguments")
+    name: str = "custom"
+    values: tuple[tuple[str, float], ...] = ()
+    origin: str = ""
 
     def __post_init__(self) -> None:
         for method in ("V", "dV", "d2V"):
             if not callable(getattr(self.target, method, None)):
                 raise InputError(
-                    f"'potential.object' = '{self.path}' has no callable '{method}'; "
+                    f"registered potential '{self.name}' has no callable '{method}'; "
                     "allowed: an object with methods V, dV, d2V"
                 )
 
     @property
     def parameters(self) -> dict[str, Any]:
-        extra = getattr(self.target, "parameters", {})
-        return {"object": self.path, **(dict(extra) if isinstance(extra, dict) else {})}
+        return {**dict(self.values), "registered_by": self.origin}
 
     @property
     def kernel(self) -> tuple[int, np.ndarray]:
@@ -262,6 +267,63 @@ class CustomPotential:
 
     def field_at(self, value: float, sign: float) -> float:
         return invert_potential(self, value, sign)
+
+
+@dataclass(frozen=True)
+class RegisteredPotential:
+    """A user potential registered from Python: ``factory(**parameters)`` -> object with V,
+    dV, d2V on arrays (Planck units). ``parameters`` maps each numeric parameter name to its
+    allowed range (lower, upper), either end None for unbounded; ``origin`` names the code."""
+
+    name: str
+    factory: Callable[..., Any]
+    parameters: tuple[tuple[str, tuple[float | None, float | None]], ...]
+    origin: str
+
+    def build(self, table: Table) -> CustomPotential:
+        values = []
+        for key, (lo, hi) in self.parameters:
+            values.append((key, table.number(key, minimum=lo, maximum=hi)))
+        try:
+            target = self.factory(**dict(values))
+        except (TypeError, ValueError, ArithmeticError) as exc:
+            raise InputError(f"potential '{self.name}' ({self.origin}) rejected its "
+                             f"parameters: {exc}") from None
+        return CustomPotential(target, self.name, tuple(values), self.origin)
+
+
+#: user potentials registered from Python (never from a configuration)
+REGISTERED: dict[str, RegisteredPotential] = {}
+#: set by :func:`bouncelike.plugins.load_plugin` while a plugin file runs (its path and hash)
+REGISTRATION_ORIGIN: str | None = None
+
+
+def register_potential(name: str, factory: Callable[..., Any],
+                       parameters: dict[str, tuple[float | None, float | None]] | None = None,
+                       origin: str | None = None) -> None:
+    """Make a user potential selectable by ``[potential] name = "<name>"``.
+
+    ``factory(**values)`` must return an object with methods ``V``, ``dV``, ``d2V`` on arrays
+    (Planck units, m_Pl = 1); ``parameters`` declares its numeric parameters and their allowed
+    ranges, ``{"scale": (0.0, None)}``: a configuration gives exactly these keys, as numbers.
+    Call it from your own script, or from a plugin file passed with ``--plugin FILE.py``.
+    """
+    if not isinstance(name, str) or not name.isidentifier():
+        raise ValueError(f"potential name {name!r} must be an identifier")
+    if name in POTENTIALS:
+        raise ValueError(f"potential name '{name}' is built in; choose another name")
+    if not callable(factory):
+        raise ValueError("factory must be callable: factory(**parameters) -> object with V, "
+                         "dV, d2V")
+    declared = tuple((str(k), (None if lo is None else float(lo), None if hi is None else
+                               float(hi))) for k, (lo, hi) in (parameters or {}).items())
+    if "name" in dict(declared):
+        raise ValueError("'name' cannot be a parameter of a potential")
+    if origin is None:
+        origin = REGISTRATION_ORIGIN
+    if origin is None:
+        origin = f"{getattr(factory, '__module__', '?')}.{getattr(factory, '__qualname__', '?')}"
+    REGISTERED[name] = RegisteredPotential(name, factory, declared, origin)
 
 
 def invert_potential(potential: Any, value: float, sign: float) -> float:
@@ -291,30 +353,11 @@ def invert_potential(potential: Any, value: float, sign: float) -> float:
     return direction * 0.5 * (lo + hi)
 
 
-def import_object(path: str, key: str = "potential.object") -> Any:
-    """Import ``"package.module:attribute"`` (dotted attribute allowed); never evaluates code."""
-    if not isinstance(path, str) or path.count(":") != 1:
-        raise InputError(f"'{key}' = {path!r} must look like 'package.module:attribute'")
-    module_name, attr = path.split(":")
-    if not module_name or not attr:
-        raise InputError(f"'{key}' = {path!r} must look like 'package.module:attribute'")
-    try:
-        obj: Any = importlib.import_module(module_name)
-    except ImportError as exc:
-        raise InputError(f"'{key}': cannot import module '{module_name}' ({exc})") from None
-    for part in attr.split("."):
-        if not part.isidentifier() or not hasattr(obj, part):
-            raise InputError(f"'{key}': module '{module_name}' has no attribute '{attr}'")
-        obj = getattr(obj, part)
-    return obj
-
-
 POTENTIALS: dict[str, type] = {
     "quadratic": Quadratic,
     "starobinsky": Starobinsky,
     "monomial": Monomial,
     "linear": Linear,
-    "custom": CustomPotential,
 }
 
 
@@ -338,11 +381,22 @@ def potential_from_config(config: Table) -> Any:
             raise InputError("missing table '[potential]' (keys: name and its parameters)")
         raw = config.data["potential"]
     head = Table(raw, "potential", tuple(raw) if isinstance(raw, dict) else ())
-    name = head.string("name", choices=POTENTIALS) if "name" in head.allowed else None
+    known = {**{k: None for k in POTENTIALS}, **REGISTERED}
+    name = head.string("name") if "name" in head.allowed else None
     if name is None:
-        raise InputError(
-            "missing key 'potential.name'; allowed: " + ", ".join(sorted(POTENTIALS))
-        )
+        raise InputError("missing key 'potential.name'; allowed: " + ", ".join(sorted(known)))
+    if name not in known:
+        hint = ""
+        if name == "custom" or "object" in head.data:
+            hint = ("; a configuration cannot name code to run: register a user potential "
+                    "from Python with bouncelike.background.potentials.register_potential, "
+                    "or in a plugin file given on the command line with --plugin FILE.py")
+        raise InputError(f"'potential.name' = '{name}' is not known; allowed: "
+                         + ", ".join(sorted(known)) + hint)
+    if name in REGISTERED:
+        reg = REGISTERED[name]
+        table = Table(raw, "potential", ("name",) + tuple(k for k, _ in reg.parameters))
+        return reg.build(table)
     cls = POTENTIALS[name]
     table = Table(raw, "potential", ("name",) + cls.PARAMETERS)
     if name == "quadratic":
@@ -356,24 +410,8 @@ def potential_from_config(config: Table) -> Any:
             table.number("smoothing", 1e-10, minimum=0.0, maximum=1e-2,
                          exclusive_minimum=True, exclusive_maximum=True),
         )
-    if name == "linear":
-        return Linear(
-            slope=table.positive("slope"),
-            smoothing=table.number("smoothing", 1e-10, minimum=0.0, maximum=1e-2,
-                                   exclusive_minimum=True, exclusive_maximum=True),
-        )
-    path = table.string("object")
-    target = import_object(path)
-    if isinstance(target, type) or (callable(target) and not callable(getattr(target, "V", None))):
-        arguments = table.raw("arguments", {})
-        if not isinstance(arguments, dict):
-            raise InputError("'potential.arguments' must be a table of keyword arguments")
-        try:
-            target = target(**arguments)
-        except TypeError as exc:
-            raise InputError(f"'potential.arguments' rejected by '{path}': {exc}") from None
-    elif "arguments" in table:
-        raise InputError(
-            f"'potential.arguments' given but '{path}' is not a factory (it already has V)"
-        )
-    return CustomPotential(target, path)
+    return Linear(
+        slope=table.positive("slope"),
+        smoothing=table.number("smoothing", 1e-10, minimum=0.0, maximum=1e-2,
+                               exclusive_minimum=True, exclusive_maximum=True),
+    )

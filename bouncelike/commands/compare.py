@@ -35,6 +35,7 @@ import math
 import time
 from typing import Any
 
+from ..plugins import loaded_plugins
 from ._common import add_config_output_arguments, output_dir
 
 NAME = "compare"
@@ -220,6 +221,7 @@ def run(args: Any) -> int:
         "cases": [{**row, "describe": dyn.describe()}
                   for row, (_, dyn) in zip(rows, cases, strict=True)],
         "files": {k: str(v) for k, v in files.items()},
+        "plugins": loaded_plugins(),
     }
     write_csv_atomic(files["table"], frame, float_format="%.8g")
     save_figure_atomic(fig, files["figure_pdf"])

@@ -32,6 +32,7 @@ import math
 import time
 from typing import Any
 
+from ..plugins import loaded_plugins
 from ._common import add_config_output_arguments, output_dir
 
 NAME = "efolds"
@@ -241,6 +242,7 @@ def run(args: Any) -> int:
     result = dist.as_dict()
     result["elapsed_seconds"] = elapsed
     result["workers"] = int(getattr(pool, "workers", 1))
+    result["plugins"] = loaded_plugins()
     files = {
         "samples": out_dir / "efolds_samples.csv",
         "figure_pdf": out_dir / "efolds.pdf",

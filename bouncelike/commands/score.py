@@ -21,6 +21,7 @@ from ..io import json_safe
 from ..likelihood.gaussian import Score, likelihood_from_config
 from ..likelihood.sets import QUANTITY_LABELS
 from ..models import spectra_from_config
+from ..plugins import loaded_plugins
 
 NAME = "score"
 HELP = "score one configuration against published CMB constraints (table or --json)"
@@ -110,6 +111,7 @@ def run(args: Any) -> int:
     if args.json:
         out = score.as_dict()
         out["config"] = str(path)
+        out["plugins"] = loaded_plugins()
         out["model"] = spectra.describe() if hasattr(spectra, "describe") else {"label": label}
         print(json.dumps(json_safe(out), indent=2))
     else:

@@ -11,6 +11,7 @@ import math
 
 import numpy as np
 
+from ..plugins import loaded_plugins
 from ._common import output_dir
 
 NAME = "spectrum"
@@ -127,7 +128,7 @@ def run(args) -> int:
               "max_wronskian_error": sp.max_wronskian_error,
               "background": br.table.label, **{f"background_{k}": v for k, v in
                                                br.table.info.items()},
-              "notes": list(br.notes),
+              "notes": list(br.notes), "plugins": loaded_plugins(),
               "files": [str(out / n) for n in ("spectrum.csv", "spectrum.pdf", "spectrum.png",
                                                "spectrum.json")]}
     write_csv_atomic(out / "spectrum.csv", frame, index=False)

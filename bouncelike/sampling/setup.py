@@ -15,7 +15,8 @@ The ``[sampling]`` section::
     seed = 1                     # reproducibility: same seed, same chain
     run_name = "my_run"          # default: the configuration file's stem
     chains_dir = "chains"        # run folder = <chains_dir>/<run_name>, relative to the
-                                 # working directory
+                                 # working directory and inside it (no absolute path, no
+                                 # '..'); write elsewhere with --output DIR
     workers = 1                  # local worker processes (MPI ranks under mpiexec)
     progress = true
     require_summary_fit = true   # featured spectra the pivot summary cannot represent get
@@ -74,6 +75,27 @@ def sampler_settings(t: Table) -> SamplerSettings:
         checkpoint_every=checkpoint, seed=t.integer("seed", 0, minimum=0))
 
 
+def chains_folder(value: str, output_given: bool) -> Path:
+    """``sampling.chains_dir``: a folder inside the working directory.
+
+    A configuration travels between collaborators, so its values may not send output anywhere
+    on the machine: the folder must be relative, without '..', and (symbolic links resolved)
+    inside the working directory. Another place is chosen on the command line (``--output``),
+    in which case the configured value is not used.
+    """
+    path = Path(value)
+    if output_given:
+        return path
+    cwd = Path.cwd().resolve()
+    inside = (cwd / path).resolve()
+    if (not value or path.is_absolute() or ".." in path.parts
+            or (inside != cwd and cwd not in inside.parents)):
+        raise InputError(f"'sampling.chains_dir' = '{value}' must be a relative folder inside "
+                         "the working directory (no absolute path, no '..'); to write "
+                         "elsewhere give --output DIR on the command line")
+    return path
+
+
 def likelihood_of(config: Table, base_dir: Path | None) -> Any:
     try:
         from ..likelihood.gaussian import likelihood_from_config
@@ -98,7 +120,7 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
     run_name = t.string("run_name", path.stem)
     if not run_name or "/" in run_name or run_name.startswith("."):
         raise InputError(f"'sampling.run_name' = '{run_name}' must be a plain folder name")
-    chains_dir = Path(t.string("chains_dir", "chains"))
+    chains_dir = chains_folder(t.string("chains_dir", "chains"), output is not None)
     n_workers = t.integer("workers", 1, minimum=1) if workers is None else workers
     show = t.boolean("progress", True) and not quiet
     # the prior file names its model; [sampling] model may restate it
