@@ -84,12 +84,17 @@ LOG10_REHEATING_DENSITY = Parameter(
     why="below the Planck density and above ~1e-88, a reheating temperature above ~1 MeV "
     "before big-bang nucleosynthesis, common practice; also at most the density at the end of "
     "inflation, checked on each background", label=r"\log_{10}\rho_\mathrm{reh}")
+THERMAL_DEGREES_OF_FREEDOM = Parameter(
+    "thermal_degrees_of_freedom", "relativistic degrees of freedom g_th thermalised at the end "
+    "of reheating (the term -(1/12) ln g_th of the N_* relation)", "", 1.0, 1e5,
+    why="106.75, the default, has every Standard Model particle relativistic, Kolb & Turner "
+    "ch. 3; 1e5 covers any extension", label=r"g_\mathrm{th}", default=106.75)
 HUBBLE_CONSTANT = Parameter(
     "hubble_constant", "H_0, for a_0 H_0 in the N_* relation (default: astropy Planck18)",
     "km/s/Mpc", 20.0, 150.0, why="a generous window around every measurement (~67-73)",
     label="H_0")
 
-REHEATING = (N_STAR, EQUATION_OF_STATE, LOG10_REHEATING_DENSITY)
+REHEATING = (N_STAR, EQUATION_OF_STATE, LOG10_REHEATING_DENSITY, THERMAL_DEGREES_OF_FREEDOM)
 
 # -- inflaton potentials ----------------------------------------------------------------------
 

@@ -187,7 +187,7 @@ def test_sample_and_report_end_to_end(tmp_path, capsys):
     # N_* and a reheating equation of state together
     (lambda t: t.replace("[parameters.critical_density]", "[parameters.equation_of_state]\n"
                          "role = \"fixed\"\nvalue = 0.0\n\n[parameters.critical_density]"),
-     "needs [parameters.N_star], or both"),
+     "needs 'N_star', or both"),
 ])
 def test_bad_physical_priors_exit_2_and_write_nothing(tmp_path, capsys, edit, message):
     text = edit((SHIPPED_PRIORS / "bounce_dressed_metric_physical.toml").read_text())

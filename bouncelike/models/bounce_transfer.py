@@ -60,9 +60,8 @@ class BounceSpectraModel:
     ``certified`` (the window 1e-4-0.2 Mpc^-1 lies within the tabulated 0.01-100 k_LQC or
     above it, and D within the calibrated range) and ``x_window_min``. Certified accuracy
     (``bouncelike transfer-check``, dressed metric, remote-past state): <= 0.1% for window
-    points above 0.1 k_LQC, <= 1% pointwise (max 0.45% with --seed 11, 0.9% with --seed 5) in
-    the deepest troughs between 0.01 and 0.1 k_LQC, for tilts within the calibrated range
-    (others are clipped to it).
+    points above 0.1 k_LQC, <= 1% pointwise (max 0.50% with --seed 11) in the deepest troughs
+    between 0.01 and 0.1 k_LQC, for tilts within the calibrated range (others are clipped).
     """
 
     parameter_names = ("ln_1e10_As", "n_s", "r", "log10_k_lqc", "log10_conformal_duration")

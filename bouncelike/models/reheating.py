@@ -3,8 +3,9 @@ prior files.
 
 The e-folds N_* between the exit of the pivot scale and the end of inflation either are given
 (``N_star``) or follow from the reheating history, a mean equation of state w
-(``equation_of_state``) until the density ``10^log10_reheating_density`` (Planck units), through
-the Liddle & Leach relation solved on the background
+(``equation_of_state``) until the density ``10^log10_reheating_density`` (Planck units), where
+``thermal_degrees_of_freedom`` g_th are thermalised (default 106.75), through the Liddle &
+Leach relation solved on the background
 (:func:`bouncelike.perturbations.mapping.liddle_leach_n_star`, the one implementation of it).
 
 The same keys are used by ``[reheating]`` in a run configuration and by the
@@ -14,6 +15,7 @@ The same keys are used by ``[reheating]`` in a run configuration and by the
     N_star = 55.0                       # or, instead:
     # equation_of_state = 0.0           # w in (-1/3, 1]
     # log10_reheating_density = -20.0   # log10 rho_reh (Planck units)
+    # thermal_degrees_of_freedom = 106.75  # g_th (with the history only)
     pivot = 0.05                        # configuration only: k_* in Mpc^-1
     hubble_constant = 67.66             # configuration only: H_0 in km/s/Mpc (default: Planck18)
 """
@@ -35,19 +37,23 @@ from ..quantities import (
     PIVOT,
     PIVOT_SCALE,
     REHEATING,
+    THERMAL_DEGREES_OF_FREEDOM,
 )
 
 #: keys of ``[reheating]`` in a configuration (the prior-file parameters plus the settings)
 CONFIG_KEYS = (*(p.name for p in REHEATING), PIVOT_SCALE.name, HUBBLE_CONSTANT.name)
 _HISTORY = ("equation_of_state", "log10_reheating_density")
+_G_TH = "thermal_degrees_of_freedom"
 
 
 def check_choice(names: Iterable[str], where: str) -> None:
-    """Exactly one reheating choice among ``names``: N_star, or both history keys."""
+    """Exactly one reheating choice among ``names``: N_star, or both history keys (and
+    optionally g_th)."""
     given = [n for n in (p.name for p in REHEATING) if n in set(names)]
-    if given not in (["N_star"], list(_HISTORY)):
+    if given not in (["N_star"], list(_HISTORY), [*_HISTORY, _G_TH]):
         raise InputError(f"{where} needs 'N_star', or both 'equation_of_state' and "
-                         f"'log10_reheating_density'; got {', '.join(given) or 'none'}")
+                         f"'log10_reheating_density' (and optionally '{_G_TH}'); got "
+                         f"{', '.join(given) or 'none'}")
 
 
 @dataclass(frozen=True)
@@ -57,6 +63,7 @@ class Reheating:
     N_star: float | None = None
     equation_of_state: float | None = None
     log10_reheating_density: float | None = None
+    thermal_degrees_of_freedom: float = THERMAL_DEGREES_OF_FREEDOM.default
     pivot: float = PIVOT
     hubble_constant: float | None = None
 
@@ -75,8 +82,9 @@ class Reheating:
         if "N_star" in table:
             return cls(N_star=N_STAR.read(table), pivot=pivot, hubble_constant=hubble)
         return cls(equation_of_state=EQUATION_OF_STATE.read(table),
-                   log10_reheating_density=LOG10_REHEATING_DENSITY.read(table), pivot=pivot,
-                   hubble_constant=hubble)
+                   log10_reheating_density=LOG10_REHEATING_DENSITY.read(table),
+                   thermal_degrees_of_freedom=THERMAL_DEGREES_OF_FREEDOM.read(table),
+                   pivot=pivot, hubble_constant=hubble)
 
     @property
     def given(self) -> bool:
@@ -89,7 +97,7 @@ class Reheating:
             return float(self.N_star)
         return liddle_leach_n_star(tab, self.equation_of_state,
                                    10.0 ** self.log10_reheating_density, self.pivot,
-                                   self.hubble_constant)
+                                   self.hubble_constant, self.thermal_degrees_of_freedom)
 
 
 def reheating_from_config(config: Table) -> Reheating:

@@ -13,7 +13,9 @@ k_count                wavenumbers over [k_min, k_max] (default 120); 40 more co
 bogoliubov_beta        beta_0 of a Bogoliubov rotation (default 0: none)
 bogoliubov_scale       k_beta in units of k_LQC (default 1)
 bogoliubov_phase       theta (radians, default 0)
-past_density           density (Planck units) where the remote-past state is set (default 1e-11)
+past_density           density (Planck units) down to which the contracting branch is integrated
+                       (default: from k_min, states.remote_past_density); each mode's state is
+                       set in it where rate/W <= 0.05 (states.py), not at this density
 freeze                 k/(aH) at which modes are read off (default 1e-3)
 adiabatic_ratio        W / rate above which a stretch is adiabatic (default 40)
 step                   integrator step x frequency (default 0.08)
@@ -22,7 +24,8 @@ switch_density         deformed-algebra scalars: regular variables where rho > t
 
 ``[reheating]`` (:mod:`bouncelike.models.reheating`): ``N_star`` (e-folds from the pivot's exit
 to the end of inflation), or ``equation_of_state`` w and ``log10_reheating_density`` (log10
-rho_reh, Planck units) for the Liddle & Leach estimate; ``pivot`` (Mpc^-1, default 0.05);
+rho_reh, Planck units) for the Liddle & Leach estimate, with ``thermal_degrees_of_freedom``
+g_th (default 106.75, see :mod:`.mapping`); ``pivot`` (Mpc^-1, default 0.05);
 ``hubble_constant`` (km/s/Mpc, default Planck 2018).
 
 Deformed-algebra modes whose Euclidean growth exp(2 k int sqrt(-Omega) d eta) would exceed
@@ -52,7 +55,7 @@ from .background import BackgroundTable, integrate_background
 from .mapping import ScaleMap, liddle_leach_n_star, scale_map
 from .prescriptions import DEFAULT_SIGN_CONVENTION, PRESCRIPTIONS, SIGN_CONVENTIONS
 from .spectra import BounceSpectrum, bounce_spectra
-from .states import STATES, Bogoliubov
+from .states import REMOTE_PAST_TOLERANCE, STATES, Bogoliubov, remote_past_density
 
 PERTURBATION_KEYS = ("prescription", "state", "sign_convention", "k_min", "k_max", "k_count",
                      "bogoliubov_beta", "bogoliubov_scale", "bogoliubov_phase", "past_density",
@@ -72,7 +75,7 @@ class PerturbationOptions:
     bogoliubov_beta: float = 0.0
     bogoliubov_scale: float = 1.0
     bogoliubov_phase: float = 0.0
-    past_density: float = 1e-11
+    past_density: float | None = None
     freeze: float = 1e-3
     adiabatic_ratio: float = 40.0
     step: float = 0.08
@@ -91,7 +94,7 @@ class PerturbationOptions:
             bogoliubov_beta=t.number("bogoliubov_beta", d.bogoliubov_beta, minimum=0.0),
             bogoliubov_scale=t.positive("bogoliubov_scale", d.bogoliubov_scale),
             bogoliubov_phase=t.number("bogoliubov_phase", d.bogoliubov_phase),
-            past_density=t.positive("past_density", d.past_density),
+            past_density=t.positive("past_density", None) if "past_density" in t else None,
             freeze=t.number("freeze", d.freeze, minimum=1e-8, maximum=0.1),
             adiabatic_ratio=t.number("adiabatic_ratio", d.adiabatic_ratio, minimum=5.0),
             step=t.number("step", d.step, minimum=1e-3, maximum=0.5),
@@ -221,7 +224,7 @@ def _beyond_cap(tab: BackgroundTable, potential: Any, opts: PerturbationOptions,
     v0 = -float(potential.dV(phi_x)) / math.sqrt(24 * math.pi * float(potential.V(phi_x)))
     ctab = integrate_background(potential, math.inf, phi_x, v0)
     if n_star is None:
-        n_star = liddle_leach_n_star(ctab, reheating[0], reheating[1], pivot, h0)
+        n_star = liddle_leach_n_star(ctab, *reheating[:2], pivot, h0, *reheating[2:])
     sm_c = scale_map(ctab, n_star, pivot)
     lo, hi, n = WINDOW_GRID
     k_mpc = np.geomspace(lo, hi, n)
@@ -262,7 +265,7 @@ def _beyond_cap(tab: BackgroundTable, potential: Any, opts: PerturbationOptions,
 
 
 def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | None = None,
-               reheating: tuple[float, float] | None = None, pivot: float = 0.05,
+               reheating: tuple[float, ...] | None = None, pivot: float = 0.05,
                h0: float | None = None, potential: Any = None,
                show_progress: bool = False) -> BounceRun:
     """Spectra of one background in bounce units and in Mpc^-1."""
@@ -272,7 +275,7 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
         if reheating is None:
             raise InputError("[reheating] needs N_star, or equation_of_state and "
                              "log10_reheating_density")
-        n_star = liddle_leach_n_star(tab, reheating[0], reheating[1], pivot, h0)
+        n_star = liddle_leach_n_star(tab, *reheating[:2], pivot, h0, *reheating[2:])
     sm = scale_map(tab, n_star, pivot)
     k_lqc = tab.k_lqc
     ln_feat = np.log(np.geomspace(opts.k_min, opts.k_max, opts.k_count) * k_lqc)
@@ -359,9 +362,19 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
     kb = np.exp(np.minimum(ln_kb, 700))
     ad = np.concatenate([sp.scalar_modes.start_adiabaticity, sp.tensor_modes.start_adiabaticity])
     ad = ad[np.isfinite(ad)]
-    if opts.state == "remote_past" and len(ad):
-        notes.append(f"remote-past state set at rho = {opts.past_density:g} (Planck units): "
-                     f"background rate / mode frequency <= {ad.max():.2g} there")
+    if len(ad):
+        tol = REMOTE_PAST_TOLERANCE
+        bad = ad > tol
+        who = ("remote-past state" if opts.state == "remote_past" else
+               f"{len(ad) // 2} modes without a fourth-order adiabatic state at the bounce "
+               "(below ~3.8 k_LQC) take the remote-past state")
+        notes.append(f"{who}: each mode set at the latest time before the bounce "
+                     f"where background rate / mode frequency <= {tol:g} (contracting branch "
+                     f"integrated down to rho = {tab.rho[0]:.2g}, Planck units)"
+                     + (f"; {int(bad.sum())} modes never reach it (rate/frequency down to "
+                        f"{ad[bad].min():.2g} only): their state depends on the contracting "
+                        "history and is not the adiabatic vacuum (uncertified)" if bad.any()
+                        else ""))
     notes.append(f"Wronskian conserved to {sp.max_wronskian_error:.1e} (relative to its "
                  "round-off floor)")
     notes = [sm.bounce_scale_note(), *sp.notes, *notes]
@@ -380,7 +393,8 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
     return BounceRun(tab, spectrum, sm, k_mpc[keep], tuple(notes))
 
 
-def _background(config: Table, past_density: float) -> tuple[BackgroundTable, list[str], Any]:
+def _background(config: Table, past_density: float | None,
+                k_min: float = 0.01) -> tuple[BackgroundTable, list[str], Any]:
     """Bounce state from the background layer's configuration, then our own dense table."""
     from ..background.setup import background_from_config  # lands with the engine
 
@@ -410,6 +424,8 @@ def _background(config: Table, past_density: float) -> tuple[BackgroundTable, li
                                  float(s["phidot"]))
         notes.append(f"bounce state taken from the {traj.dynamics} engine run "
                      f"(status {traj.status})")
+    if past_density is None:
+        past_density = remote_past_density(k_min, rc)
     tab = integrate_background(pot, rc, phi_b, phidot_b, past_density=past_density,
                                max_efolds=3000.0)
     return tab, notes, pot
@@ -428,9 +444,10 @@ def run_from_config(config: Table, show_progress: bool = False) -> BounceRun:
     pt = config.table("perturbations", PERTURBATION_KEYS)
     opts = PerturbationOptions.from_table(pt)
     reheating = reheating_from_config(config)
-    history = None if reheating.given else (reheating.equation_of_state,
-                                            10.0 ** reheating.log10_reheating_density)
-    tab, notes, pot = _background(config, opts.past_density)
+    history = None if reheating.given else (
+        reheating.equation_of_state, 10.0 ** reheating.log10_reheating_density,
+        reheating.thermal_degrees_of_freedom)
+    tab, notes, pot = _background(config, opts.past_density, opts.k_min)
     run = run_bounce(tab, opts, reheating.N_star, history, reheating.pivot,
                      reheating.hubble_constant, potential=pot, show_progress=show_progress)
     return BounceRun(run.table, run.spectrum, run.scales, run.k_mpc, (*run.notes, *notes))

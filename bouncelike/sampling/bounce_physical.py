@@ -56,6 +56,7 @@ import numpy as np
 
 from ..errors import InputError, NumericalFailure
 from ..models.base import ForwardModel
+from ..models.reheating import Reheating, check_choice
 from ..quantities import (
     AMPLITUDE,
     CERTIFIED,
@@ -80,7 +81,6 @@ from ..quantities import (
 #: C = -2 + ln 2 + Euler's gamma (Stewart & Lyth 1993)
 C_SL = -2.0 + math.log(2.0) + 0.5772156649015329
 BACKGROUND_CHOICES = ("log10_potential_fraction", "N_inflation")
-REHEATING_KEYS = tuple(p.name for p in REHEATING)
 #: fast-model parameters this module supplies itself
 _SUPPLIED = ("ln_1e10_As", "n_s", "r", "log10_k_lqc")
 
@@ -89,8 +89,8 @@ class _PhysicalBounce(ForwardModel):
     prescription = ""
     parameters = (LOG10_POTENTIAL_FRACTION, N_INFLATION, QUADRATIC_MASS, CRITICAL_DENSITY,
                   *REHEATING)
-    optional_parameter_names = ("log10_potential_fraction", "N_inflation", "N_star",
-                                "equation_of_state", "log10_reheating_density")
+    optional_parameter_names = ("log10_potential_fraction", "N_inflation",
+                                *(p.name for p in REHEATING))
     derived_parameters = (LOG10_POTENTIAL_FRACTION, N_INFLATION, N_BOUNCE_END, N_STAR,
                           N_BOUNCE_PIVOT, LOG10_BOUNCE_SCALE, LOG10_CONFORMAL_DURATION,
                           LN_AMPLITUDE, AMPLITUDE, TILT, TENSOR_RATIO, EPSILON_STAR,
@@ -116,12 +116,7 @@ class _PhysicalBounce(ForwardModel):
             raise InputError(f"model '{self.name}' needs exactly one of [parameters."
                              "log10_potential_fraction] or [parameters.N_inflation] (sampled "
                              f"or fixed); got {', '.join(bg) or 'neither'}")
-        reh = [n for n in REHEATING_KEYS if n in names]
-        if reh not in (["N_star"], ["equation_of_state", "log10_reheating_density"]):
-            raise InputError(f"model '{self.name}' needs [parameters.N_star], or both "
-                             "[parameters.equation_of_state] and "
-                             "[parameters.log10_reheating_density]; got "
-                             f"{', '.join(reh) or 'none'}")
+        check_choice(names, f"model '{self.name}'")
 
     # -- evaluation -----------------------------------------------------------------------
     def _fast(self) -> Any:
@@ -149,7 +144,7 @@ class _PhysicalBounce(ForwardModel):
     def _compute(self, p: dict[str, float]) -> tuple[dict[str, float], dict[str, float]]:
         from ..background.potentials import Quadratic
         from ..perturbations.background import from_trajectory
-        from ..perturbations.mapping import liddle_leach_n_star, scale_map
+        from ..perturbations.mapping import scale_map
 
         mass = p["mass"]
         rho_c = p["critical_density"]
@@ -166,8 +161,7 @@ class _PhysicalBounce(ForwardModel):
         if "N_star" in p:
             n_star = p["N_star"]
         else:
-            n_star = liddle_leach_n_star(tab, p["equation_of_state"],
-                                         10.0 ** p["log10_reheating_density"], PIVOT)
+            n_star = Reheating.from_values(p).n_star(tab)
         n_be = float(traj.efolds.bounce_to_inflation_end)
         if not n_star < n_be:
             raise NumericalFailure(f"too little inflation: {n_be:.3g} e-folds from the bounce to "
