@@ -20,3 +20,12 @@ class InputError(ValueError):
 
 class NumericalFailure(RuntimeError):
     """A forward-model evaluation that failed numerically (reported, never silently ignored)."""
+
+
+class NotEvaluable(NumericalFailure):
+    """A point the model or a likelihood term cannot score (reason in the message).
+
+    Raised, for example, when a featured spectrum cannot be reduced to pivot numbers or when its
+    spectra are not positive where the large-scale temperature projection needs them. Callers
+    count such points as not evaluable; they are never a data bound.
+    """
