@@ -23,8 +23,11 @@ much the anchored answer depends on the part of the kernel that differs between 
 is scaled by max(1, m_ell / i_ell), m_ell = |1 - K_ell[P_ref]/D_ell^ref| the share of the
 published spectrum the projection leaves out and i_ell = |1 - K^SW_ell[P_ref]/K_ell[P_ref]| the
 share of the late ISW, so that at high ell (where the left-out physics is larger than the late
-ISW) it is not underestimated. Zero for the reference itself; it grows with the size of
-features under the kernels. Listed per multipole in every score.
+ISW) it is not underestimated. The reference has no tensors, so the anchoring factor
+D^ref/K[P_ref] (1.00-1.44 over ell = 2-29), fixed by scalar physics, also multiplies the tensor
+part; that part's share of D_ell times |1 - K[P_ref]/D^ref| is added in quadrature. Zero for
+the reference itself; it grows with the size of features under the kernels and with r. Listed
+per multipole in every score.
 
 **Likelihood.** Per multipole an inverse gamma (:mod:`.inverse_gamma`) fitted to the published
 68% highest-density interval; the term's statistic is T = sum_ell nu_ell [s/D + ln(D/s) - 1].
@@ -229,10 +232,13 @@ class LowEllTemperature:
         """Anchored D_ell with the anchoring-error estimate (and, for a plain table whose rows
         zigzag, the spread between projecting its even and its odd rows)."""
         ps, pt = self.projection.power_on_nodes(spectra)
-        raw = self._ws @ ps + self._wt @ pt
+        tensor = self._wt @ pt
+        raw = self._ws @ ps + tensor
         dell = self._anchor * raw
-        alt = self._anchor_sw * (self._ws_sw @ ps + self._wt @ pt)
-        error = np.abs(alt / dell - 1.0) * self.anchoring_scale
+        alt = self._anchor_sw * (self._ws_sw @ ps + tensor)
+        from_isw = np.abs(alt / dell - 1.0) * self.anchoring_scale
+        from_tensors = np.abs(1.0 - 1.0 / self._anchor) * tensor / raw
+        error = np.hypot(from_isw, from_tensors)
         spread = None
         halves = split_rows(spectra) if sampling else None
         if halves is not None and spectra.zigzag_rows.any():
