@@ -184,8 +184,12 @@ class LowEllTemperature:
         self.lower_edge = data.lower_edge[sel]
         self.upper_edge = data.upper_edge[sel]
         self.reference_dell = data.reference_dell[sel]
-        self.nu, self.mode = _fitted(tuple(self.lower_edge), tuple(self.upper_edge),
-                                     data.interval_probability, tuple(int(e) for e in self.ells))
+        try:
+            self.nu, self.mode = _fitted(tuple(self.lower_edge), tuple(self.upper_edge),
+                                         data.interval_probability,
+                                         tuple(int(e) for e in self.ells))
+        except InputError as exc:
+            raise InputError(f"low-ell set file '{data.path or data.name}': {exc}") from None
         self._ws = np.ascontiguousarray(proj.scalar[rows])
         self._ws_sw = np.ascontiguousarray(proj.scalar_sachs_wolfe[rows])
         self._wt = np.ascontiguousarray(proj.tensor[rows])
