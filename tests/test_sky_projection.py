@@ -12,7 +12,7 @@ from bouncelike.errors import InputError, NotEvaluable, NumericalFailure
 from bouncelike.likelihood.sets import load_constraint_set
 from bouncelike.perturbations.transfer import BounceSpectraModel
 from bouncelike.sky.cosmology import planck18_late_universe
-from bouncelike.sky.kernels import dell_prefactor, sachs_wolfe_transfer, spherical_bessel
+from bouncelike.sky.kernels import dell_prefactor, spherical_bessel
 from bouncelike.sky.projection import (
     K_MAX,
     K_MIN,

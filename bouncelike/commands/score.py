@@ -58,7 +58,9 @@ def format_low_ell(score: Score, largest: int = 5) -> list[str]:
     lines = ["", f"large-scale temperature, ell {ells[0]}-{ells[-1]} ({low.source}): "
              f"T = sum -2 ln(L/L_max) = {low.total:.3f} over {len(ells)} multipoles "
              f"(the set's reference best-fit power law: {low.reference_total:.3f}, difference "
-             f"{low.total - low.reference_total:+.3f})"]
+             f"{low.total - low.reference_total:+.3f}); this term alone: p = "
+             f"{'< ' if low.p_value_alone_is_bound else ''}{low.p_value_alone:.3g} "
+             "(calibrated null distribution)"]
     header = ("multipole", "predicted [uK^2]", "measured (68% interval)", "nu", "pull",
               "-2 ln L/Lmax", "anchoring error")
     rows = []
@@ -129,6 +131,11 @@ def format_score(score: Score, title: str = "") -> str:
         state = "ok" if f["fit_ok"] else "FAILED"
         if f["method"] == "exact":
             fq.append(f"k = {f['pivot']:g}: exact re-expansion")
+        elif f.get("period_mean"):
+            fq.append(
+                f"k = {f['pivot']:g}: cubic fit of the period mean, residual rms ln P_s "
+                f"{f['rms_scalar']:.2g}, ln(P_t/P_s) {f['rms_ratio']:.2g} (tolerance "
+                f"{f['tolerance']:g}, checked for the quantities each set uses) ok")
         else:
             fq.append(
                 f"k = {f['pivot']:g}: cubic fit rms {f['fit_rms']:.2g} "

@@ -3,8 +3,9 @@
     D_ell = W_s @ P_s(k_j) + W_t @ P_t(k_j)      (micro-K^2, unanchored)
 
 on fixed nodes k_j, ``NODES_PER_DECADE`` = 200 per decade, log-spaced over [``K_MIN``,
-``K_MAX``] = [1e-5, 0.2] Mpc^-1 (861 nodes). Between nodes P is taken linear in ln k (hat functions), and each matrix
-element is the exact integral of the kernel of :mod:`.kernels` against one hat function:
+``K_MAX``] = [1e-5, 0.2] Mpc^-1 (861 nodes). Between nodes P is taken linear in ln k (hat
+functions), and each matrix element is the exact integral of the kernel of :mod:`.kernels`
+against one hat function:
 
     W_(ell j) = 2 ell (ell+1) T_CMB^2 int dln k Theta_ell(k)^2 hat_j(ln k),
 
