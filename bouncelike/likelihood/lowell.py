@@ -32,7 +32,11 @@ features under the kernels and with r. Listed per multipole in every score.
 
 **Likelihood.** Per multipole an inverse gamma (:mod:`.inverse_gamma`) fitted to the published
 68% highest-density interval; the term's statistic is T = sum_ell nu_ell [s/D + ln(D/s) - 1].
-Its null distribution is calibrated once (:mod:`.lowell_calibration`).
+Its null distribution is calibrated once (:mod:`.lowell_calibration`). Fitted to the Planck
+2018 table (full list in the set file): nu_ell = 5.01, 7.14, 9.01, 11.04 at ell = 2-5, i.e.
+2 ell + 1 within 2.1% (full-sky cosmic variance), then below it as a sky cut would make it
+(19.56 of 21 at ell = 10, 48.95 of 59 at ell = 29); the fitted mode lands 0.14-0.55% below
+the published maximum at ell >= 3 and 1.13% below at ell = 2.
 """
 
 from __future__ import annotations
