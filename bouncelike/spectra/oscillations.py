@@ -25,11 +25,13 @@ evaluated pointwise. :func:`averaged_power` applies this rule to any object;
   local extrema at two neighbouring rows, i.e. fewer than about 4 rows per period, with steps
   above ``ZIGZAG_FLOOR`` in ln P -- the table "shows unresolved oscillation"; those rows
   (the region grown by 2 rows each side, gaps of up to 4 rows closed) are replaced by the running
-  mean of P over a top-hat in ln k of width max(``resolution``, ``MIN_WINDOW_ROWS`` table
-  spacings). A sampled oscillation cannot be told from its alias (Nyquist): an oscillation
-  sampled at 4 or more rows per period is treated as resolved. What the running mean cannot
-  remove is the sampling noise of an aliased table; :func:`split_rows` lets a consumer measure
-  it (project the even and the odd rows separately).
+  mean of P over a triangular window in ln k of full width max(``resolution``,
+  ``MIN_WINDOW_ROWS`` table spacings) (two passes of a top-hat of half that width: smoother
+  than one top-hat, which matters for a projection that interpolates the result). A sampled
+  oscillation cannot be told from its alias (Nyquist): an oscillation sampled at 4 or more rows
+  per period is treated as resolved. What the running mean cannot remove is the sampling noise
+  of an aliased table; :func:`split_rows` lets a consumer measure it (project the even and the
+  odd rows separately).
 """
 
 from __future__ import annotations
@@ -126,10 +128,21 @@ def zigzag_rows(ln_p: np.ndarray, floor: float = ZIGZAG_FLOOR) -> np.ndarray:
 
 
 def running_mean(ln_k: np.ndarray, p: np.ndarray, rows: np.ndarray, width: float) -> np.ndarray:
+    """P with the given rows replaced by its mean over a triangle of full ``width`` in ln k.
+
+    Two passes of :func:`top_hat_mean` with half the width (only the given rows change).
+    """
+    half = 0.5 * width
+    return top_hat_mean(ln_k, top_hat_mean(ln_k, p, rows, half), rows, half)
+
+
+def top_hat_mean(ln_k: np.ndarray, p: np.ndarray, rows: np.ndarray, width: float
+                 ) -> np.ndarray:
     """P with the given rows replaced by the mean of P over a top-hat of ``width`` in ln k.
 
-    Each row's weight is the ln k span it represents (half the distance to each neighbour),
-    so unevenly spaced tables are averaged as integrals over ln k.
+    P is taken constant over the ln k span each row represents (half-way to its neighbours),
+    and the window integrates those spans exactly, partial ones included, so that the result
+    does not jump when a window edge crosses a row.
     """
     ln_k = np.asarray(ln_k, dtype=float)
     p = np.asarray(p, dtype=float)
@@ -137,14 +150,11 @@ def running_mean(ln_k: np.ndarray, p: np.ndarray, rows: np.ndarray, width: float
     if not rows.any():
         return out
     edges = np.concatenate([[ln_k[0]], 0.5 * (ln_k[1:] + ln_k[:-1]), [ln_k[-1]]])
-    cum_w = np.concatenate([[0.0], np.cumsum(np.diff(edges))])
-    cum_wp = np.concatenate([[0.0], np.cumsum(np.diff(edges) * p)])
-    half = 0.5 * width
-    for i in np.nonzero(rows)[0]:
-        lo = np.searchsorted(ln_k, ln_k[i] - half, "left")
-        hi = np.searchsorted(ln_k, ln_k[i] + half, "right")
-        w = cum_w[hi] - cum_w[lo]
-        out[i] = (cum_wp[hi] - cum_wp[lo]) / w if w > 0 else p[i]
+    cum = np.concatenate([[0.0], np.cumsum(np.diff(edges) * p)])
+    centre = ln_k[rows]
+    lo = np.maximum(centre - 0.5 * width, edges[0])
+    hi = np.minimum(centre + 0.5 * width, edges[-1])
+    out[rows] = (np.interp(hi, edges, cum) - np.interp(lo, edges, cum)) / (hi - lo)
     return out
 
 

@@ -274,8 +274,8 @@ class TabulatedSpectra:
         return (f"the spectra table shows unresolved oscillation (ln P zigzags: fewer than ~4 "
                 f"rows per period) in {len(rows)} of {len(self.k)} rows between k = "
                 f"{self.k[rows[0]]:.3g} and {self.k[rows[-1]]:.3g} Mpc^-1; there P is replaced "
-                f"by its running mean over {width:.3g} in ln k (the table's own sampling noise "
-                "remains)")
+                f"by its running mean over a triangle {width:.3g} wide in ln k (the table's own "
+                "sampling noise remains)")
 
     def describe(self) -> dict[str, Any]:
         return {
