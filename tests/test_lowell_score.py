@@ -3,6 +3,7 @@
 import json
 import shutil
 from pathlib import Path
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
@@ -225,3 +226,20 @@ def test_featured_example_excluded_and_example_not_evaluable(tmp_path, capsys):
     code, out, err = _run(capsys, ["score", str(cfg), "--json"])
     assert code == 1 and json.loads(out)["verdict"] == "not evaluable"
     assert "not evaluable" in err
+
+
+def test_sampler_posterior_scores_featured_points():
+    # the driver refuses points whose pivot summaries do not represent the spectra; with the
+    # term on, featured points with smooth period means pass and are scored
+    from bouncelike.sampling.driver import ModelPosterior
+
+    lk = _likelihood(["planck2018_base", "planck2018_r", "planck2018_lowell_tt"])
+    model = BounceSpectraModel()
+    params = {"ln_1e10_As": 3.044, "n_s": 0.9649, "r": 0.01, "log10_k_lqc": -3.0,
+              "log10_conformal_duration": 3.7}
+    summaries = lk.summaries(model.spectra(params))
+    assert all(s.fit_ok for s in summaries)
+    post = ModelPosterior(SimpleNamespace(derived_names=()), model, lk)
+    assert post._log_likelihood(params) == pytest.approx(lk.log_likelihood(model.spectra(params)))
+    with pytest.raises(NotEvaluable):
+        post._log_likelihood({**params, "log10_k_lqc": -1.3})

@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
+from dataclasses import replace
 from typing import Any
 
 from ..errors import InputError, NotEvaluable
@@ -91,11 +92,15 @@ class CombinedLikelihood:
                         f"{q} cannot be summarised there")
 
     def summaries(self, spectra: Any) -> tuple[PivotSummary, ...]:
+        """Pivot summaries of the period mean; NotEvaluable when a needed quantity is not
+        represented. The returned summaries carry ``fit_ok = True``: they passed the
+        per-quantity check (scalar residual for the amplitude and tilts, ratio residual for r).
+        """
         if self.gaussian is None:
             return ()
         summaries = self.gaussian.summaries(self._view(spectra))
         self._check(summaries)
-        return summaries
+        return tuple(replace(s, fit_ok=True) for s in summaries)
 
     def _pivot_chi2(self, spectra: Any) -> float:
         if self.gaussian is None:
