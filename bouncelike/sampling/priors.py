@@ -61,8 +61,8 @@ PARAMETER_KEYS = (
 PHASE_KEYS = ("potential", "mass", "dynamics", "critical_density", "density",
               "density_decades", "n_samples", "seed")
 
-#: Folder of the prior files shipped with the project (``priors/`` at the top of the tree).
-SHIPPED_PRIORS = Path(__file__).resolve().parents[2] / "priors"
+#: Folder of the prior files shipped with the package (package data, installed with it).
+SHIPPED_PRIORS = Path(__file__).resolve().parents[1] / "priors"
 
 
 @dataclass(frozen=True)
