@@ -20,6 +20,13 @@ from bouncelike.sampling.posterior import ModelPosterior
 from bouncelike.sampling.priors import SHIPPED_PRIORS, prior_from_text
 from bouncelike.spectra.summary import summarize
 
+
+@pytest.fixture(autouse=True)
+def _work_in_tmp(tmp_path, monkeypatch):
+    """Runs write below the working folder (sampling.chains_dir is relative to it)."""
+    monkeypatch.chdir(tmp_path)
+
+
 RHO_C = 0.40937  # gamma = 0.2375 (physics notes, section 0)
 # our own scenario: a bounce whose scale falls ~1.5 decades below the observable window, where
 # the cached transfer is certified
@@ -143,7 +150,7 @@ def test_sample_and_report_end_to_end(tmp_path, capsys):
         '[likelihood]\nsets = ["planck2018_base", "bk18"]\n\n[sampling]\n'
         'prior = "bounce_dressed_metric_physical"\nwalkers = 8\nmax_steps = 40\n'
         'min_steps = 40\ncheckpoint_every = 20\nseed = 2\nprogress = false\n'
-        f'chains_dir = "{tmp_path / "chains"}"\n\n[report]\n'
+        'chains_dir = "chains"\n\n[report]\n'
         'exclusion_map = ["log10_potential_fraction", "mass"]\ngrid = 4\nprior_draws = 20\n'
         'rescore_samples = 5\nband_samples = 10\nevidence_draws = 100\n')
     assert main(["sample", str(cfg), "--quiet", "--json"]) == 0
@@ -183,7 +190,7 @@ def test_bad_physical_priors_exit_2_and_write_nothing(tmp_path, capsys, edit, me
     (tmp_path / "prior.toml").write_text(text)
     cfg = tmp_path / "bad.toml"
     cfg.write_text('[likelihood]\nsets = ["planck2018_base"]\n\n[sampling]\n'
-                   f'prior = "prior.toml"\nchains_dir = "{tmp_path / "chains"}"\n')
+                   'prior = "prior.toml"\nchains_dir = "chains"\n')
     assert main(["sample", str(cfg), "--quiet"]) == 2
     err = capsys.readouterr().err.strip()
     assert message in err and "\n" not in err

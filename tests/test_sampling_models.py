@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 from pathlib import Path
 
 import numpy as np
@@ -14,6 +15,13 @@ from bouncelike.cli import main
 from bouncelike.sampling import verdicts as V
 from bouncelike.sampling.parametric import parametric_model
 from bouncelike.sampling.priors import ParameterPrior, Prior
+
+
+@pytest.fixture(autouse=True)
+def _work_in_tmp(tmp_path, monkeypatch):
+    """Runs write below the working folder (sampling.chains_dir is relative to it)."""
+    monkeypatch.chdir(tmp_path)
+
 
 PRIOR_PL = """
 [prior]
@@ -53,8 +61,8 @@ def _write_run(tmp: Path, name: str, prior: str, sets: list[str], walkers: int, 
     cfg.write_text(
         f'[likelihood]\nsets = {json.dumps(sets)}\n\n[sampling]\nprior = "{prior}"\n'
         f"walkers = {walkers}\nmax_steps = {steps}\nmin_steps = 300\ntau_multiple = 50\n"
-        f'tau_tolerance = 0.05\ncheckpoint_every = 200\nseed = {seed}\nchains_dir = "'
-        f'{tmp / "chains"}"\nprogress = false\n' + extra)
+        f'tau_tolerance = 0.05\ncheckpoint_every = 200\nseed = {seed}\nchains_dir = "chains"\n'
+        "progress = false\n" + extra)
     return cfg
 
 
@@ -81,7 +89,12 @@ def quadratic_report(tmp_path_factory):
     cfg = _write_run(tmp, "quad", "quadratic_slow_roll", ["planck2018_base", "bk18"], 16, 1200,
                      3, '\n[report]\ngrid = 8\nprior_draws = 100\nrescore_samples = 40\n'
                      'band_samples = 40\nevidence_draws = 400\n')
-    assert main(["sample", str(cfg), "--quiet"]) == 0
+    here = os.getcwd()
+    os.chdir(tmp)  # the run goes below the working folder
+    try:
+        assert main(["sample", str(cfg), "--quiet"]) == 0
+    finally:
+        os.chdir(here)
     run = tmp / "chains" / "quad"
     return run
 
