@@ -201,17 +201,15 @@ def test_process_pool_gives_the_serial_chain(tmp_path, model):
     # the N_inflation search must not depend on earlier evaluations: a chain run on 2 worker
     # processes equals the serial one byte for byte (same seed)
     from bouncelike.parallel import ProcessPool
-    from bouncelike.sampling.driver import install_posterior
+    from bouncelike.sampling.posterior import install_posterior
 
     prior = model_prior(model, SHIPPED_PRIORS / "bounce_dressed_metric_phase.toml")
     post = ModelPosterior(prior, model, GaussianLikelihood.from_names(["planck2018_base"]))
-    settings = SamplerSettings(walkers=8, max_steps=5, min_steps=5, checkpoint_every=5, seed=4)
+    settings = SamplerSettings(walkers=8, max_steps=5, min_steps=5, checkpoint_every=5, seed=4,
+                               prior_survey_draws=16)
     run_sampler(post, settings, tmp_path / "serial", show_progress=False)
-    install_posterior(post)
-    pool = ProcessPool(2)
-    try:
+    with ProcessPool(2, install_posterior, (post,)) as pool:
         run_sampler(post, settings, tmp_path / "pool", pool=pool, show_progress=False)
-    finally:
-        pool.close()
-    assert (tmp_path / "serial" / "chain.csv").read_bytes() == (
-        tmp_path / "pool" / "chain.csv").read_bytes()
+    for name in ("chain.csv", "failures.csv"):
+        assert (tmp_path / "serial" / name).read_bytes() == (
+            tmp_path / "pool" / name).read_bytes()

@@ -94,8 +94,8 @@ CASES = [
      GOOD_PRIOR, "'sampling.checkpoint_every' = 10000000 is out of range"),
     ("chain too large", GOOD_SAMPLING.replace("walkers = 8", "walkers = 4000").replace(
         "max_steps = 50", "max_steps = 1000000"), GOOD_PRIOR, "at most 5e+07 chain rows"),
-    ("min_steps above max_steps", GOOD_SAMPLING + "min_steps = 51\n", GOOD_PRIOR,
-     "'sampling.min_steps' = 51 is out of range; allowed: >= 0 and <= 50"),
+    ("min_steps above the bound", GOOD_SAMPLING + "min_steps = 2000000\n", GOOD_PRIOR,
+     "'sampling.min_steps' = 2000000 is out of range; allowed: >= 0 and <= 1e+06"),
     ("workers above the bound", GOOD_SAMPLING + "workers = 5000\n", GOOD_PRIOR,
      "'sampling.workers' = 5000 is out of range"),
     ("prior survey above the bound", GOOD_SAMPLING + "prior_survey_draws = 1000000\n",

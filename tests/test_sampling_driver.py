@@ -113,11 +113,12 @@ def _assert_same_run(a, b):
         assert (a / name).read_bytes() == (b / name).read_bytes(), name
 
 
-def test_resume_equals_continuous_run(tmp_path):
+@pytest.mark.parametrize("stop", [0, 130])  # right after placing the walkers; mid-chunk
+def test_resume_equals_continuous_run(tmp_path, stop):
     cont, part = tmp_path / "continuous", tmp_path / "interrupted"
     r1 = run_sampler(gaussian_posterior(), SETTINGS, cont, show_progress=False)
-    run_sampler(gaussian_posterior(), SETTINGS, part, show_progress=False, stop_after=130)
-    assert _steps(part) == 130
+    run_sampler(gaussian_posterior(), SETTINGS, part, show_progress=False, stop_after=stop)
+    assert _steps(part) == stop
     with pytest.raises(InputError, match="--resume"):
         run_sampler(gaussian_posterior(), SETTINGS, part, show_progress=False)
     r2 = run_sampler(gaussian_posterior(), SETTINGS, part, show_progress=False, resume=True)

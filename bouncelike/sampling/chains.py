@@ -110,13 +110,13 @@ def load_table(path: str | Path, required: tuple[str, ...] = ()) -> tuple[Any, l
     if missing:
         raise InputError(f"'{path}' lacks the column(s) {', '.join(missing)} (damaged, or not "
                          f"written by 'bouncelike sample'); {advice}")
+    if len(frame) == 0:
+        raise InputError(f"'{path}' holds no rows, only its header (damaged or written before "
+                         f"any step); {advice}")
     bad = [c for c in required if not pd.api.types.is_numeric_dtype(frame[c])]
     if bad:
         raise InputError(f"'{path}': column(s) {', '.join(bad)} hold non-numbers (damaged); "
                          f"{advice}")
-    if len(frame) == 0:
-        raise InputError(f"'{path}' holds no rows, only its header (damaged or written before "
-                         f"any step); {advice}")
     return frame, notes
 
 

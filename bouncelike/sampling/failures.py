@@ -33,6 +33,7 @@ from __future__ import annotations
 import csv
 import io
 import math
+import os
 import re
 import traceback
 from collections.abc import Callable, Iterable, Sequence
@@ -73,6 +74,8 @@ _ERROR_TEXT = (
     (ArithmeticError, "arithmetic error"),
     (ValueError, "invalid value"),
 )
+_PACKAGE = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+_MACHINERY = ("failures.py", "posterior.py")
 _NUMBER = re.compile(r"(?<![\w.^])[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?(?![\w.])")
 
 
@@ -120,13 +123,16 @@ class ModelError(Exception):
 
     def __init__(self, stage: str, exc: BaseException):
         what = next((t for cls, t in _ERROR_TEXT if isinstance(exc, cls)), "error")
+        # the innermost frame inside the package, outside the evaluation machinery: where
+        # the model went wrong
         frames = [f for f in traceback.extract_tb(exc.__traceback__)
-                  if "bouncelike" in f.filename.replace("\\", "/")]
+                  if os.path.abspath(f.filename).startswith(_PACKAGE + os.sep)
+                  and os.path.basename(f.filename) not in _MACHINERY]
         where = ""
         if frames:
             f = frames[-1]
-            mod = f.filename.replace("\\", "/").rsplit("bouncelike/", 1)[-1]
-            where = f" in bouncelike/{mod}:{f.name}"
+            rel = os.path.relpath(os.path.abspath(f.filename), os.path.dirname(_PACKAGE))
+            where = f" in {rel.replace(os.sep, '/')}:{f.name}"
         reason = f"model error while computing {STAGE_TEXT.get(stage, stage)}: {what}{where}"
         message = f"{reason} ({type(exc).__name__}: {' '.join(str(exc).split())})"
         super().__init__(message)

@@ -80,7 +80,7 @@ def sampler_settings(t: Table) -> SamplerSettings:
     checkpoint = t.integer("checkpoint_every", 100, minimum=1, maximum=MAX_STEPS)
     return SamplerSettings(
         walkers=walkers, max_steps=max_steps,
-        min_steps=t.integer("min_steps", min(200, max_steps), minimum=0, maximum=max_steps),
+        min_steps=t.integer("min_steps", min(200, max_steps), minimum=0, maximum=MAX_STEPS),
         tau_multiple=t.number("tau_multiple", 50.0, minimum=1.0, maximum=1000.0),
         tau_tolerance=t.number("tau_tolerance", 0.05, minimum=0.0, exclusive_minimum=True,
                                maximum=1.0),

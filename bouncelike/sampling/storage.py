@@ -227,6 +227,6 @@ def _read_chain(path: Path, size: int, names: tuple[str, ...], blob_names: tuple
         raise InputError(f"'{path}' does not hold the {steps} steps x {walkers} walkers its "
                          f"checkpoint records (damaged); the run cannot continue from it: "
                          f"restore the file or start again ({elsewhere})")
-    values = frame[list(columns[2:])].to_numpy(dtype=float).reshape(steps, walkers, -1)
     ndim, nb = len(names), len(blob_names)
+    values = frame[list(columns[2:])].to_numpy(dtype=float).reshape(steps, walkers, ndim + nb + 1)
     return values[:, :, :ndim].copy(), values[:, :, -1].copy(), values[:, :, ndim:ndim + nb].copy()
