@@ -47,12 +47,12 @@ sys.path.insert(0, str(ROOT))
 
 from bouncelike.parallel import ProcessPool  # noqa: E402
 from bouncelike.sampling.driver import SamplerSettings, run_sampler  # noqa: E402
-from bouncelike.sampling.posterior import ModelPosterior, install_posterior  # noqa: E402
 from bouncelike.sampling.parametric import (  # noqa: E402
     PowerLawModel,
     model_prior,
     parametric_model,
 )
+from bouncelike.sampling.posterior import ModelPosterior, install_posterior  # noqa: E402
 from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior  # noqa: E402
 
 
