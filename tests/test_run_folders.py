@@ -131,6 +131,10 @@ def test_refusals_suggest_what_applies(tmp_path, capsys, monkeypatch):
     (lambda f: (f / "state.npz").write_bytes((f / "state.npz").read_bytes()[:300]),
      "state.npz' is damaged (truncated or not a checkpoint"),
     (lambda f: (f / "state.npz").write_bytes(b""), "state.npz' is damaged (empty"),
+    (lambda f: np.savez(f / "state.npz", state_coords=np.zeros((8, 3))),
+     "state.npz' was written by an older bouncelike"),
+    (lambda f: (f / "chain.csv").write_text("step,walker\n"), "chain.csv' is shorter than its "
+     "checkpoint says"),
 ])
 def test_resume_from_a_damaged_checkpoint(run_copy, capsys, damage, needle):
     damage(run_copy)

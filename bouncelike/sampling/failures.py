@@ -113,9 +113,9 @@ def nonfinite_failure(log_likelihood: float) -> Failure:
 
 
 def capped_failure(cap: str, log_likelihood: float) -> Failure:
-    text = (f"capped spectra ({cap}): the log-likelihood {log_likelihood:.4g} is only an upper "
+    text = (f"capped spectra: {cap}; the log-likelihood {log_likelihood:.4g} is only an upper "
             "bound")
-    return Failure(CAPPED, group_text(f"capped spectra ({cap})"), text, float(log_likelihood))
+    return Failure(CAPPED, group_text(f"capped spectra: {cap}"), text, float(log_likelihood))
 
 
 class ModelError(Exception):

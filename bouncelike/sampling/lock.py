@@ -108,13 +108,15 @@ class RunLock:
               "process_start": process_start(os.getpid()),
               "since": time.strftime("%Y-%m-%d %H:%M:%S %z")}
         tmp = self.folder / f".lock.{os.getpid()}.tmp"
-        tmp.write_text(json.dumps(me) + "\n")
         try:
             for _ in range(5):
+                tmp.write_text(json.dumps(me) + "\n")
                 try:
                     os.link(tmp, self.path)  # fails if a lock exists: never half-written
                 except FileExistsError:
                     self._refuse_or_clear()
+                    continue
+                except FileNotFoundError:  # our temporary file was cleaned away: again
                     continue
                 self.held = True
                 return

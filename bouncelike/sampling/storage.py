@@ -165,7 +165,7 @@ class RunBackend(emcee.backends.Backend):
                 raise InputError(
                     f"'{path}' is shorter than its checkpoint says ({max(have, 0)} < {size} "
                     f"bytes: damaged or replaced); the run cannot continue from it: restore "
-                    f"the file or start again ({elsewhere})")
+                    f"the file from a copy, or start the run again ({elsewhere})")
             if have > size:
                 os.truncate(path, size)  # rows appended after the last checkpoint
         coords, lp, blobs = _read_chain(folder / CHAIN, b.chain_bytes, names, blob_names,
@@ -226,7 +226,8 @@ def _read_chain(path: Path, size: int, names: tuple[str, ...], blob_names: tuple
     if not ok:
         raise InputError(f"'{path}' does not hold the {steps} steps x {walkers} walkers its "
                          f"checkpoint records (damaged); the run cannot continue from it: "
-                         f"restore the file or start again ({elsewhere})")
+                         f"restore the file from a copy, or start the run again "
+                         f"({elsewhere})")
     ndim, nb = len(names), len(blob_names)
     values = frame[list(columns[2:])].to_numpy(dtype=float).reshape(steps, walkers, ndim + nb + 1)
     return values[:, :, :ndim].copy(), values[:, :, -1].copy(), values[:, :, ndim:ndim + nb].copy()
