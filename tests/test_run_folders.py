@@ -339,3 +339,13 @@ def test_ctrl_c_with_two_workers(tmp_path, uninterrupted, delay):
         assert a.files == b.files
         for k in a.files:
             np.testing.assert_array_equal(a[k], b[k], err_msg=k)
+
+
+def test_report_reads_prior_texts_with_the_earlier_key_names(run_copy, capsys):
+    # a run made before the walkers' keys were renamed keeps 'start' in its stored prior text
+    _edit_manifest(run_copy, lambda m: {**m, "prior_file_text": m["prior_file_text"].replace(
+        "walkers_centre", "start").replace("walkers_spread", "start_width")})
+    assert "start_width" in json.loads((run_copy / "manifest.json").read_text())[
+        "prior_file_text"]
+    assert main(["report", str(run_copy), "--quiet"]) == 0
+    assert (run_copy / "report" / "verdicts.json").is_file()
