@@ -23,9 +23,20 @@ class NumericalFailure(RuntimeError):
 
 
 class NotEvaluable(NumericalFailure):
-    """A point the model or a likelihood term cannot score (reason in the message).
+    """A point the likelihood cannot score: the model has no prediction there.
 
-    Raised, for example, when a featured spectrum cannot be reduced to pivot numbers or when its
-    spectra are not positive where the large-scale temperature projection needs them. Callers
-    count such points as not evaluable; they are never a data bound.
+    Raised (with a physical reason, e.g. "inflation does not end before the e-fold cap") for a
+    parameter point whose spectra cannot be computed or cannot be represented by what the
+    likelihood scores -- e.g. a featured spectrum whose features reach a pivot's window, or
+    spectra that are not positive where the large-scale temperature projection needs them.
+    Such a point is reported as *not evaluable*, never as excluded by the data: a posterior run
+    records it (parameters and reason) and gives it no posterior weight.
+    """
+
+
+class RunInterrupted(KeyboardInterrupt):
+    """A long computation stopped on the user's request (Ctrl-C) after saving its progress.
+
+    The message says where it stopped and how to continue; the command-line front end prints
+    it as one line (exit code 130).
     """
