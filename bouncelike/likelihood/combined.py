@@ -72,7 +72,10 @@ class CombinedLikelihood:
 
     # -- pivot part ------------------------------------------------------------------------
     def _view(self, spectra: Any) -> Any:
-        return PeriodMeanView(spectra) if knows_oscillations(spectra) else spectra
+        # objects with exact (or already computed) summaries are asked directly
+        if hasattr(spectra, "summary_at") or not knows_oscillations(spectra):
+            return spectra
+        return PeriodMeanView(spectra)
 
     def _check(self, summaries: Sequence[PivotSummary]) -> None:
         """NotEvaluable when a needed quantity of the period mean is not a cubic near its pivot."""

@@ -111,6 +111,12 @@ class SummarisedSpectra:
     def summary_at(self, pivot: float) -> Any:
         return self.summaries[pivot]
 
+    def averaged_power(self, k: Any, resolution: float | None) -> Any:
+        """Period-mean protocol of the wrapped spectra (bouncelike.spectra.oscillations)."""
+        from ..spectra.oscillations import averaged_power
+
+        return averaged_power(self.spectra, k, resolution)
+
 
 def spectra_cap(spectra: Any) -> str | None:
     """What caps the values of ``spectra``, or None.
