@@ -22,6 +22,7 @@ outside a declared range raises :class:`~bouncelike.errors.InputError`.
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
+from pathlib import Path
 from typing import Any, ClassVar
 
 from ..config import Parameter, Table, check_parameters, names_of, read_parameters
@@ -79,7 +80,7 @@ class ForwardModel:
     def derived(self, params: Mapping[str, float]) -> dict[str, float]:
         return {}
 
-    def from_config(self, config: Table) -> Any:
+    def from_config(self, config: Table, base_dir: Path | None = None) -> Any:
         """The spectra at the values of the model's configuration section."""
         if self.config_section is None:
             raise InputError(f"model '{self.name}' cannot be evaluated from a configuration")

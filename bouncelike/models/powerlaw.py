@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
+from pathlib import Path
 from typing import Any
 
 from ..config import Table
@@ -72,7 +73,7 @@ class PowerLawModel(ForwardModel):
     def derived(self, p: Mapping[str, float]) -> dict[str, float]:
         return {"A_s": math.exp(p["ln_1e10_As"]) * 1e-10, "n_t": -p["r"] / 8.0}
 
-    def from_config(self, config: Table) -> PowerLawSpectra:
+    def from_config(self, config: Table, base_dir: Path | None = None) -> PowerLawSpectra:
         table = config.table("power_law", CONFIG_KEYS, required=True)
         raw_nt = table.raw("n_t", "consistency")
         if isinstance(raw_nt, str):

@@ -18,16 +18,20 @@ never chooses code to import.
 ``bounce_deformed_algebra``               (``[bounce_transfer]``)
 ``bounce_physical_dressed_metric``,       background -> e-folds -> N_* -> N_B* -> k_LQC ->
 ``bounce_physical_deformed_algebra``      pivot spectrum (Stewart-Lyth) -> cached transfer
+``table``                                 spectra read from a CSV file (``[table] file``,
+                                          relative to the configuration's folder); scored only
 ========================================  ====================================================
 """
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Any
 
 from ..config import Table
 from ..errors import InputError, NumericalFailure
 from ..sampling.bounce_physical import PhysicalBounceDeformedAlgebra, PhysicalBounceDressedMetric
+from ..spectra.table_file import table_spectra_from_config
 from .base import ForwardModel
 from .bounce_transfer import BounceDeformedAlgebra, BounceDressedMetric
 from .powerlaw import PowerLawModel
@@ -45,7 +49,7 @@ class BounceModel(ForwardModel):
     title = "Bounce: background, exact modes, mapping to Mpc^-1"
     samplable = False
 
-    def from_config(self, config: Table) -> Any:
+    def from_config(self, config: Table, base_dir: Path | None = None) -> Any:
         from ..perturbations.forward import bounce_spectra_from_config
 
         try:
@@ -53,6 +57,19 @@ class BounceModel(ForwardModel):
         except NumericalFailure as exc:
             raise InputError(f"model 'bounce' cannot be evaluated at "
                              f"{configured_values(config)}: {exc}") from None
+
+
+class TableModel(ForwardModel):
+    """Spectra computed elsewhere, read from the CSV file of ``[table] file``
+    (:mod:`bouncelike.spectra.table_file`); relative paths are taken against the
+    configuration's folder."""
+
+    name = "table"
+    title = "Spectra read from a CSV table"
+    samplable = False
+
+    def from_config(self, config: Table, base_dir: Path | None = None) -> Any:
+        return table_spectra_from_config(config, base_dir=base_dir)
 
 
 def configured_values(config: Table) -> str:
@@ -74,7 +91,8 @@ def configured_values(config: Table) -> str:
 #: every forward model by its name
 MODELS: dict[str, type[ForwardModel]] = {cls.name: cls for cls in (
     PowerLawModel, QuadraticSlowRoll, StarobinskySlowRoll, BounceModel, BounceDressedMetric,
-    BounceDeformedAlgebra, PhysicalBounceDressedMetric, PhysicalBounceDeformedAlgebra)}
+    BounceDeformedAlgebra, PhysicalBounceDressedMetric, PhysicalBounceDeformedAlgebra,
+    TableModel)}
 
 #: models a prior file may name (the others are evaluated from a configuration only)
 SAMPLABLE = tuple(name for name, cls in MODELS.items() if getattr(cls, "samplable", True))
@@ -97,8 +115,11 @@ def forward_model(name: str, where: str = "model", sampled: bool = False) -> For
     return MODELS[name]()
 
 
-def spectra_from_config(config: Table) -> Any:
-    """The spectra object a run configuration asks for (``[model] spectra = ...``)."""
+def spectra_from_config(config: Table, base_dir: str | Path | None = None) -> Any:
+    """The spectra object a run configuration asks for (``[model] spectra = ...``);
+    ``base_dir``: the configuration's folder, against which file names in it are taken (the
+    working directory when None)."""
     model = config.table("model", ("spectra",), required=True)
     name = model.string("spectra")
-    return forward_model(name, "model.spectra").from_config(config)
+    return forward_model(name, "model.spectra").from_config(
+        config, base_dir=None if base_dir is None else Path(base_dir))

@@ -44,6 +44,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
+from pathlib import Path
 from typing import ClassVar
 
 from ..config import Parameter, Table
@@ -132,7 +133,7 @@ class SlowRollModel(ForwardModel):
                 "running_of_running": obs.running_of_running,
                 "mass": self.mass(obs.N_star, a_s)}
 
-    def from_config(self, config: Table) -> PowerLawSpectra:
+    def from_config(self, config: Table, base_dir: Path | None = None) -> PowerLawSpectra:
         table = config.table("slow_roll", ("N_star", "ln_1e10_As", "A_s", "mass", "pivot"),
                              required=True)
         n_star = N_STAR.read(table)

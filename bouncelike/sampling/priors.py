@@ -4,7 +4,7 @@ A prior file is TOML with one ``[prior]`` table and one ``[parameters.<name>]`` 
 parameter of the forward model (see :mod:`bouncelike.models`)::
 
     [prior]
-    model = "power_law"               # parametric model this prior belongs to
+    model = "power_law"               # forward model this prior belongs to
     title = "Power-law primordial spectra"
 
     [parameters.n_s]
@@ -14,8 +14,9 @@ parameter of the forward model (see :mod:`bouncelike.models`)::
     max = 1.10
     label = 'n_s'                     # optional: LaTeX without dollar signs (default: the
                                       # model's declaration of the parameter)
-    start = 0.965                     # optional: centre of the walkers' starting ball
-    start_width = 0.01                # optional: its width (clipped to the support)
+    walkers_centre = 0.965            # optional: centre of the ball the walkers start in
+    walkers_spread = 0.01             # optional: its standard deviation (reflected at the
+                                      # support's bounds); default 1% of the range
     nested_value = 1.0                # optional: value of the nested model (Savage-Dickey)
 
     [parameters.r]
@@ -46,6 +47,7 @@ from __future__ import annotations
 import importlib
 import math
 from dataclasses import dataclass, field
+from importlib import resources
 from pathlib import Path
 from typing import Any
 
@@ -59,13 +61,17 @@ ROLES = ("sampled", "fixed", "derived")
 DISTRIBUTIONS = ("uniform", "log_uniform", "gaussian", "efolds_from_phase")
 PARAMETER_KEYS = (
     "role", "distribution", "min", "max", "mean", "sigma", "value", "label",
-    "start", "start_width", "nested_value", "phase",
+    "walkers_centre", "walkers_spread", "nested_value", "phase",
 )
+#: Keys of earlier prior files and the keys that replaced them.
+RENAMED_KEYS = {"start": "walkers_centre", "start_width": "walkers_spread"}
+#: ... and in the phase sub-table of an efolds_from_phase prior
+RENAMED_PHASE_KEYS = {"density": "start_density", "density_decades": "start_density_decades"}
 PHASE_KEYS = ("potential", "mass", "dynamics", "critical_density", "start_density",
               "start_density_decades", "n_samples", "seed")
 
-#: Folder of the prior files shipped with the project (``priors/`` at the top of the tree).
-SHIPPED_PRIORS = Path(__file__).resolve().parents[2] / "priors"
+#: Folder of the prior files shipped with the package (package data, installed with it).
+SHIPPED_PRIORS = Path(str(resources.files("bouncelike") / "priors"))
 
 
 @dataclass(frozen=True)
@@ -81,8 +87,8 @@ class ParameterPrior:
     mean: float | None = None
     sigma: float | None = None
     value: float | None = None
-    start: float | None = None
-    start_width: float | None = None
+    walkers_centre: float | None = None
+    walkers_spread: float | None = None
     nested_value: float | None = None
     kde_points: tuple[float, ...] = ()
     kde_bandwidth: float | None = None
@@ -145,7 +151,7 @@ class ParameterPrior:
             "min": self.lower if math.isfinite(self.lower) else None,
             "max": self.upper if math.isfinite(self.upper) else None,
             "mean": self.mean, "sigma": self.sigma, "value": self.value,
-            "start": self.start, "start_width": self.start_width,
+            "walkers_centre": self.walkers_centre, "walkers_spread": self.walkers_spread,
             "nested_value": self.nested_value,
         }
         return {k: v for k, v in d.items() if v is not None}
@@ -215,16 +221,16 @@ class Prior:
             np.empty((n, 0)))
 
     def initial_walkers(self, rng: np.random.Generator, n: int) -> np.ndarray:
-        """Starting points inside the support: a ball around ``start`` where given, else
-        prior draws."""
+        """Starting points inside the support: a ball around ``walkers_centre`` where given,
+        else prior draws."""
         cols = []
         for p in self.sampled:
-            if p.start is None:
+            if p.walkers_centre is None:
                 cols.append(p.draw(rng, n))
                 continue
-            width = p.start_width if p.start_width is not None else (
+            width = p.walkers_spread if p.walkers_spread is not None else (
                 0.01 * (p.upper - p.lower) if math.isfinite(p.upper - p.lower) else 1e-3)
-            x = p.start + width * rng.standard_normal(n)
+            x = p.walkers_centre + width * rng.standard_normal(n)
             # reflect at the bounds (no two walkers piled up on an edge), then clip what a
             # ball wider than the support still leaves outside
             if math.isfinite(p.lower):
@@ -235,7 +241,7 @@ class Prior:
         return np.column_stack(cols)
 
     def full_parameters(self, theta: np.ndarray) -> dict[str, float]:
-        """Sampled values plus fixed values, as the parametric model expects them."""
+        """Sampled values plus fixed values, as the forward model expects them."""
         params = dict(self.fixed)
         for p, x in zip(self.sampled, theta, strict=False):
             params[p.name] = float(x)
@@ -275,7 +281,8 @@ def load_prior(path: str | Path, model: Any = None, **kw: Any) -> Prior:
 
 
 def prior_from_text(text: str, source: str = "<text>", model: Any = None, **kw: Any) -> Prior:
-    """A prior from the text of a prior file (as stored in a run's manifest)."""
+    """A prior from the text of a prior file (as stored in a run's manifest; pass
+    ``renamed_keys_allowed=True`` to read the keys of earlier prior files)."""
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -286,7 +293,8 @@ def prior_from_text(text: str, source: str = "<text>", model: Any = None, **kw: 
 def parse_prior(data: dict[str, Any], source: str, text: str = "", model: Any = None,
                 model_parameters: tuple[Parameter | str, ...] | None = None,
                 derived_parameters: tuple[Parameter | str, ...] | None = None,
-                optional_parameters: tuple[str, ...] = ()) -> Prior:
+                optional_parameters: tuple[str, ...] = (),
+                renamed_keys_allowed: bool = False) -> Prior:
     """Validate the parsed contents of a prior file.
 
     Parameters
@@ -298,6 +306,8 @@ def parse_prior(data: dict[str, Any], source: str, text: str = "", model: Any = 
         default labels).
     derived_parameters : when given, every derived parameter must be one of these.
     optional_parameters : model parameters the file may leave out.
+    renamed_keys_allowed : read the keys of earlier prior files under their new names (a
+        prior text stored in the manifest of an earlier run).
     """
     if model is not None:
         model_parameters = tuple(model.parameters)
@@ -330,7 +340,7 @@ def parse_prior(data: dict[str, Any], source: str, text: str = "", model: Any = 
             raise InputError(
                 f"'parameters.{n}' is not a parameter of model '{model_name}'; allowed: "
                 f"{', '.join(model_names)}")
-    params = tuple(_parameter(params_tab.table(n, PARAMETER_KEYS), n, declared.get(n))
+    params = tuple(_parameter(_renamed(params_tab, n, renamed_keys_allowed), n, declared.get(n))
                    for n in names)
     if not any(p.role == "sampled" for p in params):
         raise InputError(f"prior file '{path}': no parameter has role = 'sampled'")
@@ -357,6 +367,26 @@ def check_model_prior(model: Any, prior: Prior) -> None:
     check = getattr(model, "check_prior", None)
     if check is not None:
         check(tuple(p.name for p in prior.parameters if p.role != "derived"))
+
+
+def _renamed(params: Table, name: str, allowed: bool) -> Table:
+    """The table of one parameter; keys of earlier prior files are refused with the new name
+    (or, reading a stored prior text, taken under it)."""
+    raw = params.raw(name)
+    if isinstance(raw, dict):
+        for old, new in RENAMED_KEYS.items():
+            if old in raw and not allowed:
+                raise InputError(f"'parameters.{name}.{old}' is no longer a prior key: "
+                                 f"write '{new}' instead (keys now: walkers_centre, "
+                                 "walkers_spread for the walkers' starting ball)")
+        phase = raw.get("phase")
+        if allowed and (any(k in raw for k in RENAMED_KEYS) or (
+                isinstance(phase, dict) and any(k in phase for k in RENAMED_PHASE_KEYS))):
+            data = {RENAMED_KEYS.get(k, k): v for k, v in raw.items()}
+            if isinstance(phase, dict):
+                data["phase"] = {RENAMED_PHASE_KEYS.get(k, k): v for k, v in phase.items()}
+            return Table(data, params.key(name), PARAMETER_KEYS)
+    return params.table(name, PARAMETER_KEYS)
 
 
 def _parameter(t: Table, name: str, declared: Parameter | None = None) -> ParameterPrior:
@@ -405,11 +435,11 @@ def _parameter(t: Table, name: str, declared: Parameter | None = None) -> Parame
         for k in ("mean", "sigma"):
             if k in t:
                 raise InputError(f"'{t.key(k)}' is only allowed for a gaussian prior")
-    start = t.number("start", None)
-    if start is not None and not lower <= start <= upper:
-        raise InputError(f"'{t.key('start')}' = {start:g} lies outside [min, max] = "
+    centre = t.number("walkers_centre", None)
+    if centre is not None and not lower <= centre <= upper:
+        raise InputError(f"'{t.key('walkers_centre')}' = {centre:g} lies outside [min, max] = "
                          f"[{lower:g}, {upper:g}]")
-    start_width = t.positive("start_width", None)
+    spread = t.positive("walkers_spread", None)
     nested = t.number("nested_value", None)
     if nested is not None and not lower <= nested <= upper:
         raise InputError(f"'{t.key('nested_value')}' = {nested:g} lies outside [min, max]")
@@ -419,8 +449,8 @@ def _parameter(t: Table, name: str, declared: Parameter | None = None) -> Parame
     elif "phase" in t:
         raise InputError(f"'{t.key('phase')}' is only allowed for an efolds_from_phase prior")
     return ParameterPrior(name=name, role=role, label=label, distribution=dist, lower=lower,
-                          upper=upper, mean=mean, sigma=sigma, start=start,
-                          start_width=start_width, nested_value=nested, **kde)
+                          upper=upper, mean=mean, sigma=sigma, walkers_centre=centre,
+                          walkers_spread=spread, nested_value=nested, **kde)
 
 
 def _required(t: Table, key: str) -> Any:
