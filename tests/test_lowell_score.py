@@ -13,7 +13,7 @@ from bouncelike.config import Table
 from bouncelike.errors import NotEvaluable, NumericalFailure
 from bouncelike.likelihood.combined import CombinedLikelihood
 from bouncelike.likelihood.gaussian import likelihood_from_config
-from bouncelike.perturbations.transfer import BounceSpectraModel
+from bouncelike.models.bounce_transfer import BounceSpectraModel
 from bouncelike.spectra import PowerLawSpectra
 
 ROOT = Path(__file__).resolve().parents[1]

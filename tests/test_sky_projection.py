@@ -10,7 +10,7 @@ from scipy.interpolate import CubicSpline
 
 from bouncelike.errors import InputError, NotEvaluable, NumericalFailure
 from bouncelike.likelihood.sets import load_constraint_set
-from bouncelike.perturbations.transfer import BounceSpectraModel
+from bouncelike.models.bounce_transfer import BounceSpectraModel
 from bouncelike.sky.cosmology import planck18_late_universe
 from bouncelike.sky.kernels import dell_prefactor, spherical_bessel
 from bouncelike.sky.projection import (
