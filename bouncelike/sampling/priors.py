@@ -30,7 +30,7 @@ parameter of the forward model (see :mod:`bouncelike.models`)::
 ``log_uniform`` needs ``0 < min < max``. ``efolds_from_phase`` is the duration-of-inflation
 distribution obtained by evolving a flat prior on the oscillation phase of the contracting
 branch through the bounce (physics notes, section 2); it takes ``min``/``max`` and a
-``[parameters.<name>.phase]`` sub-table handed to
+``[parameters.<name>.phase]`` sub-table (:mod:`.phase_prior`) handed to
 :func:`bouncelike.background.efolds.efolds_distribution` (``potential``, ``mass``,
 ``dynamics``, ``critical_density``, ``start_density`` and ``start_density_decades`` of the
 contracting-branch window where the phase is flat, ``n_samples``, ``seed``). Its density is a
@@ -44,7 +44,6 @@ the declared range (a gaussian prior is truncated to it). Every problem raises
 
 from __future__ import annotations
 
-import importlib
 import math
 from dataclasses import dataclass, field
 from importlib import resources
@@ -55,7 +54,7 @@ import numpy as np
 
 from ..config import Parameter, Table, read_toml, tomllib
 from ..errors import InputError
-from ..quantities import START_DENSITY, START_DENSITY_DECADES
+from .phase_prior import PHASE_KEYS, RENAMED_PHASE_KEYS, efolds_kde, kde_density
 
 ROLES = ("sampled", "fixed", "derived")
 DISTRIBUTIONS = ("uniform", "log_uniform", "gaussian", "efolds_from_phase")
@@ -65,10 +64,6 @@ PARAMETER_KEYS = (
 )
 #: Keys of earlier prior files and the keys that replaced them.
 RENAMED_KEYS = {"start": "walkers_centre", "start_width": "walkers_spread"}
-#: ... and in the phase sub-table of an efolds_from_phase prior
-RENAMED_PHASE_KEYS = {"density": "start_density", "density_decades": "start_density_decades"}
-PHASE_KEYS = ("potential", "mass", "dynamics", "critical_density", "start_density",
-              "start_density_decades", "n_samples", "seed")
 
 #: Folder of the prior files shipped with the package (package data, installed with it).
 SHIPPED_PRIORS = Path(str(resources.files("bouncelike") / "priors"))
@@ -112,10 +107,7 @@ class ParameterPrior:
             z = (x[inside] - self.mean) / self.sigma
             out[inside] = -0.5 * z * z - math.log(self.sigma * math.sqrt(2 * math.pi)) - mass
         elif self.distribution == "efolds_from_phase":
-            pts = np.asarray(self.kde_points)
-            h = self.kde_bandwidth
-            z = (x[inside][:, None] - pts[None, :]) / h
-            dens = np.exp(-0.5 * z * z).sum(axis=1) / (len(pts) * h * math.sqrt(2 * math.pi))
+            dens = kde_density(x[inside], self.kde_points, self.kde_bandwidth)
             with np.errstate(divide="ignore"):
                 out[inside] = np.log(dens / self.kde_norm)
         return out
@@ -445,7 +437,7 @@ def _parameter(t: Table, name: str, declared: Parameter | None = None) -> Parame
         raise InputError(f"'{t.key('nested_value')}' = {nested:g} lies outside [min, max]")
     kde: dict[str, Any] = {}
     if dist == "efolds_from_phase":
-        kde = _efolds_from_phase(t.table("phase", PHASE_KEYS, required=True), lower, upper)
+        kde = efolds_kde(t.table("phase", PHASE_KEYS, required=True), lower, upper)
     elif "phase" in t:
         raise InputError(f"'{t.key('phase')}' is only allowed for an efolds_from_phase prior")
     return ParameterPrior(name=name, role=role, label=label, distribution=dist, lower=lower,
@@ -458,59 +450,3 @@ def _required(t: Table, key: str) -> Any:
         raise InputError(f"missing key '{t.key(key)}' (uniform and log_uniform priors need "
                          "min and max)")
     return None
-
-
-def _efolds_from_phase(t: Table, lower: float, upper: float) -> dict[str, Any]:
-    """Build the e-fold prior from the background lane's phase-prior distribution.
-
-    Uses :func:`bouncelike.background.efolds.efolds_distribution` when that module is part of
-    the installed package; otherwise the prior file cannot be used and says why.
-    """
-    try:
-        efolds = importlib.import_module("bouncelike.background.efolds")
-        dist_fn = efolds.efolds_distribution
-    except (ImportError, AttributeError):
-        raise InputError(
-            f"'{t.where}': distribution 'efolds_from_phase' needs "
-            "bouncelike.background.efolds.efolds_distribution, which this build does not have; "
-            "use uniform, log_uniform or gaussian") from None
-    samples = _compute_efolds(t, dist_fn)
-    samples = samples[np.isfinite(samples)]
-    if samples.size < 10:
-        raise InputError(f"'{t.where}': fewer than 10 finite e-fold samples were produced")
-    # Scott's rule bandwidth (scipy.stats.gaussian_kde default)
-    h = float(np.std(samples) * samples.size ** (-1 / 5)) or 1e-3
-    pts = tuple(float(x) for x in samples)
-    probe = ParameterPrior("N", "sampled", "N", "efolds_from_phase", lower, upper,
-                           kde_points=pts, kde_bandwidth=h, kde_norm=1.0)
-    grid = np.linspace(lower, upper, 2001)
-    mass = float(np.trapezoid(np.exp(probe.log_density(grid)), grid))
-    if not mass > 0:
-        raise InputError(f"'{t.where}': the computed e-folds (median {np.median(samples):.4g}) "
-                         f"fall outside [min, max] = [{lower:g}, {upper:g}]")
-    return {"kde_points": pts, "kde_bandwidth": h, "kde_norm": mass}
-
-
-def _compute_efolds(t: Table, dist_fn: Any) -> np.ndarray:
-    """E-folds of inflation over a flat phase prior, by the background package."""
-    setup_mod = importlib.import_module("bouncelike.background.setup")
-    efolds_mod = importlib.import_module("bouncelike.background.efolds")
-    background: dict[str, Any] = {"dynamics": t.string("dynamics", "isotropic")}
-    if "critical_density" in t:
-        background["critical_density"] = t.positive("critical_density")
-    config = Table({"potential": {"name": t.string("potential", "quadratic"),
-                                  "mass": t.positive("mass", 1.21e-6)},
-                    "background": background}, "", ("potential", "background"))
-    setup = setup_mod.background_from_config(config)
-    ceiling = efolds_mod.start_density_ceiling(setup.dynamics)
-    phase = efolds_mod.PhasePrior(
-        START_DENSITY.read(t, upper=ceiling, reason="the contracting branch starts below the "
-                           f"critical density rho_c = {ceiling:.5g}"),
-        START_DENSITY_DECADES.read(t))
-    # at most 1e5 backgrounds (~1 ms each on the compiled engine): a kernel density estimate
-    # of the e-folds converges long before
-    result = dist_fn(setup.dynamics, setup.potential, phase,
-                     t.integer("n_samples", 200, minimum=10, maximum=10**5),
-                     t.integer("seed", 0, minimum=0),
-                     settings=setup.settings, convergence_samples=0)
-    return np.asarray(result.usable(), dtype=float)
