@@ -35,6 +35,7 @@ from ..config import Table
 from ..errors import InputError, NumericalFailure
 from ..spectra.powerlaw import PowerLawSpectra, reexpand
 from ..spectra.summary import DEFAULT_HALF_WIDTH, DEFAULT_TOLERANCE, PivotSummary, summarize
+from .bounds import BOUNDED_QUANTITIES, spectra_cap
 from .sets import QUANTITIES, ConstraintSet, load_constraint_set
 
 #: (confidence level, p-value threshold), strictest first.
@@ -58,6 +59,8 @@ class Term:
     For ``kind == "upper_limit"``: ``published`` is the published limit and ``error_or_limit`` the
     same limit; ``sigma`` is the half-Gaussian width used. ``pull`` = (predicted - mean) / sigma
     (mean 0 for limits); ``chi2`` is this term's contribution (pull^2 without correlations).
+    ``bound`` is "lower" when ``predicted``, the pull and the contribution are lower bounds
+    (capped spectra, :mod:`.bounds`).
     """
 
     quantity: str
@@ -72,6 +75,7 @@ class Term:
     sigma: float = math.nan
     confidence: float | None = None
     set_name: str = ""
+    bound: str = ""
 
     def as_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -79,7 +83,11 @@ class Term:
 
 @dataclass(frozen=True)
 class Score:
-    """Result of scoring one spectra object against the chosen sets."""
+    """Result of scoring one spectra object against the chosen sets.
+
+    ``cap`` names what caps the spectra (:mod:`.bounds`); then ``bound`` is true, ``chi2`` is a
+    lower bound, ``p_value`` an upper bound and an "allowed" verdict becomes "undetermined".
+    """
 
     chi2: float
     dof: int
@@ -92,6 +100,13 @@ class Score:
     fit_quality: tuple[dict[str, Any], ...] = ()
     sets: tuple[str, ...] = ()
     summaries: tuple[PivotSummary, ...] = field(default=(), repr=False)
+    cap: str = ""
+
+    @property
+    def bound(self) -> bool:
+        """True for capped spectra: chi2 is a lower bound and p an upper bound
+        (:mod:`.bounds`)."""
+        return bool(self.cap)
 
     @property
     def fit_ok(self) -> bool:
@@ -106,6 +121,8 @@ class Score:
             "verdict": self.verdict,
             "excluded_at": self.excluded_at,
             "verdict_rule": VERDICT_RULE,
+            "bound": self.bound,
+            "cap": self.cap or None,
             "log_likelihood": self.log_likelihood,
             "terms": [t.as_dict() for t in self.terms],
             "notes": list(self.notes),
@@ -283,6 +300,7 @@ class GaussianLikelihood:
         """Full score with per-term pulls, p-value, verdict, notes and fit quality."""
         summaries = self.summaries(spectra)
         by_pivot = dict(zip(self._pivots, summaries, strict=True))
+        cap = spectra_cap(spectra)
         terms: list[Term] = []
         total = 0.0
         for s in self._sets:
@@ -320,11 +338,14 @@ class GaussianLikelihood:
                         sigma=t.sigma,
                         confidence=t.confidence,
                         set_name=s.name,
+                        bound="lower" if cap and t.quantity in BOUNDED_QUANTITIES else "",
                     )
                 )
         dof = len(terms)
         p_value = float(chi2_dist.sf(total, dof))
         verdict, level = verdict_from_p(p_value)
+        if cap and verdict == "allowed":  # chi2 is a lower bound: allowed cannot be concluded
+            verdict = "undetermined"
         fit_quality = tuple(
             {
                 "pivot": sm.pivot,
@@ -348,6 +369,7 @@ class GaussianLikelihood:
             fit_quality=fit_quality,
             sets=tuple(s.name for s in self._sets),
             summaries=summaries,
+            cap=cap,
         )
 
     def _notes(self, spectra: Any, summaries: Sequence[PivotSummary]) -> list[str]:
