@@ -17,7 +17,7 @@ from sampling_targets import COV, MEAN, SETTINGS, gaussian_posterior, gaussian_p
 from bouncelike.errors import InputError
 from bouncelike.sampling import chains
 from bouncelike.sampling.driver import SamplerSettings, run_sampler
-from bouncelike.sampling.verdicts import marginal_statistics
+from bouncelike.reporting.marginals import marginal_statistics
 
 ROOT = Path(__file__).resolve().parents[1]
 TESTS = Path(__file__).resolve().parent

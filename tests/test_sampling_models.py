@@ -14,7 +14,7 @@ import pytest
 pytest.importorskip("bouncelike.likelihood.gaussian", reason="likelihood package not built")
 
 from bouncelike.cli import main  # noqa: E402
-from bouncelike.sampling import verdicts as V  # noqa: E402
+from bouncelike.reporting import evidence as V  # noqa: E402
 from bouncelike.sampling.parametric import parametric_model  # noqa: E402
 from bouncelike.sampling.priors import ParameterPrior, Prior  # noqa: E402
 

@@ -23,7 +23,7 @@ The ``[sampling]`` section::
                                  # log-likelihood -inf (counted), see ModelPosterior
 
 The likelihood comes from ``[likelihood]`` (:func:`bouncelike.likelihood.gaussian.
-likelihood_from_config`). ``[report]`` is read by :mod:`bouncelike.reporting.report`.
+likelihood_from_config`). ``[report]`` is described in :mod:`bouncelike.reporting.settings`.
 """
 
 from __future__ import annotations
@@ -38,6 +38,7 @@ from typing import Any
 from .. import __version__
 from ..config import Table, load_run_config, read_toml
 from ..errors import InputError
+from ..reporting.settings import report_settings
 from .driver import ModelPosterior, SamplerSettings
 from .parametric import PARAMETRIC_MODELS, check_model_prior, model_prior, parametric_model
 from .priors import Prior, prior_from_text, resolve_prior_path
@@ -136,8 +137,6 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
     if settings.walkers < 2 * prior.ndim:
         raise InputError(f"'sampling.walkers' = {settings.walkers} is too small; allowed: >= "
                          f"{2 * prior.ndim} (2 x the {prior.ndim} sampled parameters)")
-    from ..reporting.report import report_settings
-
     report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
     likelihood = likelihood_of(config, base)
     require_fit = t.boolean("require_summary_fit", True)
@@ -187,8 +186,6 @@ def rebuild_from_manifest(manifest: dict[str, Any]) -> tuple[Prior, Any, Any, Mo
                             optional_parameters=getattr(model, "optional_parameter_names", ()))
     check_model_prior(model, prior)
     base = Path(manifest.get("config_file", ".")).parent
-    from ..reporting.report import report_settings
-
     report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
     likelihood = likelihood_of(config, base)
     require_fit = bool(manifest.get("require_summary_fit", True))
