@@ -28,27 +28,13 @@ from .settings import report_settings
 EFOLD_PARAMETERS = ("N_star", "N_inflation", "N_B_star")
 
 
-def load_samples(folder: Path, manifest: dict[str, Any]) -> Any:
-    """Posterior samples of a run: samples.csv, or chain.csv past burn-in while running."""
-    import pandas as pd
-
-    path = folder / chains.SAMPLES
-    if path.is_file():
-        return pd.read_csv(path)
-    chain = folder / chains.CHAIN
-    if not chain.is_file():
-        raise InputError(f"run folder '{folder}' has no chain yet ({chains.CHAIN} missing)")
-    frame = pd.read_csv(chain)
-    burn = int(manifest.get("run", {}).get("burn_in", 0))
-    return frame[frame["step"] > burn]
-
-
 def compute_report(folder: str | Path) -> dict[str, Any]:
     """All numbers and figure data of a run's report (nothing is written)."""
     folder = Path(folder)
-    manifest = chains.read_manifest(folder)
+    manifest = chains.read_manifest(folder, chains.MANIFEST_NEEDS)
     prior, model, likelihood, posterior = rebuild_from_manifest(manifest)
-    frame = load_samples(folder, manifest)
+    frame, loading_notes = chains.load_samples(
+        folder, manifest, (*prior.sampled_names, "log_likelihood", "log_posterior"))
     frame = frame[np.isfinite(frame["log_posterior"])]
     if len(frame) < 10:
         raise InputError(f"run folder '{folder}' has fewer than 10 posterior samples")
@@ -115,6 +101,8 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
         "verdict_rule": VERDICT_RULE,
         "p_value_rules": goodness.P_VALUE_RULES,
         "failures": manifest.get("run", {}).get("failures", {}),
+        "failure_summary": manifest.get("run", {}).get("failure_summary", {}),
+        "loading_notes": loading_notes,
         "not_evaluable": {
             "prior_fraction": proportions.binomial_fraction(
                 sum(o in refusals.REFUSED for o in prior_outcomes), len(prior_outcomes)),

@@ -89,6 +89,9 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
                    + ("" if run.get("tau_reliable", True) else
                       " (chain shorter than the chosen multiple of tau: estimates unreliable)")
                    + ".")
+    for note in v.get("loading_notes", []):  # what reading the run folder had to drop
+        out.append("")
+        out.append(f"Note: {note}.")
     out += ["", "## Best fit", ""]
     verdict = f"**{bf['verdict']}**" + (f" at {bf['excluded_at']:.1%}"
                                         if bf.get("excluded_at") else "")
