@@ -88,6 +88,7 @@ def run(args: argparse.Namespace) -> int:
     from ..reporting.goodness import goodness_text
     from ..reporting.marginals import interval_text
     from ..reporting.outputs import write_report
+    from ..reporting.refusals import coincidence_notes
     from ..reporting.report import compute_report
     from ..reporting.tables import outcome_text
     from ..sampling.convergence import result_summary
@@ -158,6 +159,8 @@ def run(args: argparse.Namespace) -> int:
         for e in v["marginals"]:
             if e["name"] in ("log10_k_lqc", "N_B_star"):
                 say(f"      {e['name']}: {interval_text(e)}")
+        for note in coincidence_notes(v):
+            say(f"      note: {note}")
         for c in v.get("comparisons", []):
             say(f"      {comparison_text(c)}")
     say("")
@@ -168,8 +171,8 @@ def run(args: argparse.Namespace) -> int:
         say(f"  {'chains/' + name + '/':26s} chain.csv (pandas.read_csv), samples.csv, "
             "manifest.json")
         say(f"  {'chains/' + name + '/report/':26s} verdicts.md, marginals.md/.tex, triangle, "
-            "ns_r, exclusion_map, spectra, efolds (.pdf/.png, .caption.txt, drawn numbers "
-            "in .json)")
+            "ns_r, exclusion_map, spectra, efolds, not_evaluable where the model could not be "
+            "evaluated (.pdf/.png, .caption.txt, drawn numbers in .json)")
     if args.json:
         print(json.dumps(json_safe({"output": str(out), "score": score.as_dict(),
                                     "runs": summaries,

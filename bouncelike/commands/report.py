@@ -39,8 +39,8 @@ def run(args: argparse.Namespace) -> int:
         out = {k: v[k] for k in ("run_name", "model", "run_folder", "constraint_sets",
                                  "marginals", "best_fit", "allowed_prior_fraction",
                                  "allowed_posterior_fraction", "savage_dickey", "evidence",
-                                 "comparisons", "by_set", "failures", "p_value_rules",
-                                 "methods")}
+                                 "comparisons", "by_set", "failures", "not_evaluable",
+                                 "p_value_rules", "methods")}
         out["files"] = [str(p) for p in written]
         print(json.dumps(json_safe(out), indent=2, default=str))
     elif not args.quiet:
@@ -52,6 +52,7 @@ def summary_text(v: dict, written: list) -> str:
     from ..reporting.evidence import evidence_text
     from ..reporting.goodness import goodness_text
     from ..reporting.marginals import interval_text
+    from ..reporting.refusals import coincidence_notes
     from ..reporting.tables import outcome_text
 
     bf = v["best_fit"]
@@ -63,6 +64,7 @@ def summary_text(v: dict, written: list) -> str:
              + outcome_text(v["allowed_prior_fraction"], "prior draws"),
              "evidence: " + evidence_text(v["evidence"])]
     lines += [f"  {e['name']}: {interval_text(e)}" for e in v["marginals"]]
+    lines += [f"  note: {n}" for n in coincidence_notes(v)]
     excl = [r["set"] + (" (forecast)" if r["forecast"] else "") for r in v["by_set"]
             if r["best_fit_verdict"] == "excluded"]
     lines.append("best fit excluded by: " + (", ".join(excl) if excl else "no single set"))

@@ -34,17 +34,24 @@ CODES = {ALLOWED: "allowed", EXCLUDED_95: "excluded at 95%", EXCLUDED_997: "excl
          UNDETERMINED: "undetermined (capped spectra)", NOT_EVALUABLE: "not evaluable"}
 
 
+#: Entries of a point's status before the per-set distances: the combined code and the
+#: combined chi2 minus its 95% and 99.7% thresholds.
+HEAD = 3
+
+
 def point_status(spectra_of: Callable[[dict], Any], likelihood: Any, singles: Sequence[Any],
                  params: dict[str, float]) -> np.ndarray:
-    """[combined code, then per set chi2 minus its 95% threshold (> 0: excluded at 95% by
-    that set alone; NaN where the point cannot be scored)]."""
+    """[combined code, combined chi2 minus its 95% and 99.7% thresholds, then per set chi2
+    minus its own 95% threshold (> 0: excluded at 95% by that set alone)]; NaN where the point
+    cannot be scored. Thresholds: chi-square quantiles for the number of terms (p = 0.05 and
+    0.003, one configuration)."""
     from scipy.stats import chi2 as chi2_dist
 
     from .proportions import evaluate_point, score_outcome
 
-    out = np.full(1 + len(singles), np.nan)
+    out = np.full(HEAD + len(singles), np.nan)
     outcome, spec, sc = evaluate_point(spectra_of, likelihood, params)
-    if outcome in ("not_evaluable", "numerical_failure"):
+    if outcome in ("not_evaluable", "numerical_failure", "model_error"):
         out[0] = NOT_EVALUABLE
         return out
     if outcome == "undetermined":
@@ -53,10 +60,13 @@ def point_status(spectra_of: Callable[[dict], Any], likelihood: Any, singles: Se
         out[0] = ALLOWED
     else:
         out[0] = EXCLUDED_997 if sc.excluded_at and sc.excluded_at > 0.99 else EXCLUDED_95
+    if sc.low_ell is None:  # the combined statistic with the low-ell term has its own p
+        out[1] = sc.chi2 - float(chi2_dist.isf(0.05, sc.dof))
+        out[2] = sc.chi2 - float(chi2_dist.isf(0.003, sc.dof))
     for k, lk in enumerate(singles):
         o, s1 = score_outcome(lk, spec)
         if o in ("allowed", "excluded"):
-            out[1 + k] = s1.chi2 - float(chi2_dist.isf(0.05, s1.dof))
+            out[HEAD + k] = s1.chi2 - float(chi2_dist.isf(0.05, s1.dof))
     return out
 
 
@@ -111,7 +121,7 @@ def refined_map(evaluate: Callable[[float, float], np.ndarray], xa: tuple[float,
 
 def exclusion_map_figure(m: dict[str, Any], set_labels: Sequence[str],
                          axis: tuple[tuple[str, str], tuple[str, str]], samples: np.ndarray,
-                         refused: np.ndarray | None, best: tuple[float, float], title: str
+                         refused: dict[str, np.ndarray], best: tuple[float, float], title: str
                          ) -> tuple[Any, dict[str, Any]]:
     """The map (combined verdict shaded, each set's boundary drawn and labelled, posterior
     samples and refused evaluations on top) and the numbers it draws."""
@@ -131,17 +141,25 @@ def exclusion_map_figure(m: dict[str, Any], set_labels: Sequence[str],
         fig, ax = plt.subplots(figsize=(7.6, 4.6))
         colors = ["#ffffff", style.EXCLUDED[0], style.EXCLUDED[1], "#f6e7b8",
                   style.NOT_EVALUABLE]
-        ax.pcolormesh(x, y, code, cmap=ListedColormap(colors), vmin=-0.5, vmax=4.5,
-                      shading="nearest", rasterized=True)
-        if np.any(code == NOT_EVALUABLE):
-            ax.contourf(x, y, (code == NOT_EVALUABLE).astype(float), levels=[0.5, 1.5],
-                        colors="none", hatches=["////"])
+        d95, d997 = m["status"][:, :, 1], m["status"][:, :, 2]
+        if np.any(np.isfinite(d95)):  # smooth boundaries from the chi-square distances
+            top = float(np.nanmax(np.abs(m["status"][:, :, 1:3]))) + 1.0
+            ax.contourf(x, y, d95, levels=[0.0, top], colors=[colors[1]])
+            ax.contourf(x, y, d997, levels=[0.0, top], colors=[colors[2]])
+        else:  # no distances (the low-ell statistic): the verdicts cell by cell
+            ax.pcolormesh(x, y, np.where(code <= EXCLUDED_997, code, ALLOWED),
+                          cmap=ListedColormap(colors[:3]), vmin=-0.5, vmax=2.5,
+                          shading="nearest", rasterized=True)
+        for c in (UNDETERMINED, NOT_EVALUABLE):
+            if np.any(code == c):
+                ax.contourf(x, y, (code == c).astype(float), levels=[0.5, 1.5],
+                            colors=[colors[c]], hatches=["////" if c == NOT_EVALUABLE else ""])
         handles = [Patch(facecolor=colors[c], edgecolor=style.MUTED, lw=0.4,
                          label=CODES[c] + (" (all sets together)" if c in (1, 2) else ""),
                          hatch="////" if c == NOT_EVALUABLE else None)
                    for c in CODES if np.any(code == c) and c != ALLOWED]
         for k, label in enumerate(set_labels):
-            dist = m["status"][:, :, 1 + k]
+            dist = m["status"][:, :, HEAD + k]
             scorable = np.isfinite(dist)
             color = style.SERIES[k % len(style.SERIES)]
             share = float(np.mean(dist[scorable] > 0)) if np.any(scorable) else float("nan")
@@ -162,11 +180,17 @@ def exclusion_map_figure(m: dict[str, Any], set_labels: Sequence[str],
                     mec="white", mew=0.25, alpha=0.75, ls="", clip_on=False)
             handles.append(Line2D([], [], marker="o", ms=3, mfc=style.INK, mec="white",
                                   ls="", label="posterior samples"))
-        if refused is not None and len(refused):
-            ax.plot(refused[:, 0] * fx, refused[:, 1] * fy, "x", ms=3.5, color="#5b6b7a",
-                    mew=0.8, ls="")
-            handles.append(Line2D([], [], marker="x", color="#5b6b7a", ls="",
-                                  label=f"refused during the run ({len(refused)}, projected)"))
+        for kind, marker in (("not_evaluable", "x"), ("numerical_failure", "+"),
+                             ("model_error", "1")):
+            pts = refused.get(kind)
+            if pts is None or not len(pts):
+                continue
+            ax.plot(pts[:, 0] * fx, pts[:, 1] * fy, marker, ms=3.5, color="#4a5560", mew=0.8,
+                    ls="", alpha=0.8, clip_on=False)
+            handles.append(Line2D([], [], marker=marker, color="#4a5560", ls="",
+                                  label=f"{kind.replace('_', ' ')} during the run "
+                                        f"({len(pts)}, projected)"))
+            summary.setdefault("recorded_refusals", {})[kind] = int(len(pts))
         ax.plot(best[0] * fx, best[1] * fy, marker="*", ms=9, color=style.BEST_FIT,
                 mec="white", mew=0.6, ls="", clip_on=False, zorder=5)
         handles.append(Line2D([], [], marker="*", ms=8, color=style.BEST_FIT, ls="",

@@ -8,6 +8,7 @@ caption (data-set citations, interval definitions and rules) and the numbers it 
 ``triangle``                 1D and 2D marginals (the titles are the marginals.md numbers)
 ``ns_r``                     the n_s - r plane: published regions, posterior, slow-roll marks
 ``exclusion_map``            combined verdict over two sampled parameters, each set's boundary
+``not_evaluable``            where the model could not be evaluated (when it could not)
 ``spectra``                  P_s and P_t with posterior bands and the sets' constraints
 ``efolds``                   prior and posterior of an e-fold number (when the model has one)
 ==========================  ===================================================================
@@ -22,11 +23,11 @@ from pathlib import Path
 from typing import Any
 
 from ..io import json_safe, write_json_atomic, write_text_atomic
-from . import exclusion, figures, notation, nsr, style, tables, triangle
+from . import exclusion, figures, notation, nsr, proportions, refusals, style, tables, triangle
 from .goodness import P_VALUE_RULES
 from .marginals import INTERVAL_DEFINITION
 
-FIGURES = ("triangle", "ns_r", "exclusion_map", "spectra", "efolds")
+FIGURES = ("triangle", "ns_r", "exclusion_map", "not_evaluable", "spectra", "efolds")
 
 
 def write_report(folder: str | Path, data: dict[str, Any],
@@ -55,6 +56,7 @@ def write_report(folder: str | Path, data: dict[str, Any],
     written += _triangle(out, data, v, cite, model)
     written += _ns_r(out, data, v, cite, model)
     written += _exclusion_map(out, data, v, cite, model)
+    written += _not_evaluable(out, data, v, cite, model)
     fd = data["figures"]
     fig, drawn = figures.spectra_figure(fd["k"], fd["best"], fd["scalar"], fd["tensor"],
                                         list(data["constraint_sets"]),
@@ -126,7 +128,7 @@ def _exclusion_map(out: Path, data: dict[str, Any], v: dict[str, Any], cite: str
     fixed = ", ".join(f"{k} = {val:.4g}" for k, val in fd["map_fixed"].items())
     set_labels = [notation.set_label(s) for s in data["constraint_sets"]]
     fig, drawn = exclusion.exclusion_map_figure(
-        m, set_labels, fd["map_axes"], fd["map_samples"], fd.get("map_refused"),
+        m, set_labels, fd["map_axes"], fd["map_samples"], fd.get("map_refused") or {},
         fd["map_best"], f"{model}: exclusion map")
     drawn["fixed_at_best_fit"] = fd["map_fixed"]
     (na, _), (nb, _) = fd["map_axes"]
@@ -138,7 +140,35 @@ def _exclusion_map(out: Path, data: dict[str, Any], v: dict[str, Any], cite: str
         + ". Each point is one configuration scored against the run's constraint sets "
         f"together ({P_VALUE_RULES['one_configuration']}; excluded at 95% if p < 0.05, at "
         "99.7% if p < 0.003), and the line of each set is its own 95% exclusion boundary. "
-        "Hatched: not evaluable (the model has no prediction the likelihood can score there: "
-        "never read as a data bound). Points: posterior samples; star: best fit. Grid: "
+        "Hatched: not evaluable at these values (the model has no prediction the likelihood "
+        "can score there: never read as a data bound). Points: posterior samples; crosses: "
+        "evaluations the run recorded as not evaluable or failed (failures.csv), projected "
+        "onto the plane from all sampled parameters; star: best fit. Grid: "
         f"{grid} x {grid} after adaptive refinement near the boundaries "
         f"({m['evaluations']} evaluations).\n" + cite, drawn)
+
+
+def _not_evaluable(out: Path, data: dict[str, Any], v: dict[str, Any], cite: str, model: str
+                   ) -> list[Path]:
+    """Where the model could not be evaluated (only when it could not somewhere)."""
+    fd, ne = data["figures"], v["not_evaluable"]
+    recorded = fd.get("recorded_refusals") or {}
+    if not recorded and not ne["prior_fraction"]["count"]:
+        return []
+    prior = data["prior"]
+    names = data["sampled"]
+    fig, drawn = refusals.refusals_figure(
+        data["frame"][names].to_numpy(), names, prior.labels(),
+        {p.name: (p.lower, p.upper) for p in prior.sampled}, recorded,
+        ne["coincidences"], f"{model}: where the model is not evaluable")
+    drawn["prior_fraction_not_evaluable"] = ne["prior_fraction"]
+    frac = proportions.fraction_text(ne["prior_fraction"], "prior draws")
+    return style.save_with_caption(
+        fig, out / "not_evaluable",
+        "Where the model could not be evaluated. Filled: posterior samples of each sampled "
+        "parameter; lines: the evaluations the run recorded in failures.csv as not evaluable "
+        "(solid) or failed (dotted), normalised like the posterior; vertical lines: the "
+        "reported bounds (dashed where the bound coincides with the edge of the not-evaluable "
+        f"region and is not a data bound; rule: {refusals.RULE}). Prior volume not evaluable: "
+        f"{frac}. A point the model cannot evaluate is reported as not evaluable, never as "
+        "excluded.\n" + cite, drawn)

@@ -9,9 +9,11 @@ the lower limit 0.05^(1/n)), so that "0 of 400" reads "below 0.0075 (95%)".
 :func:`classify_points` scores each point against the run's constraint sets and says what it
 is: ``allowed`` (not excluded at 95%), ``excluded``, ``not_evaluable`` (the model has no
 prediction the likelihood can score there: a point outside its domain, or featured spectra the
-pivot summary does not represent), ``numerical_failure`` (the computation failed) or
-``undetermined`` (capped spectra whose lower-bound chi-square does not exclude). Points that
-are not evaluable are never counted as excluded.
+pivot summary does not represent), ``numerical_failure`` (the computation failed),
+``model_error`` (an error from inside the model code) -- the kinds of the run folders'
+``failures.csv`` (:mod:`bouncelike.sampling.failures`) -- or ``undetermined`` (capped spectra
+whose lower-bound chi-square does not exclude). Points that are not evaluable are never counted
+as excluded.
 """
 
 from __future__ import annotations
@@ -23,7 +25,8 @@ from typing import Any
 from ..errors import InputError, NumericalFailure
 
 CONFIDENCE = 0.95
-OUTCOMES = ("allowed", "excluded", "undetermined", "not_evaluable", "numerical_failure")
+OUTCOMES = ("allowed", "excluded", "undetermined", "not_evaluable", "numerical_failure",
+            "model_error")
 FRACTION_RULE = ("fractions of Monte Carlo draws with the exact (Clopper-Pearson) 95% binomial "
                  "interval; a one-sided 95% limit when none or all of the draws qualify")
 
@@ -109,12 +112,15 @@ def score_outcome(likelihood: Any, spectra: Any) -> tuple[str, Any]:
 
 
 def _failure_kind(exc: BaseException) -> str:
-    """A refused point (outside the model's domain, no prediction) is not evaluable; anything
-    else that fails is a numerical failure. Errors other than these propagate."""
-    if isinstance(exc, InputError) or type(exc).__name__ == "NotEvaluable":
-        return "not_evaluable"
-    if isinstance(exc, (NumericalFailure, ArithmeticError, ValueError, RuntimeError)):
-        return "numerical_failure"
+    """The kind of a failed evaluation, as the run folders record it
+    (:func:`bouncelike.sampling.failures.failure_of`): not evaluable, numerical failure, or a
+    model error (an arithmetic or value error from inside the model). Other errors propagate."""
+    from ..sampling.failures import MODEL_ERROR, MODEL_ERRORS, failure_of
+
+    if isinstance(exc, (InputError, NumericalFailure)):
+        return failure_of(exc).kind
+    if isinstance(exc, MODEL_ERRORS):
+        return MODEL_ERROR
     raise exc
 
 

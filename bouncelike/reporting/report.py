@@ -83,6 +83,9 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
 
     ev = E.log_evidence(log_like, prior, x, n=rs["evidence_draws"], seed=rs["seed"])
     sets = [s.as_dict() for s in likelihood.sets]
+    low_ell = getattr(likelihood, "low_ell", None)
+    if low_ell is not None:  # the large-scale temperature set of a combined likelihood
+        sets.append(low_ell.data.as_dict())
     verdict = {
         "run_name": manifest.get("run_name", folder.name), "model": manifest["model"],
         "model_title": prior.title or manifest["model"],
@@ -108,8 +111,11 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
                 sum(o in refusals.REFUSED for o in prior_outcomes), len(prior_outcomes)),
             "coincidences": refusals.coincidences(
                 marg, {p.name: (p.lower, p.upper) for p in prior.sampled},
-                _prober(model, likelihood, x, sampled, params_of, rs["seed"])),
-            "rule": refusals.RULE},
+                _prober(model, likelihood, x, frame["log_likelihood"].to_numpy(), sampled,
+                        params_of, rs["seed"])),
+            "rule": refusals.RULE,
+            "run_reasons": refusals.survey_rows(
+                manifest.get("run", {}).get("failure_summary", {}) or {})},
         "methods": {
             "intervals": INTERVAL_DEFINITION,
             "allowed_fraction": "Monte Carlo over prior draws, each draw one configuration "
@@ -130,16 +136,29 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
             "best_row": {n: float(frame[n].iloc[i_best]) for n in params_all}}
 
 
-def _prober(model: Any, likelihood: Any, x: np.ndarray, sampled: list[str], params_of: Any,
-            seed: int) -> Any:
-    """probe(name, a, b): outcomes of posterior samples with ``name`` redrawn in [a, b]."""
-    def probe(name: str, a: float, b: float) -> list[str]:
+def _prober(model: Any, likelihood: Any, x: np.ndarray, log_like: np.ndarray,
+            sampled: list[str], params_of: Any, seed: int) -> Any:
+    """probe(name, a, b): outcomes of posterior samples with ``name`` redrawn in [a, b], and
+    the mean likelihood of the evaluable ones relative to that of the samples moved."""
+    def probe(name: str, a: float, b: float) -> tuple[list[str], float]:
         rng = np.random.default_rng(seed)
         i = sampled.index(name)
-        rows = x[rng.choice(len(x), size=min(refusals.PROBES, len(x)), replace=False)].copy()
+        idx = rng.choice(len(x), size=min(refusals.PROBES, len(x)), replace=False)
+        rows = x[idx].copy()
         rows[:, i] = rng.uniform(a, b, len(rows))
-        return proportions.classify_points(model.spectra, likelihood,
-                                           [params_of(t) for t in rows])
+        outcomes, moved, orig = [], [], []
+        for t, ll in zip(rows, log_like[idx], strict=True):
+            outcome, _, score = proportions.evaluate_point(model.spectra, likelihood,
+                                                           params_of(t))
+            outcomes.append(outcome)
+            if outcome not in refusals.REFUSED and score is not None:
+                moved.append(score.log_likelihood)
+                orig.append(ll)
+        if not moved:
+            return outcomes, math.nan
+        c = max(orig)
+        ratio = float(np.mean(np.exp(np.array(moved) - c)) / np.mean(np.exp(np.array(orig) - c)))
+        return outcomes, ratio
     return probe
 
 
@@ -235,14 +254,15 @@ def _figure_data(folder: Path, prior: Any, model: Any, likelihood: Any, frame: A
         return exclusion.point_status(model.spectra, likelihood, singles, params_of(theta))
 
     emap = exclusion.refined_map(status, axis(ia, pa), axis(ib, pb), rs["grid"],
-                                 rs["refine"], 1 + len(singles))
+                                 rs["refine"], exclusion.HEAD + len(singles))
     others = {n: float(best_theta[i]) for i, n in enumerate(names) if i not in (ia, ib)}
-    refused = refusals.refused_points(folder, [pa.name, pb.name])
+    recorded = refusals.recorded_refusals(folder, names)
+    refused = {k: v[:, [ia, ib]] for k, v in recorded.items()}
     return {"k": k, "scalar": np.array(scal), "tensor": tens_arr if has_tensor else None,
             "best": best_spectra, "map": emap, "map_samples": x[:, [ia, ib]][:2000],
             "map_axes": ((pa.name, pa.label), (pb.name, pb.label)),
             "map_best": (float(best_theta[ia]), float(best_theta[ib])), "map_fixed": others,
-            "map_refused": refused,
+            "map_refused": refused, "recorded_refusals": recorded,
             "ns_r_points": np.array(ns_r).reshape(-1, 2),
             "ns_r_best": ((best_summary.n_s, best_summary.r) if best_summary.fit_ok
                           else None),

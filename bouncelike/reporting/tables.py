@@ -63,7 +63,8 @@ def outcome_text(f: dict[str, Any], what: str) -> str:
     parts = [proportions.fraction_text(fr["allowed"], what)]
     for o, name in (("excluded", "excluded"), ("undetermined", "undetermined (capped)"),
                     ("not_evaluable", "not evaluable"),
-                    ("numerical_failure", "numerical failures")):
+                    ("numerical_failure", "numerical failures"),
+                    ("model_error", "model errors")):
         if f["counts"].get(o):
             parts.append(f"{name}: {proportions.fraction_text(fr[o], what)}")
     return "; ".join(parts)
@@ -133,10 +134,21 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
         rows = [c for c in ne.get("coincidences", []) if c["not_evaluable"]]
         if rows:
             out += ["", "| bound | posterior samples moved beyond it | not evaluable there | "
-                        "coincides with the not-evaluable edge |", "|---|---|---|---|"]
+                        "likelihood of the evaluable ones (relative) | coincides with the "
+                        "not-evaluable edge |", "|---|---|---|---|---|"]
             out.extend(f"| {c['bound']} | {c['probes']} | "
                        f"{proportions.fraction_text(c['fraction'], 'moved')} | "
+                       f"{_num(c.get('likelihood_ratio'), 2)} | "
                        f"{'yes: not a data bound' if c['coincides'] else 'no'} |" for c in rows)
+            out.append("")
+        if ne.get("run_reasons"):
+            out.append("Evaluations the run could not use (failures.csv), with the prior "
+                       "fraction each reason covers in the run's prior survey:")
+            out.append("")
+            out.extend(f"- [{r['kind'].replace('_', ' ')}] {r['reason']}: {r['count']} during "
+                       f"the run; prior fraction "
+                       f"{proportions.fraction_text(r['prior_fraction'], 'survey draws')}"
+                       for r in ne["run_reasons"])
             out.append("")
         if not any(c["coincides"] for c in ne.get("coincidences", [])):
             out.append("No bound of a sampled parameter coincides with a not-evaluable region.")
@@ -176,8 +188,8 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
                "is counted as not evaluable, never as excluded.")
     out.append("- Upper limits on r are treated as half-Gaussians in r >= 0 whose 95% point is "
                "the published limit (an approximation; see each set's file).")
-    if v.get("failures"):
-        out += ["", "Failed forward-model evaluations during the run (log-likelihood -inf, "
-                "no posterior weight):"]
+    if v.get("failures") and not ne.get("run_reasons"):
+        out += ["", "Evaluations the run could not use (log-likelihood -inf, no posterior "
+                "weight):"]
         out.extend(f"- {n} x {t}" for t, n in v["failures"].items())
     return "\n".join(out) + "\n"
