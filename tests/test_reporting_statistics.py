@@ -142,3 +142,22 @@ def test_evidence_is_not_reliable_with_few_effective_draws():
     c = E.compare_evidence(a, b)
     assert not c["reliable"] and c["interpretation"] == "not reliable"
     assert "not reliable" in E.comparison_text(c) and "4000" in E.comparison_text(c)
+
+
+def test_capped_best_fit_that_does_not_exclude_is_undetermined():
+    g = goodness.best_fit_goodness(0.5, 3, 1.0, ["a"], ["a"], bound=True)
+    assert g["verdict"] == "undetermined" and "chi2 > 0.5" in goodness.goodness_text(g)
+
+
+def test_sampling_set_up_imports_no_report_machinery():
+    # the report reads runs (reporting -> sampling); the sampling set-up only validates the
+    # [report] section (reporting.settings), so importing it pulls in neither the report nor
+    # matplotlib
+    import subprocess
+    import sys
+
+    code = ("import sys, bouncelike.sampling.setup; "
+            "print('bouncelike.reporting.report' in sys.modules, 'matplotlib' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True)
+    assert out.stdout.split() == ["False", "False"]

@@ -60,8 +60,10 @@ def constrained_parameters(posterior: np.ndarray, prior_draws: np.ndarray,
 
 
 def best_fit_goodness(chi2: float, n_terms: int, dimensionality: float,
-                      sampled: Sequence[str], constrained: Sequence[str]) -> dict[str, Any]:
-    """p-value of a best fit with dof = terms - fitted parameters (module docstring)."""
+                      sampled: Sequence[str], constrained: Sequence[str],
+                      bound: bool = False) -> dict[str, Any]:
+    """p-value of a best fit with dof = terms - fitted parameters (module docstring); with
+    ``bound`` (capped spectra) chi2 is a lower bound, so "allowed" becomes "undetermined"."""
     from ..likelihood.gaussian import verdict_from_p
 
     fitted = len(constrained)
@@ -76,7 +78,10 @@ def best_fit_goodness(chi2: float, n_terms: int, dimensionality: float,
         p = p_one
         rule = "one_configuration"
     verdict, level = verdict_from_p(p) if math.isfinite(p) else ("undetermined", None)
-    return {"chi2": chi2, "n_terms": n_terms, "sampled_parameters": list(sampled),
+    if bound and verdict == "allowed":
+        verdict = "undetermined"
+    return {"chi2": chi2, "bound": bool(bound), "n_terms": n_terms,
+            "sampled_parameters": list(sampled),
             "constrained_parameters": list(constrained),
             "model_dimensionality": dimensionality, "fitted_parameters": fitted,
             "dof": dof if dof > 0 else None, "p_value": p, "p_value_rule": rule,
@@ -87,16 +92,19 @@ def goodness_text(g: dict[str, Any]) -> str:
     """'chi2 = 0.041 for 3 terms, 1 fitted parameter (...): dof = 2, p = 0.98 (...)'."""
     k = g["fitted_parameters"]
     con = g.get("constrained_parameters", g["sampled_parameters"])
-    head = (f"chi2 = {g['chi2']:.4g} for {g['n_terms']} terms, {k} fitted "
+    rel, prel = (">", "<") if g.get("bound") else ("=", "=")  # capped spectra: bounds
+    head = (f"chi2 {rel} {g['chi2']:.4g} for {g['n_terms']} terms, {k} fitted "
             f"parameter{'s' if k != 1 else ''} (the smaller of the model dimensionality "
             f"d = {g['model_dimensionality']:.2f} and the {len(con)} of "
             f"{len(g['sampled_parameters'])} sampled parameters the data constrain"
             + (f": {', '.join(con)}" if con else "") + ")")
     if g["p_value_rule"] == "best_fit":
-        return (f"{head}: dof = {g['dof']}, p = {g['p_value']:.3g} (as one configuration, "
-                f"dof = {g['n_terms']}: p = {g['p_value_one_configuration']:.3g})")
+        return (f"{head}: dof = {g['dof']}, p {prel} {g['p_value']:.3g} (as one "
+                f"configuration, dof = {g['n_terms']}: p {prel} "
+                f"{g['p_value_one_configuration']:.3g})")
     return (f"{head}: no degree of freedom left, the goodness of fit of the best fit is "
-            f"undefined; as one configuration (dof = {g['n_terms']}): p = {g['p_value']:.3g}")
+            f"undefined; as one configuration (dof = {g['n_terms']}): p {prel} "
+            f"{g['p_value']:.3g}")
 
 
 def rescore_by_set(spectra_of: Callable[[dict], Any], best: dict[str, float],

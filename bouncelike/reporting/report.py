@@ -61,7 +61,8 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
     fit = goodness.best_fit_goodness(
         best_score.chi2, best_score.dof,
         goodness.model_dimensionality(frame["log_likelihood"].to_numpy()), sampled,
-        goodness.constrained_parameters(x, prior.draw(rng, 4000), sampled))
+        goodness.constrained_parameters(x, prior.draw(rng, 4000), sampled),
+        bound=bool(getattr(best_score, "bound", False)))
     subset_idx = rng.choice(len(x), size=min(rs["rescore_samples"], len(x)), replace=False)
     subset = [params_of(x[i]) for i in subset_idx]
     by_set = goodness.rescore_by_set(model.spectra, best_params, subset,
