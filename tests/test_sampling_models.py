@@ -13,7 +13,7 @@ import pytest
 
 from bouncelike.cli import main
 from bouncelike.models.registry import forward_model
-from bouncelike.sampling import verdicts as V
+from bouncelike.reporting import evidence as V
 from bouncelike.sampling.priors import ParameterPrior, Prior
 
 

@@ -94,8 +94,12 @@ MODELS: dict[str, type[ForwardModel]] = {cls.name: cls for cls in (
     BounceDeformedAlgebra, PhysicalBounceDressedMetric, PhysicalBounceDeformedAlgebra,
     TableModel)}
 
-#: models a prior file may name (the others are evaluated from a configuration only)
-SAMPLABLE = tuple(name for name, cls in MODELS.items() if getattr(cls, "samplable", True))
+
+
+def samplable_models() -> tuple[str, ...]:
+    """The models a prior file may name (the others are evaluated from a configuration only)."""
+    return tuple(name for name, cls in MODELS.items() if getattr(cls, "samplable", True))
+
 
 _OLD_NAMES = {"slow_roll": "'slow_roll_quadratic' or 'slow_roll_starobinsky' (the potential "
                            "is part of the model name; drop 'slow_roll.potential')"}
@@ -106,7 +110,7 @@ def forward_model(name: str, where: str = "model", sampled: bool = False) -> For
     messages; ``sampled``: the model must be one a prior file may name)."""
     if name in _OLD_NAMES:
         raise InputError(f"'{where}' = '{name}' was renamed {_OLD_NAMES[name]}")
-    allowed = SAMPLABLE if sampled else tuple(MODELS)
+    allowed = samplable_models() if sampled else tuple(MODELS)
     if name not in allowed:
         extra = ("; 'bounce' integrates the modes exactly and is too slow to sample: use "
                  "bounce_physical_dressed_metric" if name == "bounce" else "")

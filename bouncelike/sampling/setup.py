@@ -30,8 +30,8 @@ Sizes: walkers from 2 x the sampled parameters to 4096, max_steps and checkpoint
 The likelihood comes from ``[likelihood]`` (:func:`bouncelike.likelihood.gaussian.
 likelihood_from_config`). The manifest keeps the text, resolved path and SHA-256 of every
 constraint-set file the run used, and :func:`rebuild_from_manifest` rebuilds the likelihood
-from that text, wherever the report is made. ``[report]`` is read by
-:mod:`bouncelike.reporting.report`.
+from that text, wherever the report is made. ``[report]`` is described in
+:mod:`bouncelike.reporting.settings`.
 """
 
 from __future__ import annotations
@@ -46,7 +46,8 @@ from typing import Any
 from .. import __version__
 from ..config import Table, load_run_config, read_toml, tomllib
 from ..errors import InputError
-from ..models.registry import SAMPLABLE, forward_model
+from ..models.registry import forward_model
+from ..reporting.settings import report_settings
 from .driver import MAX_STEPS, MAX_SURVEY_DRAWS, MAX_WALKERS, SamplerSettings
 from .posterior import ModelPosterior
 from .priors import Prior, load_prior, prior_from_text, resolve_prior_path
@@ -143,7 +144,7 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
     head_model = head.table("prior", ("model", "title", "description"), required=True).string(
         "model")
     forward_model(head_model, "prior.model", sampled=True)
-    model_name = t.string("model", head_model, choices=SAMPLABLE)
+    model_name = t.string("model", head_model)
     if model_name != head_model:
         raise InputError(f"'sampling.model' = '{model_name}' but prior file '{prior_path}' is "
                          f"for model '{head_model}'")
@@ -152,8 +153,6 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
     if settings.walkers < 2 * prior.ndim:
         raise InputError(f"'sampling.walkers' = {settings.walkers} is too small; allowed: >= "
                          f"{2 * prior.ndim} (2 x the {prior.ndim} sampled parameters)")
-    from ..reporting.report import report_settings
-
     report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
     likelihood = likelihood_of(config, base)
     require_fit = t.boolean("require_summary_fit", True)
@@ -250,8 +249,6 @@ def rebuild_from_manifest(manifest: dict[str, Any]) -> tuple[Prior, Any, Any, Mo
     model = forward_model(manifest["model"], "model", sampled=True)
     prior = prior_from_text(manifest["prior_file_text"], manifest["prior"].get("source", ""),
                             model, renamed_keys_allowed=True)
-    from ..reporting.report import report_settings
-
     report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
     likelihood = likelihood_from_manifest(manifest)
     require_fit = bool(manifest.get("require_summary_fit", True))
