@@ -9,7 +9,7 @@
     rescore_samples = 200           # thinned posterior samples rescored per constraint set
     band_samples = 200              # posterior samples for the spectra bands
     evidence_draws = 4000           # importance-sampling draws for ln Z
-    compare = []                    # other run folders (discrete settings) to compare with
+    compare_runs = []               # other run folders (discrete settings) to compare with
     seed = 0
 
 Everything is computed first; then the files are written (atomically) into ``RUN/report/``.
@@ -32,12 +32,26 @@ from ..sampling.setup import rebuild_from_manifest
 from . import figures, tables
 
 REPORT_KEYS = ("exclusion_map", "grid", "prior_draws", "rescore_samples", "band_samples",
-               "evidence_draws", "compare", "seed")
+               "evidence_draws", "compare_runs", "seed")
+RENAMED_KEYS = {"compare": "compare_runs"}  # earlier name -> name (accepted in stored runs)
 EFOLD_PARAMETERS = ("N_star", "N_inflation", "N_B_star")
 
 
-def report_settings(config: dict[str, Any], sampled: tuple[str, ...]) -> dict[str, Any]:
-    t = Table(config.get("report", {}), "report", REPORT_KEYS)
+def report_settings(config: dict[str, Any], sampled: tuple[str, ...],
+                    stored: bool = False) -> dict[str, Any]:
+    """The validated ``[report]`` settings. ``stored``: the configuration a finished run keeps
+    in its manifest, where the earlier key names (:data:`RENAMED_KEYS`) are still read; in a
+    configuration being run they get a one-line pointer to the new name."""
+    raw = config.get("report", {})
+    if isinstance(raw, dict):
+        raw = dict(raw)
+        for old, new in RENAMED_KEYS.items():
+            if old in raw:
+                if not stored:
+                    raise InputError(f"'report.{old}' is now 'report.{new}' (renamed so that it "
+                                     f"is not mistaken for the '{old}' command); rename the key")
+                raw.setdefault(new, raw.pop(old))
+    t = Table(raw, "report", REPORT_KEYS)
     emap = t.strings("exclusion_map", list(sampled[:2]))
     if len(emap) != 2 or len(set(emap)) != 2 or not all(n in sampled for n in emap):
         raise InputError(f"'report.exclusion_map' = {emap} must name two different sampled "
@@ -49,7 +63,7 @@ def report_settings(config: dict[str, Any], sampled: tuple[str, ...]) -> dict[st
         "rescore_samples": t.integer("rescore_samples", 200, minimum=1),
         "band_samples": t.integer("band_samples", 200, minimum=10),
         "evidence_draws": t.integer("evidence_draws", 4000, minimum=100),
-        "compare": t.strings("compare", []),
+        "compare_runs": t.strings("compare_runs", []),
         "seed": t.integer("seed", 0, minimum=0),
     }
 
@@ -64,7 +78,7 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
     frame = frame[np.isfinite(frame["log_posterior"])]
     if len(frame) < 10:
         raise InputError(f"run folder '{folder}' has fewer than 10 posterior samples")
-    rs = report_settings(manifest["config"], prior.sampled_names)
+    rs = report_settings(manifest["config"], prior.sampled_names, stored=True)
     rng = np.random.default_rng(rs["seed"])
     sampled = list(prior.sampled_names)
     derived = [n for n in prior.derived_names if n in frame.columns]
@@ -136,7 +150,7 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
         },
     }
     comparisons = []
-    for other in rs["compare"]:
+    for other in rs["compare_runs"]:
         path = Path(other)
         if not path.is_absolute():
             path = Path(manifest.get("config_file", ".")).parent / path
@@ -145,7 +159,7 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
         other_v = compute_report_verdicts_only(path)
         if sorted(other_v["constraint_sets"]) != sorted(verdict["constraint_sets"]):
             raise InputError(
-                f"'report.compare': run '{other}' uses constraint sets "
+                f"'report.compare_runs': run '{other}' uses constraint sets "
                 f"{', '.join(other_v['constraint_sets'])}, this run "
                 f"{', '.join(verdict['constraint_sets'])}; chi-square and evidence compare only "
                 "on the same sets")
@@ -166,7 +180,7 @@ def compute_report_verdicts_only(folder: Path) -> dict[str, Any]:
     if stored.is_file():
         return json.loads(stored.read_text())
     if not (folder / chains.MANIFEST).is_file():
-        raise InputError(f"'report.compare': '{folder}' is not a run folder")
+        raise InputError(f"'report.compare_runs': '{folder}' is not a run folder")
     return compute_report(folder)["verdicts"]
 
 
