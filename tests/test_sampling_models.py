@@ -12,7 +12,7 @@ import pandas as pd
 import pytest
 
 from bouncelike.cli import main
-from bouncelike.sampling import verdicts as V
+from bouncelike.reporting import evidence as V
 from bouncelike.sampling.parametric import parametric_model
 from bouncelike.sampling.priors import ParameterPrior, Prior
 

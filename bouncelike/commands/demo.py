@@ -71,7 +71,8 @@ chains_dir = "chains"
 
 [report]
 exclusion_map = [{axes}]
-grid = 24
+grid = 20
+refine = 2
 prior_draws = 400
 rescore_samples = 120
 evidence_draws = 2000
@@ -82,13 +83,18 @@ compare_runs = [{comp}]
 def run(args: argparse.Namespace, session: Any) -> CommandResult:
     from ..io import json_safe, output_set, write_json_atomic, write_text_atomic
     from ..likelihood.gaussian import GaussianLikelihood
-    from ..reporting.report import compute_report, write_report
+    from ..reporting.evidence import comparison_text, evidence_text
+    from ..reporting.goodness import goodness_text
+    from ..reporting.marginals import interval_text
+    from ..reporting.outputs import write_report
+    from ..reporting.refusals import coincidence_notes
+    from ..reporting.report import compute_report
+    from ..reporting.tables import outcome_text
     from ..sampling.convergence import result_summary
     from ..sampling.driver import run_sampler
     from ..sampling.parametric import parametric_model
     from ..sampling.priors import resolve_prior_path
     from ..sampling.setup import build_run
-    from ..sampling.verdicts import format_interval
 
     out = session.output_folder(("score.json",), default=DEFAULT_OUTPUT)
     say = session.say
@@ -99,8 +105,8 @@ def run(args: argparse.Namespace, session: Any) -> CommandResult:
     point = {"N_star": 55.0, "ln_1e10_As": 3.044}
     score = likelihood.score(model.spectra(point))
     say(f"[1/3] score: Starobinsky slow roll at N_* = 55 against {', '.join(SETS)}: "
-        f"chi2 = {score.chi2:.3g} for {score.dof} data points, p = {score.p_value:.3g}, "
-        f"{score.verdict}")
+        f"chi2 = {score.chi2:.3g} for {score.dof} terms, p = {score.p_value:.3g} (one "
+        f"configuration: dof = {score.dof} terms), {score.verdict}")
     for t in score.terms:
         say(f"      {t.quantity:>11s}  predicted {t.predicted:.4g}  published "
             f"{t.published:.4g} ({t.kind})  pull {t.pull:+.2f}  [{t.source}]")
@@ -147,15 +153,19 @@ def run(args: argparse.Namespace, session: Any) -> CommandResult:
         reports[name] = v
         bf = v["best_fit"]
         excl = [r["set"] for r in v["by_set"] if r["best_fit_verdict"] == "excluded"]
-        say(f"[3/3] report {name}: best fit chi2 = {bf['chi2']:.3g}, {bf['verdict']}"
+        say(f"[3/3] report {name}: best fit {goodness_text(bf)}; {bf['verdict']}"
             + (f" at {bf['excluded_at']:.1%}" if bf["excluded_at"] else "")
             + f"; best fit excluded by: {', '.join(excl) or 'no single set'}")
+        say(f"      prior volume allowed: "
+            f"{outcome_text(v['allowed_prior_fraction'], 'prior draws')}")
+        say(f"      {evidence_text(v['evidence'])}")
         for e in v["marginals"]:
             if e["name"] in ("log10_k_lqc", "N_B_star"):
-                say(f"      {e['name']}: {format_interval(e)}")
+                say(f"      {e['name']}: {interval_text(e)}")
+        for note in coincidence_notes(v):
+            say(f"      note: {note}")
         for c in v.get("comparisons", []):
-            say(f"      {name} vs quadratic: delta chi2_min = {c['delta_chi2_min']:.3g}, "
-                f"ln evidence ratio = {c['ln_evidence_ratio']:.3g} ({c['interpretation']})")
+            say(f"      {comparison_text(c)}")
     lines = ["", f"outputs in {out}/:",
              "  score.json                 score of the scenario point"]
     for name, *_ in runs:
@@ -163,7 +173,8 @@ def run(args: argparse.Namespace, session: Any) -> CommandResult:
                   f"  {'chains/' + name + '/':26s} chain.csv (pandas.read_csv), samples.csv, "
                   "manifest.json",
                   f"  {'chains/' + name + '/report/':26s} verdicts.md, marginals.md/.tex, "
-                  "triangle, spectra, exclusion_map, efolds (.pdf/.png + .caption.txt)"]
+                  "triangle, ns_r, exclusion_map, spectra, efolds, not_evaluable where the model "
+                  "could not be evaluated (.pdf/.png, .caption.txt, drawn numbers in .json)"]
     data = {"output": str(out), "score": score.as_dict(), "runs": summaries,
             "verdicts": {k: {"best_fit": v["best_fit"], "comparisons": v["comparisons"]}
                          for k, v in reports.items()}}

@@ -36,6 +36,18 @@ def _num(x: float | None, digits: int = 4) -> str:
     return f"{x:.{digits}g}"
 
 
+def _bounded(text: str, bound: str) -> str:
+    """A value that is a lower bound (capped spectra) printed as one."""
+    return f"> {text}" if bound == "lower" else text
+
+
+def _p_text(p: float, bound: bool) -> str:
+    """'p-value = 0.5'; an upper bound for capped spectra, '< 1e-300' where it underflows."""
+    if p == 0.0:
+        return "p-value < 1e-300"
+    return f"p-value < {p:.3g}" if bound else f"p-value = {p:.3g}"
+
+
 def _published(term: Any) -> str:
     if term.kind == "upper_limit":
         return (f"< {term.published:g} ({100 * term.confidence:g}%, half-Gaussian "
@@ -85,10 +97,10 @@ def format_score(score: Any, title: str = "") -> str:
         (
             QUANTITY_LABELS.get(t.quantity, t.quantity),
             f"{t.pivot:g}",
-            _num(t.predicted, 5),
+            _bounded(_num(t.predicted, 5), getattr(t, "bound", "")),
             _published(t),
-            f"{t.pull:+.2f}",
-            f"{t.chi2:.3f}",
+            _bounded(f"{t.pull:+.2f}", getattr(t, "bound", "")),
+            _bounded(f"{t.chi2:.3f}", getattr(t, "bound", "")),
             t.source,
         )
         for t in score.terms
@@ -107,14 +119,24 @@ def format_score(score: Any, title: str = "") -> str:
     if score.low_ell is not None:
         lines.extend(format_low_ell(score))
     lines.append("")
-    p_text = f"< {score.p_value:.3g}" if score.p_value_is_bound else f"{score.p_value:.3g}"
+    bound = bool(getattr(score, "bound", False))
+    p_text = _p_text(score.p_value, bound or score.p_value_is_bound)
+    rel = ">" if bound else "="
     if score.low_ell is not None:
-        lines.append(f"total statistic = {score.chi2:.3f} (pivot chi2 + low-ell T), "
-                     f"{score.dof} terms, p-value = {p_text} (calibrated, see the rule below)")
+        lines.append(f"total statistic {rel} {score.chi2:.3f} (pivot chi2 + low-ell T), "
+                     f"{score.dof} terms, {p_text} (calibrated, see the rule below)")
     else:
-        lines.append(f"total chi2 = {score.chi2:.3f}, dof = {score.dof}, p-value = {p_text}")
+        lines.append(f"total chi2 {rel} {score.chi2:.3f}, dof = {score.dof} (one "
+                     f"configuration: dof = number of terms), {p_text}")
+    if bound:
+        lines.append(f"bounds: the spectra are capped ({score.cap}); chi2 and the marked terms "
+                     "are lower bounds, the p-value an upper bound")
     if score.verdict == "excluded":
         verdict = f"EXCLUDED at {100 * score.excluded_at:g}%"
+        if bound:
+            verdict += " (already by the lower bound on chi2)"
+    elif score.verdict == "undetermined":
+        verdict = "UNDETERMINED (capped spectra: the lower bound on chi2 does not exclude)"
     else:
         verdict = "allowed (not excluded at 95%)"
     if not score.fit_ok:

@@ -35,6 +35,7 @@ from ..errors import InputError, NotEvaluable
 from ..spectra.oscillations import PeriodMeanView, knows_oscillations
 from ..spectra.powerlaw import PowerLawSpectra
 from ..spectra.summary import DEFAULT_HALF_WIDTH, DEFAULT_TOLERANCE, PivotSummary
+from .bounds import spectra_cap
 from .gaussian import GaussianLikelihood, Score, verdict_from_p
 from .lowell import LowEllTemperature
 from .lowell_calibration import P_FLOOR
@@ -132,6 +133,9 @@ class CombinedLikelihood:
         total = (g.chi2 if g is not None else 0.0) + low.total
         p, bound = self.low_ell.p_value(total, m)
         verdict, level = verdict_from_p(p)
+        cap = spectra_cap(spectra)
+        if cap and verdict == "allowed":  # a capped amplitude only bounds the statistic
+            verdict = "undetermined"
         notes: list[str] = []
         fit_quality: list[dict[str, Any]] = []
         if g is not None:
@@ -158,7 +162,7 @@ class CombinedLikelihood:
             notes=tuple(notes), fit_quality=tuple(fit_quality),
             sets=(*(g.sets if g is not None else ()), low.set_name),
             summaries=g.summaries if g is not None else (), rule=COMBINED_RULE,
-            p_value_is_bound=bound, low_ell=low)
+            p_value_is_bound=bound, low_ell=low, cap=cap)
 
 
 def combined_likelihood(pivot_sets: Sequence[ConstraintSet], low_sets: Sequence[Any],

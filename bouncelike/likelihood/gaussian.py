@@ -35,6 +35,7 @@ from ..config import Table
 from ..errors import InputError, NumericalFailure
 from ..spectra.powerlaw import PowerLawSpectra, reexpand
 from ..spectra.summary import DEFAULT_HALF_WIDTH, DEFAULT_TOLERANCE, PivotSummary, summarize
+from .bounds import BOUNDED_QUANTITIES, spectra_cap
 from .sets import QUANTITIES, ConstraintSet, load_constraint_set
 
 #: (confidence level, p-value threshold), strictest first.
@@ -59,6 +60,8 @@ class Term:
     For ``kind == "upper_limit"``: ``published`` is the published limit and ``error_or_limit`` the
     same limit; ``sigma`` is the half-Gaussian width used. ``pull`` = (predicted - mean) / sigma
     (mean 0 for limits); ``chi2`` is this term's contribution (pull^2 without correlations).
+    ``bound`` is "lower" when ``predicted``, the pull and the contribution are lower bounds
+    (capped spectra, :mod:`.bounds`).
 
     Multipoles of the large-scale temperature term (``kind == "inverse_gamma"``, quantity
     ``D_<ell>``, values in micro-K^2): ``published`` is the measured D_ell, ``error_or_limit``
@@ -84,6 +87,7 @@ class Term:
     nu: float | None = None
     mode: float | None = None
     anchoring_error: float | None = None
+    bound: str = ""
 
     def as_dict(self) -> dict[str, Any]:
         d = asdict(self)
@@ -96,6 +100,9 @@ class Term:
 @dataclass(frozen=True)
 class Score:
     """Result of scoring one spectra object against the chosen sets.
+
+    ``cap`` names what caps the spectra (:mod:`.bounds`); then ``bound`` is true, ``chi2`` is a
+    lower bound, ``p_value`` an upper bound and an "allowed" verdict becomes "undetermined".
 
     With the large-scale temperature term (:mod:`.combined`), ``chi2`` is the chi-square of the
     pivot terms plus the low-ell statistic, ``rule`` says how ``p_value`` was computed
@@ -116,6 +123,13 @@ class Score:
     rule: str = VERDICT_RULE
     p_value_is_bound: bool = False
     low_ell: Any = None
+    cap: str = ""
+
+    @property
+    def bound(self) -> bool:
+        """True for capped spectra: chi2 is a lower bound and p an upper bound
+        (:mod:`.bounds`)."""
+        return bool(self.cap)
 
     @property
     def fit_ok(self) -> bool:
@@ -131,6 +145,8 @@ class Score:
             "excluded_at": self.excluded_at,
             "verdict_rule": self.rule,
             "p_value_is_bound": self.p_value_is_bound,
+            "bound": self.bound,
+            "cap": self.cap or None,
             "log_likelihood": self.log_likelihood,
             "terms": [t.as_dict() for t in self.terms],
             "notes": list(self.notes),
@@ -314,6 +330,7 @@ class GaussianLikelihood:
         """Full score with per-term pulls, p-value, verdict, notes and fit quality."""
         summaries = self.summaries(spectra)
         by_pivot = dict(zip(self._pivots, summaries, strict=True))
+        cap = spectra_cap(spectra)
         terms: list[Term] = []
         total = 0.0
         for s in self._sets:
@@ -351,11 +368,14 @@ class GaussianLikelihood:
                         sigma=t.sigma,
                         confidence=t.confidence,
                         set_name=s.name,
+                        bound="lower" if cap and t.quantity in BOUNDED_QUANTITIES else "",
                     )
                 )
         dof = len(terms)
         p_value = float(chi2_dist.sf(total, dof))
         verdict, level = verdict_from_p(p_value)
+        if cap and verdict == "allowed":  # chi2 is a lower bound: allowed cannot be concluded
+            verdict = "undetermined"
         fit_quality = tuple(
             {
                 "pivot": sm.pivot,
@@ -379,6 +399,7 @@ class GaussianLikelihood:
             fit_quality=fit_quality,
             sets=tuple(s.name for s in self._sets),
             summaries=summaries,
+            cap=cap,
         )
 
     def notes(self, spectra: Any, summaries: Sequence[PivotSummary],

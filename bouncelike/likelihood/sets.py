@@ -5,6 +5,7 @@ point at their own file in the same format) holds::
 
     name = "planck2018_base"             # identifier (letters, digits, underscores)
     title = "..."                         # one-line description
+    label = "BICEP/Keck 2018"             # optional: short title for figures and tables
     citation = "authors, title, journal"  # the paper
     arxiv = "1807.06209"                  # arXiv number
     table = "Table 2, column ..."         # where in the paper the numbers are
@@ -73,6 +74,7 @@ SET_KEYS = (
     "name",
     "kind",
     "title",
+    "label",
     "citation",
     "arxiv",
     "table",
@@ -135,6 +137,12 @@ class ConstraintSet:
     notes: str = ""
     correlations: tuple[tuple[str, str, float], ...] = field(default=())
     path: str = ""
+    label: str = ""
+
+    @property
+    def short_title(self) -> str:
+        """The short title for figures and tables (``label``, else ``title``)."""
+        return self.label or self.title
 
     @property
     def quantities(self) -> tuple[str, ...]:
@@ -149,6 +157,7 @@ class ConstraintSet:
         return {
             "name": self.name,
             "title": self.title,
+            "label": self.short_title,
             "citation": self.citation,
             "arxiv": self.arxiv,
             "table": self.table,
@@ -281,6 +290,7 @@ def parse_constraint_set(data: dict[str, Any], path: str = "") -> ConstraintSet:
         notes=_text(top, "notes", required=False),
         correlations=tuple(correlations),
         path=path,
+        label=_text(top, "label", required=False),
     )
 
 

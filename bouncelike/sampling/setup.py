@@ -30,8 +30,8 @@ Sizes: walkers from 2 x the sampled parameters to 4096, max_steps and checkpoint
 The likelihood comes from ``[likelihood]`` (:func:`bouncelike.likelihood.gaussian.
 likelihood_from_config`). The manifest keeps the text, resolved path and SHA-256 of every
 constraint-set file the run used, and :func:`rebuild_from_manifest` rebuilds the likelihood
-from that text, wherever the report is made. ``[report]`` is read by
-:mod:`bouncelike.reporting.report`.
+from that text, wherever the report is made. ``[report]`` is described in
+:mod:`bouncelike.reporting.settings`.
 """
 
 from __future__ import annotations
@@ -48,6 +48,7 @@ from ..config import Table, load_run_config, read_toml, tomllib
 from ..errors import InputError
 from ..parallel import resolve_workers
 from ..provenance import constraint_sets_of, provenance
+from ..reporting.settings import report_settings
 from .driver import MAX_STEPS, MAX_SURVEY_DRAWS, MAX_WALKERS, SamplerSettings
 from .parametric import PARAMETRIC_MODELS, check_model_prior, model_prior, parametric_model
 from .posterior import ModelPosterior
@@ -151,8 +152,6 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
     if settings.walkers < 2 * prior.ndim:
         raise InputError(f"'sampling.walkers' = {settings.walkers} is too small; allowed: >= "
                          f"{2 * prior.ndim} (2 x the {prior.ndim} sampled parameters)")
-    from ..reporting.report import report_settings
-
     report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
     likelihood = likelihood_of(config, base)
     require_fit = t.boolean("require_summary_fit", True)
@@ -254,8 +253,6 @@ def rebuild_from_manifest(manifest: dict[str, Any]) -> tuple[Prior, Any, Any, Mo
                             optional_parameters=getattr(model, "optional_parameter_names", ()),
                             renamed_keys_allowed=True)
     check_model_prior(model, prior)
-    from ..reporting.report import report_settings
-
     report_settings(config.data, prior.sampled_names, stored=True)  # a bad [report] fails now
     likelihood = likelihood_from_manifest(manifest)
     require_fit = bool(manifest.get("require_summary_fit", True))
