@@ -72,8 +72,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     except InputError as exc:
         print(f"bouncelike: error: {exc}", file=sys.stderr)
         return EXIT_INPUT_ERROR
-    except KeyboardInterrupt:
-        print("bouncelike: interrupted", file=sys.stderr)
+    except KeyboardInterrupt as exc:  # RunInterrupted says where it stopped
+        print("bouncelike: interrupted" + (f": {exc}" if str(exc) else ""), file=sys.stderr)
         return 130
     except BrokenPipeError:  # output piped into a pager or head that closed early
         import os

@@ -81,10 +81,11 @@ compare = [{comp}]
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..io import json_safe, write_json_atomic, write_text_atomic
+    from ..io import json_safe, output_set, write_json_atomic, write_text_atomic
     from ..likelihood.gaussian import GaussianLikelihood
     from ..reporting.report import compute_report, write_report
-    from ..sampling.driver import result_summary, run_sampler
+    from ..sampling.convergence import result_summary
+    from ..sampling.driver import run_sampler
     from ..sampling.parametric import parametric_model
     from ..sampling.priors import resolve_prior_path
     from ..sampling.setup import build_run
@@ -103,21 +104,23 @@ def run(args: argparse.Namespace) -> int:
     for t in score.terms:
         say(f"      {t.quantity:>11s}  predicted {t.predicted:.4g}  published "
             f"{t.published:.4g} ({t.kind})  pull {t.pull:+.2f}  [{t.source}]")
-    write_json_atomic(out / "score.json", json_safe({"point": point, "model": model.name,
-                                                     **score.as_dict()}))
+    runs = [r for r in RUNS if _available(r[6])]
+    with output_set(out):  # the score and the runs' configurations, as one set
+        write_json_atomic(out / "score.json", json_safe({"point": point, "model": model.name,
+                                                         **score.as_dict()}))
+        for name, prior_name, seed, compare, emap, tau_mult, _ in runs:
+            prior_src = resolve_prior_path(prior_name)
+            write_text_atomic(out / "priors" / prior_src.name,
+                              prior_src.read_text(encoding="utf-8"))
+            write_text_atomic(out / f"{name}.toml", _config(Path("priors") / prior_src.name,
+                                                            seed, compare, emap, tau_mult))
     # 2. posterior runs
     summaries = {}
-    runs = [r for r in RUNS if _available(r[6])]
     for r in RUNS:
         if r not in runs:
             say(f"      (run '{r[0]}' skipped: {r[6]} is not part of this build)")
-    for i, (name, prior_name, seed, compare, emap, tau_mult, _) in enumerate(runs):
-        prior_src = resolve_prior_path(prior_name)
+    for i, (name, *_) in enumerate(runs):
         config_path = out / f"{name}.toml"
-        prior_copy = out / "priors" / prior_src.name
-        write_text_atomic(prior_copy, prior_src.read_text(encoding="utf-8"))
-        write_text_atomic(config_path, _config(Path("priors") / prior_src.name, seed, compare,
-                                               emap, tau_mult))
         setup = build_run(config_path, quiet=args.quiet or args.json,
                           output=out / "chains" / name)
         say(f"[2/3] posterior run {i + 1}/{len(runs)}: {setup.model.name} "
@@ -125,7 +128,7 @@ def run(args: argparse.Namespace) -> int:
         result = run_sampler(setup.posterior, setup.settings, setup.folder, resume=True,
                              manifest=setup.manifest, fingerprint=setup.fingerprint,
                              show_progress=setup.show_progress)
-        s = result_summary(result, setup.settings)
+        s = result_summary(result)
         summaries[name] = s
         say(f"      {s['status']} after {s['steps']} steps, acceptance "
             f"{s['acceptance_fraction']:.2f}, tau " +
@@ -135,7 +138,8 @@ def run(args: argparse.Namespace) -> int:
     for name, *_ in reversed(runs):
         folder = out / "chains" / name
         data = compute_report(folder)
-        write_report(folder, data)
+        with output_set(folder / "report"):
+            write_report(folder, data)
         v = data["verdicts"]
         reports[name] = v
         bf = v["best_fit"]

@@ -21,11 +21,19 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    import sys
+    from pathlib import Path
+
+    from ..io import output_set
     from ..reporting.report import compute_report, write_report
 
     data = compute_report(args.run_dir)
-    written = write_report(args.run_dir, data, output=args.output)
     v = data["verdicts"]
+    for note in v.get("loading_notes", []):
+        print(f"bouncelike: note: {note}", file=sys.stderr)
+    out = Path(args.output) if args.output is not None else Path(args.run_dir) / "report"
+    with output_set(out):  # all report files, or none
+        written = write_report(args.run_dir, data, output=args.output)
     if args.json:
         out = {k: v[k] for k in ("run_name", "model", "run_folder", "constraint_sets",
                                  "marginals", "best_fit", "allowed_prior_fraction",

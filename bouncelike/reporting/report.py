@@ -54,27 +54,13 @@ def report_settings(config: dict[str, Any], sampled: tuple[str, ...]) -> dict[st
     }
 
 
-def load_samples(folder: Path, manifest: dict[str, Any]) -> Any:
-    """Posterior samples of a run: samples.csv, or chain.csv past burn-in while running."""
-    import pandas as pd
-
-    path = folder / chains.SAMPLES
-    if path.is_file():
-        return pd.read_csv(path)
-    chain = folder / chains.CHAIN
-    if not chain.is_file():
-        raise InputError(f"run folder '{folder}' has no chain yet ({chains.CHAIN} missing)")
-    frame = pd.read_csv(chain)
-    burn = int(manifest.get("run", {}).get("burn_in", 0))
-    return frame[frame["step"] > burn]
-
-
 def compute_report(folder: str | Path) -> dict[str, Any]:
     """All numbers and figure data of a run's report (nothing is written)."""
     folder = Path(folder)
-    manifest = chains.read_manifest(folder)
+    manifest = chains.read_manifest(folder, chains.MANIFEST_NEEDS)
     prior, model, likelihood, posterior = rebuild_from_manifest(manifest)
-    frame = load_samples(folder, manifest)
+    frame, loading_notes = chains.load_samples(
+        folder, manifest, (*prior.sampled_names, "log_likelihood", "log_posterior"))
     frame = frame[np.isfinite(frame["log_posterior"])]
     if len(frame) < 10:
         raise InputError(f"run folder '{folder}' has fewer than 10 posterior samples")
@@ -136,6 +122,8 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
         "by_set": by_set,
         "verdict_rule": VERDICT_RULE,
         "failures": manifest.get("run", {}).get("failures", {}),
+        "failure_summary": manifest.get("run", {}).get("failure_summary", {}),
+        "loading_notes": loading_notes,
         "methods": {
             "intervals": "equal-tailed quantiles of the posterior samples; one-sided 95% "
                          "limit when the marginal does not separate from a prior bound "
@@ -166,7 +154,8 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
     fig_data = _figure_data(prior, model, likelihood, frame, x, best_spectra, rs, rng,
                             params_of, best_theta)
     return {"verdicts": verdict, "figures": fig_data, "settings": rs, "prior": prior,
-            "frame": frame, "sampled": sampled, "derived": derived, "manifest": manifest}
+            "frame": frame, "sampled": sampled, "derived": derived, "manifest": manifest,
+            "constraint_sets": likelihood.sets}
 
 
 def compute_report_verdicts_only(folder: Path) -> dict[str, Any]:
@@ -216,7 +205,7 @@ def _figure_data(prior: Any, model: Any, likelihood: Any, frame: Any, x: np.ndar
     ga, gb = axis(ia, pa), axis(ib, pb)
     from ..likelihood.gaussian import GaussianLikelihood
 
-    singles = {s.name: GaussianLikelihood.from_names([s.name]) for s in likelihood.sets}
+    singles = {s.name: GaussianLikelihood([s]) for s in likelihood.sets}
     level = np.full((gb.size, ga.size), np.nan)
     per_set = {n: np.zeros((gb.size, ga.size), bool) for n in singles}
     for j, vb in enumerate(gb):
@@ -308,9 +297,7 @@ def write_report(folder: str | Path, data: dict[str, Any],
         f"{v['run_name']}, model {v['model']}, {v['samples_used']} samples after burn-in.\n"
         + cite)
     fd = data["figures"]
-    from ..likelihood.sets import load_constraint_set
-
-    set_objs = [load_constraint_set(s["name"]) for s in sets_meta]
+    set_objs = list(data["constraint_sets"])  # as the run used them (user set files too)
     fig = figures.spectra_figure(fd["k"], fd["best"], fd["scalar"], fd["tensor"], set_objs,
                                  f"{v['run_name']}: best fit and posterior bands")
     written += figures.save_with_caption(

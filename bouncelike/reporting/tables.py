@@ -99,6 +99,9 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
                    + ("" if run.get("tau_reliable", True) else
                       " (chain shorter than the chosen multiple of tau: estimates unreliable)")
                    + ".")
+    for note in v.get("loading_notes", []):  # what reading the run folder had to drop
+        out.append("")
+        out.append(f"Note: {note}.")
     out.append("")
     out.append(f"**Best fit** (highest likelihood among {v['samples_used']} posterior samples): "
                f"chi2 = {_num(bf['chi2'])} for {bf['dof']} data points, p = "
