@@ -6,7 +6,8 @@ import math
 
 import numpy as np
 
-from .transfer_table import CERTIFIED_RANGES, load_transfer
+from ..errors import NotEvaluable
+from .transfer_table import certified_ranges, load_transfer
 
 CAP_EXPONENT = 600.0
 
@@ -24,27 +25,84 @@ class BounceSpectraModel:
     (|alpha| and rho do not depend on D to < 1e-4).
     Oscillations finer than the k grid (period pi/(x D) in x) are replaced by their period
     average (``average_unresolved=False``: pointwise T). ``derived(params)`` gives
-    ``certified`` (the window 1e-4-0.2 Mpc^-1 lies within the tabulated 0.01-100 k_LQC or
-    above it, and D within the calibrated range) and ``x_window_min``. Certified accuracy
+    ``certified`` (the window 1e-4-0.2 Mpc^-1 lies within the certified k/k_LQC ranges of
+    CERTIFIED_RANGES for this table) and ``x_window_min``. Certified accuracy
     (``bouncelike transfer-check``, dressed metric, remote-past state): <= 0.1% for window
     points above 0.1 k_LQC, <= 1% pointwise (max 0.50% with --seed 11) in the deepest troughs
-    between 0.01 and 0.1 k_LQC, for tilts within the calibrated range (others are clipped).
+    between 0.01 and 0.1 k_LQC; per table and potential in :mod:`.transfer`.
+
+    ``potential``: the family of backgrounds the cache was calibrated on ("quadratic",
+    "starobinsky"; :mod:`.transfer_backgrounds`); another potential is refused (InputError with
+    the reason). A background outside what the cache covers is not evaluable
+    (:class:`~bouncelike.errors.NotEvaluable`, one line naming the quantity and the covered
+    range; :meth:`coverage`): D outside the calibration rows, n_s - 1 or n_t = -r/8 outside the
+    calibrated tilts (when D is given: the residual phase depends on them), V_B/rho_c (optional
+    parameter ``log10_potential_fraction``) outside the calibrated range, or a window reaching
+    below the smallest x where the state is set on the calibration backgrounds (the remote-past
+    state on Starobinsky bounces). Edge values are never held.
     """
 
     parameter_names = ("ln_1e10_As", "n_s", "r", "log10_k_lqc", "log10_conformal_duration")
+    #: read when present: V_B/rho_c of the background, checked against the cached range
+    optional_parameter_names = ("log10_conformal_duration", "log10_potential_fraction")
 
     def __init__(self, prescription: str = "dressed_metric", state: str = "remote_past",
                  pivot: float = 0.05, k_grid: np.ndarray | None = None,
-                 average_unresolved: bool = True):
-        self.table = load_transfer(prescription, state)
+                 average_unresolved: bool = True, potential: str = "quadratic"):
+        from .transfer_backgrounds import family
+
+        family(potential)  # InputError for a potential without a cache, with the reason
+        self.table = load_transfer(prescription, state, potential)
         self.average_unresolved = average_unresolved
         self.pivot = pivot
         self.k = np.geomspace(1e-5, 1.0, 300) if k_grid is None else np.asarray(k_grid)
         self._dlnk = float(np.log(self.k[-1] / self.k[0]) / max(len(self.k) - 1, 1))
 
+    def coverage(self, params: dict) -> None:
+        """Raise NotEvaluable (one line: what is out of range, the covered range) for a
+        background the cache does not cover: conformal duration, tilts (both only with D
+        given), bounce potential fraction (when given), or a window reaching modes below the
+        smallest x where the state is set on the calibration backgrounds. D and the tilts are
+        checked only where the window meets the tabulated range (they set the features'
+        phase)."""
+        t = self.table
+        what = f"({t.prescription}, {t.state}, {t.family} bounces)"
+        ld = params.get("log10_conformal_duration")
+        xmin = 1e-4 / 10 ** params["log10_k_lqc"]
+        # D and the tilts set the phase of the features: they matter where the window meets
+        # the tabulated range (above it the dressed-metric T is 1; the deformed algebra keeps
+        # the anchor's oscillation)
+        features = xmin < t.x[-1] or t.growth_per_x > 0
+        if ld is not None and features:
+            lo, hi = t.d_range
+            if not lo <= 10**ld <= hi:
+                raise NotEvaluable(f"bounce transfer: conformal duration D = {10**ld:.4g} is "
+                                   f"outside the cached range {lo:.4g}-{hi:.4g} {what}")
+            if t.tilt_range is not None:
+                for f, tilt, name in (("scalar", params["n_s"] - 1, "n_s - 1"),
+                                      ("tensor", -params.get("r", 0.0) / 8, "n_t = -r/8")):
+                    a, b = t.tilt_range[f]
+                    if f == "tensor" and not params.get("r", 0.0) > 0:
+                        continue  # no tensors: their phase does not enter
+                    if not a <= tilt <= b:
+                        raise NotEvaluable(f"bounce transfer: {name} = {tilt:.4g} is outside "
+                                           f"the calibrated range {a:.4g} to {b:.4g} {what}")
+        lf = params.get("log10_potential_fraction")
+        if lf is not None and t.fraction_range is not None:
+            a, b = t.fraction_range
+            if not a * (1 - 1e-9) <= 10**lf <= b * (1 + 1e-9):
+                raise NotEvaluable(f"bounce transfer: potential fraction V_B/rho_c = "
+                                   f"{10**lf:.3g} is outside the cached range {a:.3g}-{b:.3g} "
+                                   f"{what}")
+        if t.x_state_min > t.x[0] and xmin < t.x_state_min:
+            raise NotEvaluable(f"bounce transfer: the observable window reaches k = {xmin:.3g} "
+                               f"k_LQC, below {t.x_state_min:.3g} k_LQC where the "
+                               f"'{t.state}' state is not set on these backgrounds {what}")
+
     def spectra(self, params: dict):
         from ..spectra.tabulated import TabulatedSpectra
 
+        self.coverage(params)
         a_s = math.exp(params["ln_1e10_As"]) * 1e-10
         r = params.get("r", 0.0)
         x = self.k / 10 ** params["log10_k_lqc"]
@@ -66,19 +124,17 @@ class BounceSpectraModel:
         pt = r * a_s * np.exp(-r / 8 * lk + ltt) if r > 0 else np.zeros_like(ps)
         notes = () if self.derived(params)["certified"] else (
             "bounce transfer used outside its certified range (CERTIFIED_RANGES of "
-            "k/k_LQC over the observable window, or conformal duration outside the "
-            "calibrated range)",)
+            "k/k_LQC over the observable window)",)
         if np.any(capped):
             notes = (*notes, "deformed algebra: transfer above e^600 capped by a common factor "
                      "(a lower bound; P_t/P_s kept)")
         return TabulatedSpectra(self.k, ps, pt, notes=notes, label="bounce transfer model")
 
     def derived(self, params: dict) -> dict:
+        self.coverage(params)
         xmin = 1e-4 / 10 ** params["log10_k_lqc"]
         xmax = 0.2 / 10 ** params["log10_k_lqc"]
-        lo, hi = self.table.d_range
-        ld = params.get("log10_conformal_duration")
-        d_ok = ld is None or lo <= 10**ld <= hi
-        ranges = CERTIFIED_RANGES.get((self.table.prescription, self.table.state), ())
+        t = self.table
+        ranges = certified_ranges(t.prescription, t.state, t.family)
         inside = any(a <= xmin and xmax <= b for a, b in ranges)
-        return {"certified": bool(inside and d_ok), "x_window_min": xmin}
+        return {"certified": bool(inside), "x_window_min": xmin}

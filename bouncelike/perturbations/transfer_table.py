@@ -18,10 +18,10 @@ from .transfer_decomposition import (
     _tilt,
     _tilt_basis,
     decompose,
-    quadratic_bounce,
 )
 
 # calibration backgrounds: phi_B = 1.2 and masses chosen to span D ~ 2.5e3 - 1.4e4
+# (the rows of the quadratic family, transfer_backgrounds.FAMILIES)
 CALIBRATION_MASSES = tuple(float(m) for m in np.geomspace(0.45e-6, 6.5e-6, 9))
 CALIBRATION_PHI_B = 1.2
 # further bounce fields at the same masses: fit of the tilt dependence of theta (TILT_BASIS)
@@ -44,6 +44,9 @@ class TransferTable:
     tilt_coef: dict | None = None      # field -> (nbasis, nx): theta correction per basis term
     tilt_range: dict | None = None     # field -> (lo, hi) tilts of the calibration backgrounds
     sign_convention: str = "fixed_slow_roll"  # dressed-metric scalar potential it was built with
+    family: str = "quadratic"          # potential of the calibration backgrounds
+    fraction_range: tuple | None = None  # (lo, hi) V_B/rho_c of the calibration backgrounds
+    x_state_min: float = float(X_GRID[0])  # smallest x where the state is set on every row
 
     @property
     def d_range(self) -> tuple[float, float]:
@@ -157,7 +160,10 @@ class TransferTable:
     def save(self, path: Path) -> None:
         np.savez_compressed(
             path, x=self.x, d_grid=self.d_grid, growth=self.growth_per_x,
-            meta=np.array([self.prescription, self.state, self.sign_convention]),
+            meta=np.array([self.prescription, self.state, self.sign_convention, self.family]),
+            x_state_min=self.x_state_min,
+            **({} if self.fraction_range is None else
+               {"fraction_range": np.asarray(self.fraction_range, dtype=float)}),
             **{f"{q}_{f}": getattr(self, q)[f] for q in ("ln_alpha", "ln_rho", "theta")
                for f in FIELDS},
             **({} if self.tilt_coef is None else {
@@ -165,28 +171,53 @@ class TransferTable:
                 for q in ("tilt0", "tilt_coef", "tilt_range") for f in FIELDS}))
 
 
-def build_transfer(prescription: str = "dressed_metric", state: str = "remote_past",
-                   show_progress: bool = False) -> TransferTable:
-    """Exact decompositions on the calibration backgrounds -> cache."""
-    from ..progress import progress
+def table_path(prescription: str, state: str, family: str = "quadratic") -> Path:
+    """data/transfer_<prescription>_<state>[_<family>].npz (no suffix for quadratic)."""
+    suffix = "" if family == "quadratic" else f"_{family}"
+    return DATA / f"transfer_{prescription}_{state}{suffix}.npz"
 
+
+def _state_x_min(decs: list) -> float:
+    """Smallest grid x above which every row's state met the remote-past tolerance (states
+    set at the bounce report NaN: always met)."""
+    from .states import REMOTE_PAST_TOLERANCE
+
+    ad = np.array([np.nan_to_num(d.start_adiabaticity, nan=0.0)
+                   if d.start_adiabaticity is not None else np.zeros(len(d.x)) for d in decs])
+    bad = np.nonzero(np.any(ad > REMOTE_PAST_TOLERANCE, axis=0))[0]
+    if not len(bad):
+        return float(X_GRID[0])
+    if bad[-1] + 1 >= len(X_GRID):
+        raise NumericalFailure("transfer: the state is not set anywhere on the grid")
+    return float(X_GRID[bad[-1] + 1])
+
+
+def build_transfer(prescription: str = "dressed_metric", state: str = "remote_past",
+                   show_progress: bool = False, family: str = "quadratic") -> TransferTable:
+    """Exact decompositions on the calibration backgrounds of ``family`` -> cache."""
+    from ..progress import progress
+    from .transfer_backgrounds import family as background_family
+
+    fam = background_family(family)
     rows = {f: [] for f in FIELDS}
     extra = {f: [] for f in FIELDS}
     durations = []
-    grid = [(m, CALIBRATION_PHI_B) for m in CALIBRATION_MASSES]
+    grid = list(fam.calibration)
     if prescription == "dressed_metric":
-        grid += [(m, pb) for pb in TILT_PHI_B for m in CALIBRATION_MASSES]
-    for m, pb in progress(grid, total=len(grid), desc="calibration", enabled=show_progress):
+        grid += list(fam.tilt_rows)
+    for p, q in progress(grid, total=len(grid), desc=f"calibration ({family})",
+                         enabled=show_progress):
+        main_row = (p, q) in fam.calibration
         try:
-            tab = quadratic_bounce(m, pb)
+            tab = fam.background(p, q)
             decs = {f: decompose(tab, X_GRID, f, prescription, state) for f in FIELDS}
         except NumericalFailure:
-            if pb == CALIBRATION_PHI_B:
+            if main_row:
                 raise
             continue  # the state cannot be set at the default past density there
         for f in FIELDS:
-            (rows if pb == CALIBRATION_PHI_B else extra)[f].append(decs[f])
-        if pb == CALIBRATION_PHI_B:
+            (rows if main_row else extra)[f].append(decs[f])
+        if main_row:
             durations.append(decs["scalar"].duration)
     order = np.argsort(durations)
     d_grid = np.array(durations)[order]
@@ -225,7 +256,7 @@ def build_transfer(prescription: str = "dressed_metric", state: str = "remote_pa
     if prescription == "deformed_algebra":
         from .forward import euclidean_growth_rate
 
-        tab = quadratic_bounce(CALIBRATION_MASSES[0], CALIBRATION_PHI_B)
+        tab = fam.background(*fam.calibration[0])
         growth = euclidean_growth_rate(tab) * tab.k_lqc
     from .prescriptions import DEFAULT_SIGN_CONVENTION
 
@@ -233,14 +264,17 @@ def build_transfer(prescription: str = "dressed_metric", state: str = "remote_pa
                          growth, *((tilt0, tilt_coef, tilt_range) if tilt_coef else
                                    (None, None, None)),
                          "classical" if prescription == "deformed_algebra"
-                         else DEFAULT_SIGN_CONVENTION)
+                         else DEFAULT_SIGN_CONVENTION, family,
+                         fam.fraction_range(),
+                         _state_x_min([*rows["scalar"], *rows["tensor"], *extra["scalar"],
+                                       *extra["tensor"]]))
 
 
-@functools.lru_cache(maxsize=4)
-def load_transfer(prescription: str = "dressed_metric",
-                  state: str = "remote_past") -> TransferTable:
+@functools.lru_cache(maxsize=8)
+def load_transfer(prescription: str = "dressed_metric", state: str = "remote_past",
+                  family: str = "quadratic") -> TransferTable:
     """The shipped cache (bouncelike/perturbations/data/), built on the fly when absent."""
-    path = DATA / f"transfer_{prescription}_{state}.npz"
+    path = table_path(prescription, state, family)
     if path.is_file():
         d = np.load(path)
         if "d_grid" in d:
@@ -254,8 +288,12 @@ def load_transfer(prescription: str = "dressed_metric",
                                  {f: d[f"ln_alpha_{f}"] for f in FIELDS},
                                  {f: d[f"ln_rho_{f}"] for f in FIELDS},
                                  {f: d[f"theta_{f}"] for f in FIELDS}, float(d["growth"]),
-                                 *tilt, meta[2] if len(meta) > 2 else "fixed_slow_roll")
-    return build_transfer(prescription, state)
+                                 *tilt, meta[2] if len(meta) > 2 else "fixed_slow_roll",
+                                 meta[3] if len(meta) > 3 else "quadratic",
+                                 tuple(d["fraction_range"]) if "fraction_range" in d else None,
+                                 float(d["x_state_min"]) if "x_state_min" in d
+                                 else float(X_GRID[0]))
+    return build_transfer(prescription, state, family=family)
 
 
 # k/k_LQC intervals where the period-averaged transfer met 1% in ``bouncelike transfer-check
@@ -266,16 +304,35 @@ def load_transfer(prescription: str = "dressed_metric",
 # adiabatic state exists at the bounce only above ~3.8 k_LQC; below, that name gives the
 # remote-past state (states.py), certified alike.
 CERTIFIED_RANGES = {
-    ("dressed_metric", "remote_past"): ((0.01, math.inf),),
-    ("deformed_algebra", "remote_past"): ((0.01, 100.0),),
-    ("dressed_metric", "bounce_adiabatic4"): ((0.01, math.inf),),
+    ("dressed_metric", "remote_past", "quadratic"): ((0.01, math.inf),),
+    ("deformed_algebra", "remote_past", "quadratic"): ((0.01, 100.0),),
+    ("dressed_metric", "bounce_adiabatic4", "quadratic"): ((0.01, math.inf),),
 }
+
+
+#: the shipped tables: (prescription, state) for every family of transfer_backgrounds
+SHIPPED_TABLES = (("dressed_metric", "remote_past"), ("deformed_algebra", "remote_past"),
+                  ("dressed_metric", "bounce_adiabatic4"), ("dressed_metric", "non_oscillating"),
+                  ("dressed_metric", "low_energy"))
+
+
+def certified_ranges(prescription: str, state: str, family: str = "quadratic") -> tuple:
+    """k/k_LQC intervals of CERTIFIED_RANGES for this table (empty: not certified)."""
+    return CERTIFIED_RANGES.get((prescription, state, family), ())
 
 
 def main() -> None:  # pragma: no cover - maintenance entry point
     """Rebuild the shipped caches: python3 -m bouncelike.perturbations.transfer."""
-    for presc, st in (("dressed_metric", "remote_past"), ("deformed_algebra", "remote_past"),
-                      ("dressed_metric", "bounce_adiabatic4")):
-        t = build_transfer(presc, st, show_progress=True)
-        t.save(DATA / f"transfer_{presc}_{st}.npz")
-        print(f"wrote transfer_{presc}_{st}.npz (D grid {t.d_range[0]:.0f}-{t.d_range[1]:.0f})")
+    import time
+
+    from .transfer_backgrounds import FAMILIES
+
+    for fam in FAMILIES:
+        for presc, st in SHIPPED_TABLES:
+            t0 = time.time()
+            t = build_transfer(presc, st, show_progress=True, family=fam)
+            path = table_path(presc, st, fam)
+            t.save(path)
+            print(f"wrote {path.name} ({path.stat().st_size / 1e3:.0f} kB, "
+                  f"{time.time() - t0:.0f} s; D grid {t.d_range[0]:.0f}-{t.d_range[1]:.0f}, "
+                  f"state set above x = {t.x_state_min:.3g})")
