@@ -6,7 +6,9 @@ Shortly after the bounce (at ln(a/a_B) = ``MATCH_EFOLDS`` = 3.5, still in the ki
 every inflaton mass ~1e-6 of interest) each mode is a combination alpha f + beta f* of the
 adiabatic positive- and negative-frequency solutions. alpha(x) and beta(x), x = k/k_LQC, are set
 by the bounce alone: near the bounce the potential is a fraction ~1e-11 of rho_c, so every such
-background is the massless bounce there and |beta/alpha| agrees between backgrounds to 1e-5.
+background is the massless bounce there and |beta/alpha| agrees between backgrounds to 1e-5
+(quadratic family; for the remote-past state on Starobinsky bounces the contracting history
+enters too, see "Potential families" below).
 Both pieces then evolve with the *same* background-dependent mode X_+ (the adiabatic vacuum
 started there, whose freeze-out power is the standard spectrum P_std of that inflation) and its
 conjugate, so exactly
@@ -39,13 +41,18 @@ fast frequency when the modes were matched at 3 e-folds: the second-order adiaba
 there is not exact for k (eta_m - eta_B) ~ 5 (x = 0.01), so X_+ holds a small negative-frequency
 part. Matching at 3.5 e-folds removes it (measured ripple < 2e-6 rad at 4 e-folds).
 
-The cache (``data/transfer_<prescription>_<state>.npz``, ~150-200 kB each) holds
-ln|alpha|, ln rho and theta on X_GRID (401 points over 0.01-100) x the D of nine calibration
-backgrounds (phi_B = 1.2, masses 4.5e-7-6.5e-6: D = 3.1e3-1.7e4), interpolated linearly in
-(ln x, ln D), and for the dressed metric the tilt correction above. Rebuild it with
-``python3 -m bouncelike.perturbations.transfer`` (~1 min per dressed-metric table, ~20 s for
-the deformed algebra, on one core). The remote-past state is set per mode where
-rate/W <= 0.05 (:mod:`.states`; the calibration backgrounds reach down to
+The cache (``data/transfer_<prescription>_<state>[_<potential>].npz``, 124-199 kB each, ten
+tables, 1.7 MB) holds ln|alpha|, ln rho and theta on X_GRID (401 points over 0.01-100) x the D
+of the calibration backgrounds of one potential family (:mod:`.transfer_backgrounds`;
+quadratic: phi_B = 1.2, masses 4.5e-7-6.5e-6, D = 3.1e3-1.7e4; Starobinsky: V_B = 10^-7.3
+rho_c, M = 1.5e-6-4e-6, D = 2.3e4-4.5e4), interpolated linearly in (ln x, ln D), and for the
+dressed metric the tilt correction above (tilt rows: phi_B = 0.7, 1.8, 2.5; Starobinsky
+log10(V_B/rho_c) = -8, -7.6, -6.9). Tables: dressed metric x {remote_past, bounce_adiabatic4,
+non_oscillating, low_energy} and deformed algebra x remote_past, for each family. Rebuild all
+with ``python3 -m bouncelike.perturbations.transfer`` (23 min on one core: 22-100 s per
+remote-past, fourth-order or deformed-algebra table, 213-294 s for the two states set around
+the bounce, whose window construction costs more per mode). The remote-past state is set per
+mode where rate/W <= 0.05 (:mod:`.states`; the calibration backgrounds reach down to
 :func:`.states.remote_past_density` of x = 0.01, ~1.2e-12 Planck units): every calibration and
 certificate background reaches that tolerance for x >= 0.01 within its kinetic contracting era
 (measured minimum rate/W at x = 0.01: 0.007-0.048 for masses 4.5e-7-6.5e-6), and the spectra
@@ -58,8 +65,27 @@ where modes below ~k_LQC are not adiabatic) is not part of it. Certified in x >=
 masses up to 6.5e-6 (the minimum rate/W grows ~m^(2/3)/x: for heavier fields or x < 0.01 the
 forward model notes modes that do not reach the tolerance).
 
-Measured accuracy (``bouncelike transfer-check --backgrounds 6 --seed 11``, max relative error
-at 360 random points; pointwise / of the period-averaged T):
+Potential families and what they change (measured)
+---------------------------------------------------
+On Starobinsky bounces (the plateau Planck allows; the field on the steep side at the bounce,
+V_B/rho_c = 1e-8-1.3e-7 for 50-170 e-folds to the end of inflation) three things differ from
+the quadratic family. (1) D is 2.3e4-4.5e4, set by the plateau height (the kinetic era ends
+when rho falls to ~V_inf), hardly by V_B (31912 and 31783 at 10^-7.2 and 10^-7.6, M = 2.5e-6):
+outside the quadratic calibration, hence a table of its own. (2) The remote-past state is not
+set below 0.363 k_LQC: the contracting branch leaves the kinetic era within ~1 e-fold (the
+field climbs the steep side backwards in time) and modes below ~0.2-0.4 k_LQC are never
+adiabatic in it (minimum rate/W 1.4 at 0.01, 0.07 at 0.26 k_LQC; integrating further back,
+to 1e-20 Planck units, only lowers that edge to ~0.15 k_LQC). The fast model refuses windows
+reaching below it (FLOOR_REASONS). (3) theta at small x differs at equal D (-1.880 against
+-1.818 rad at 0.01 k_LQC between Starobinsky and quadratic remote-past rows of D ~ 3.2e4). A
+state set around the bounce sees only the bounce: |alpha| and rho of the non-oscillating state
+agree between the families to 2e-3 down to 0.01 k_LQC; the state of low energy, whose energy
+includes a^2 U, feels the steep side inside its window below ~0.1 k_LQC.
+The other shipped potentials (monomial, linear) have no table; the fast model refuses them.
+
+Measured accuracy (``bouncelike transfer-check --backgrounds 6 --points 60 --seed 11``, max
+relative error at 360 random points; pointwise / of the period-averaged T; quadratic family
+unless stated):
 
 * dressed metric, remote past (state set per mode where rate/W <= 0.05, classical sign
   convention): 0.01-0.03 k_LQC 0.50% / 7e-4; 0.03-0.1: 0.49% / 3e-4; 0.1-0.3: 0.09%;
@@ -88,20 +114,45 @@ at 360 random points; pointwise / of the period-averaged T):
   points over 1-10 k_LQC: 1.4e-3; 0.17 in the previous cache, whose state switched to W = k
   at the bounce near 2.4 k_LQC: mean T 1.076, 1.047, 1.009 at 2.5, 2.6, 2.8 k_LQC, now
   1.0052, 1.0040, 1.0023). CERTIFIED_RANGES covers 0.01-100 and above.
-(All three with ``--backgrounds 6 --seed 11``, after the remote-past start was made per mode.
-The deformed algebra with it: period mean <= 2e-5-7e-5 below 1 k_LQC, 1.4e-4 at 0.3-1,
+(All three with ``--backgrounds 6 --seed 11``, after the remote-past start was made per mode,
+and the same again after the rebuild with the families: remote past 0.50% / 2e-5, fourth-order
+0.50% / 2e-5, deformed algebra period mean 2e-5-7e-5 below 1 k_LQC, 1.4e-4 at 0.3-1,
 7e-4 at 3-10, 1.3e-3 at 10-30, 4.4e-3 at 30-100 k_LQC.)
+* dressed metric, non-oscillating state: 0.01-0.03 k_LQC 0.68% / 0.28%; 0.03-0.1: 0.61% /
+  0.25%; 0.1-0.3: 0.47% / 0.25%; 0.3-1: 0.58% / 0.23%; 1-3: 0.20% / 0.047%; 3-10: 1.4e-4;
+  above 10: < 6e-7. Certified 0.01-100 and above, pointwise. The period mean is what depends
+  on the background here (|alpha|, rho carry the window's small dependence on V_B), not theta.
+* dressed metric, state of low energy: 0.01-0.03 0.48% / 0.26%; 0.03-0.1: 0.26% / 0.23%;
+  0.1-0.3: 0.27% / 0.15%; 0.3-1: 0.12% / 0.094%; 1-3: 0.046%; 3-10: 5.6e-5; above 10:
+  < 6e-7. Certified 0.01-100 and above, pointwise.
+* Starobinsky (``--potential starobinsky``): remote past (``--x-min 0.363``) 0.3-1 k_LQC
+  0.33% / 6.9e-5, 1-3: 0.19%, 3-10: 8.6e-5, above 10: < 6e-6: certified from 0.363 k_LQC,
+  pointwise. Fourth-order state (``--x-min 0.363``): the same below 3 k_LQC, 3-10: 1.3%
+  pointwise (where the switch to the truncated series falls, which moves with V_B) / 1.4e-4:
+  certified from 0.363 for the period mean. Non-oscillating state: 0.01-0.03 0.53% / 0.39%;
+  0.03-0.1: 0.46% / 0.39%; 0.1-0.3: 0.37% / 0.35%; 0.3-1: 0.45% / 0.33%; 1-3: 0.17%; 3-10:
+  2.1e-4; above 10: < 4e-7: certified from 0.01, pointwise. State of low energy: 0.01-0.03
+  6.8% / 6.9% and 0.03-0.1 1.2% / 1.2% (the state feels the steep side there), 0.1-0.3 0.26%,
+  0.3-1 0.18%, 1-3 0.058%, 3-10 4.1e-5: certified from 0.1. Deformed algebra (``--x-min
+  0.363``): period mean <= 1.1e-4 at 3-10, 4.5e-4 at 10-30, 2.1e-3 at 30-100; below 3 k_LQC
+  the scalars of the steepest bounce (V_B ~ 1e-7 rho_c) grow by up to e^380 at 0.4-1.5 k_LQC
+  (exact integration; not investigated further): certified 3-100, refused below.
+* The tilts the Starobinsky rows span: n_s - 1 = -0.064 to -0.012, n_t = -0.0016 to -5e-5
+  (quadratic: -0.048 to -0.014 and -0.027 to -0.0073); a D or tilt outside its family's range
+  is refused by the fast model, not clipped.
 Above the grid the dressed-metric T is 1 (rho < 1e-12 there); the deformed-algebra ln T
 continues linearly in x with the WKB growth rate 2 k_LQC int sqrt(-Omega) d eta of the
 Euclidean phase (1.5942 per unit x; the exact slope between 60 and 100 k_LQC is 1.5945).
 
-:func:`certificate` draws random backgrounds (quadratic inflaton, mass and phi_B) and random x
-in 0.01-100, integrates the modes exactly and reports the maximum relative error of T, both
-pointwise and relative to the local mean |alpha|^2 (1 + rho^2) (the power averaged over one
-oscillation period, which is what any smoothing over Delta ln k >> pi/(x D) sees).
+:func:`certificate` draws random backgrounds of a family (quadratic: mass and phi_B;
+Starobinsky: mass and log10 V_B/rho_c) and random x in x_min-100, integrates the modes exactly
+and reports the maximum relative error of T, both pointwise and relative to the local mean
+|alpha|^2 (1 + rho^2) (the power averaged over one oscillation period, which is what any
+smoothing over Delta ln k >> pi/(x D) sees).
 :class:`BounceSpectraModel` evaluates a power law times T in well under a millisecond.
 
 Modules: :mod:`.transfer_decomposition` (exact alpha, rho, theta of one background),
+:mod:`.transfer_backgrounds` (families of calibration and certificate backgrounds),
 :mod:`.transfer_table` (TransferTable, build/load, CERTIFIED_RANGES), :mod:`.transfer_certificate`,
 :mod:`.transfer_model` (BounceSpectraModel), :mod:`.transfer_dense` (figure spectra). This module
 re-exports their public names.
@@ -109,6 +160,7 @@ re-exports their public names.
 
 from __future__ import annotations
 
+from .transfer_backgrounds import FAMILIES, REFUSED_POTENTIALS, starobinsky_bounce
 from .transfer_certificate import certificate
 from .transfer_decomposition import (
     FIELDS,
@@ -129,20 +181,24 @@ from .transfer_table import (
     CALIBRATION_PHI_B,
     CERTIFIED_RANGES,
     DATA,
+    SHIPPED_TABLES,
     TILT_PHI_B,
     UV_ANCHOR,
     TransferTable,
     build_transfer,
+    certified_ranges,
     load_transfer,
     main,
+    table_path,
 )
 
 __all__ = [
     "CALIBRATION_MASSES", "CALIBRATION_PHI_B", "CAP_EXPONENT", "CERTIFIED_RANGES", "DATA", "FIELDS",
-    "MATCH_EFOLDS", "TILT_PHI_B", "UV_ANCHOR", "X_GRID", "BounceSpectraModel", "Decomposition",
-    "TransferTable", "_theta", "_tilt", "_tilt_basis", "build_transfer", "certificate",
-    "conformal_duration", "decompose", "dense_spectrum", "load_transfer", "main",
-    "quadratic_bounce",
+    "FAMILIES", "MATCH_EFOLDS", "REFUSED_POTENTIALS", "SHIPPED_TABLES", "TILT_PHI_B", "UV_ANCHOR",
+    "X_GRID", "BounceSpectraModel", "Decomposition", "TransferTable", "_theta", "_tilt",
+    "_tilt_basis", "build_transfer", "certificate", "certified_ranges", "conformal_duration",
+    "decompose", "dense_spectrum", "load_transfer", "main", "quadratic_bounce",
+    "starobinsky_bounce", "table_path",
 ]
 
 if __name__ == "__main__":  # pragma: no cover

@@ -7,7 +7,7 @@ import math
 import numpy as np
 
 from ..errors import NotEvaluable
-from .transfer_table import certified_ranges, load_transfer
+from .transfer_table import certified_ranges, load_transfer, represented_floor
 
 CAP_EXPONENT = 600.0
 
@@ -38,8 +38,10 @@ class BounceSpectraModel:
     range; :meth:`coverage`): D outside the calibration rows, n_s - 1 or n_t = -r/8 outside the
     calibrated tilts (when D is given: the residual phase depends on them), V_B/rho_c (optional
     parameter ``log10_potential_fraction``) outside the calibrated range, or a window reaching
-    below the smallest x where the state is set on the calibration backgrounds (the remote-past
-    state on Starobinsky bounces). Edge values are never held.
+    below the smallest x the table represents for its whole family (``represented_floor``, e.g.
+    the remote-past state on Starobinsky bounces is not set below 0.363 k_LQC). Background
+    edge values are never held; a window below the tabulated 0.01 k_LQC of a quadratic table is
+    evaluated with the edge values and flagged uncertified (``certified`` = 0), as before.
     """
 
     parameter_names = ("ln_1e10_As", "n_s", "r", "log10_k_lqc", "log10_conformal_duration")
@@ -94,10 +96,10 @@ class BounceSpectraModel:
                 raise NotEvaluable(f"bounce transfer: potential fraction V_B/rho_c = "
                                    f"{10**lf:.3g} is outside the cached range {a:.3g}-{b:.3g} "
                                    f"{what}")
-        if t.x_state_min > t.x[0] and xmin < t.x_state_min:
+        floor, why = represented_floor(t)
+        if why and xmin < floor:
             raise NotEvaluable(f"bounce transfer: the observable window reaches k = {xmin:.3g} "
-                               f"k_LQC, below {t.x_state_min:.3g} k_LQC where the "
-                               f"'{t.state}' state is not set on these backgrounds {what}")
+                               f"k_LQC, below {floor:.3g} k_LQC, where {why} {what}")
 
     def spectra(self, params: dict):
         from ..spectra.tabulated import TabulatedSpectra

@@ -178,8 +178,11 @@ def table_path(prescription: str, state: str, family: str = "quadratic") -> Path
 
 
 def _state_x_min(decs: list) -> float:
-    """Smallest grid x above which every row's state met the remote-past tolerance (states
-    set at the bounce report NaN: always met)."""
+    """Smallest grid x above which the state met the remote-past tolerance on every
+    calibration row (the rows that carry |alpha|, rho and theta; states set at the bounce
+    report NaN: always met). The tilt rows only correct theta and are not counted (on the
+    quadratic family the heaviest of them, m = 6.5e-6 with phi_B != 1.2, miss the tolerance
+    at 0.01-0.012 k_LQC by a little; the certificate measures what that costs)."""
     from .states import REMOTE_PAST_TOLERANCE
 
     ad = np.array([np.nan_to_num(d.start_adiabaticity, nan=0.0)
@@ -266,8 +269,7 @@ def build_transfer(prescription: str = "dressed_metric", state: str = "remote_pa
                          "classical" if prescription == "deformed_algebra"
                          else DEFAULT_SIGN_CONVENTION, family,
                          fam.fraction_range(),
-                         _state_x_min([*rows["scalar"], *rows["tensor"], *extra["scalar"],
-                                       *extra["tensor"]]))
+                         _state_x_min([*rows["scalar"], *rows["tensor"]]))
 
 
 @functools.lru_cache(maxsize=8)
@@ -297,16 +299,41 @@ def load_transfer(prescription: str = "dressed_metric", state: str = "remote_pas
 
 
 # k/k_LQC intervals where the period-averaged transfer met 1% in ``bouncelike transfer-check
-# --backgrounds 6 --seed 11`` (measured; both dressed-metric states meet 1% pointwise too: max
-# 0.50%). Infrared edge 0.01 k_LQC: there every inflaton mass up to 6.5e-6 reaches the
+# --backgrounds 6 --points 60 --seed 11`` (with --state, --potential and, for the remote-past
+# state on Starobinsky bounces, --x-min 0.363; measured errors in transfer.py). Infrared edge
+# 0.01 k_LQC on the quadratic family: there every inflaton mass up to 6.5e-6 reaches the
 # remote-past tolerance rate/W <= 0.05 in its kinetic contracting era (states.py); the state is
 # the adiabatic vacuum of that era, not of any earlier contracting history. The fourth-order
 # adiabatic state exists at the bounce only above ~3.8 k_LQC; below, that name gives the
-# remote-past state (states.py), certified alike.
+# remote-past state (states.py), certified alike. Where a range starts above the table's first
+# x, the cache does not represent the family there and the fast model refuses windows reaching
+# below it, with the reason in FLOOR_REASONS.
 CERTIFIED_RANGES = {
     ("dressed_metric", "remote_past", "quadratic"): ((0.01, math.inf),),
     ("deformed_algebra", "remote_past", "quadratic"): ((0.01, 100.0),),
     ("dressed_metric", "bounce_adiabatic4", "quadratic"): ((0.01, math.inf),),
+    ("dressed_metric", "non_oscillating", "quadratic"): ((0.01, math.inf),),
+    ("dressed_metric", "low_energy", "quadratic"): ((0.01, math.inf),),
+    ("dressed_metric", "remote_past", "starobinsky"): ((0.363, math.inf),),
+    ("dressed_metric", "bounce_adiabatic4", "starobinsky"): ((0.363, math.inf),),
+    ("dressed_metric", "non_oscillating", "starobinsky"): ((0.01, math.inf),),
+    ("dressed_metric", "low_energy", "starobinsky"): ((0.1, math.inf),),
+    ("deformed_algebra", "remote_past", "starobinsky"): ((3.0, 100.0),),
+}
+_NOT_SET = ("the remote-past state is not set there (the contracting branch of these bounces "
+            "leaves the kinetic era within ~1 e-fold and such modes are never adiabatic in it: "
+            "rate/W >= 0.06 at best)")
+#: why the cache does not represent its family below the first certified x
+FLOOR_REASONS = {
+    ("dressed_metric", "remote_past", "starobinsky"): _NOT_SET,
+    ("dressed_metric", "bounce_adiabatic4", "starobinsky"): _NOT_SET,
+    ("deformed_algebra", "remote_past", "starobinsky"): (
+        "deformed-algebra scalars grow by up to e^380 at 0.4-1.5 k_LQC on the steepest of these "
+        "bounces (V_B ~ 1e-7 rho_c), a dependence on the background the table does not carry"),
+    ("dressed_metric", "low_energy", "starobinsky"): (
+        "the state of low energy depends there on the steep side of the potential inside the "
+        "bounce window (a^2 U up to ~7e-5 against k^2 ~ 1e-3 at 0.01 k_LQC), which the table "
+        "does not carry (errors 7% at 0.01-0.03, 1.2% at 0.03-0.1 k_LQC)"),
 }
 
 
@@ -319,6 +346,18 @@ SHIPPED_TABLES = (("dressed_metric", "remote_past"), ("deformed_algebra", "remot
 def certified_ranges(prescription: str, state: str, family: str = "quadratic") -> tuple:
     """k/k_LQC intervals of CERTIFIED_RANGES for this table (empty: not certified)."""
     return CERTIFIED_RANGES.get((prescription, state, family), ())
+
+
+def represented_floor(table: TransferTable) -> tuple[float, str]:
+    """(smallest x the table represents for its whole family, why not below): the first
+    certified x where that lies above the table's grid, else the grid's start."""
+    key = (table.prescription, table.state, table.family)
+    ranges = CERTIFIED_RANGES.get(key, ())
+    floor = min((a for a, _ in ranges), default=float(table.x[0]))
+    floor = max(floor, table.x_state_min)
+    if floor <= float(table.x[0]) * (1 + 1e-9):
+        return float(table.x[0]), ""
+    return floor, FLOOR_REASONS.get(key, f"the '{table.state}' state is not set there")
 
 
 def main() -> None:  # pragma: no cover - maintenance entry point
