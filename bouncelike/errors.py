@@ -27,8 +27,10 @@ class NotEvaluable(NumericalFailure):
 
     Raised (with a physical reason, e.g. "inflation does not end before the e-fold cap") for a
     parameter point whose spectra cannot be computed or cannot be represented by what the
-    likelihood scores. Such a point is reported as *not evaluable*, never as excluded by the
-    data: a posterior run records it (parameters and reason) and gives it no posterior weight.
+    likelihood scores -- e.g. a featured spectrum whose features reach a pivot's window, or
+    spectra that are not positive where the large-scale temperature projection needs them.
+    Such a point is reported as *not evaluable*, never as excluded by the data: a posterior run
+    records it (parameters and reason) and gives it no posterior weight.
     """
 
 

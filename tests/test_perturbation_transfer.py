@@ -157,6 +157,9 @@ def test_transfer_check_command(capsys):
                      "--json"]) == 0
     out = json.loads(capsys.readouterr().out)
     assert out["max_error_above"]["0.1"] <= 0.01
+    from cli_helpers import check_provenance
+
+    check_provenance(out["provenance"], "transfer-check", None, ())
 
 
 def test_dense_figure_spectrum_resolves_the_oscillations():

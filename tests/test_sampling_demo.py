@@ -6,6 +6,7 @@ import json
 
 import pandas as pd
 import pytest
+from cli_helpers import check_provenance
 
 from bouncelike.cli import main
 
@@ -17,10 +18,12 @@ def test_demo_runs_end_to_end(tmp_path, capsys):
     summary = json.loads(capsys.readouterr().out)
     assert summary["output"] == str(out)
     assert (out / "score.json").is_file()
+    check_provenance(summary["provenance"], "demo", None, ("planck2018_base", "bk18"))
+    assert json.loads((out / "score.json").read_text())["provenance"] == summary["provenance"]
     for name in ("starobinsky", "quadratic"):
         report = out / "chains" / name / "report"
         for f in ("verdicts.md", "marginals.tex", "triangle.png", "spectra.pdf",
-                  "exclusion_map.png", "efolds.caption.txt"):
+                  "exclusion_map.png", "efolds.caption.txt", "ns_r.png", "ns_r.json"):
             assert (report / f).is_file(), (name, f)
         assert summary["runs"][name]["steps"] > 0
     # Planck 2018 X (arXiv:1807.06211), Sec. 4: plateau (R^2) inflation is allowed while
@@ -35,7 +38,20 @@ def test_demo_runs_end_to_end(tmp_path, capsys):
     # added, with or without a bounce far from the window; physics notes, section 5:
     # features reach the pivot only for N_B* <~ 13-15, so the data keep N_B* above ~13
     assert v["bounce"]["best_fit"]["verdict"] == "excluded"
-    assert (out / "chains" / "bounce" / "report" / "efolds.png").is_file()
+    report = out / "chains" / "bounce" / "report"
+    for f in ("efolds.png", "ns_r.png", "not_evaluable.png", "not_evaluable.json"):
+        assert (report / f).is_file(), f
+    bounce = json.loads((report / "verdicts.json").read_text())
+    manifest = json.loads((out / "chains" / "bounce" / "manifest.json").read_text())
+    check_provenance(manifest["provenance"], "sample", out / "bounce.toml")
+    check_provenance(bounce["provenance"], "demo", out / "chains" / "bounce" / "manifest.json")
+    assert bounce["provenance"]["upstream"] == manifest["provenance"]
+    # the lower limit on the bounce potential fraction is where the spectra stop being
+    # representable by the pivot summary (features in the window), not a data bound
+    edge = {c["parameter"]: c for c in bounce["not_evaluable"]["coincidences"]
+            if c["side"] == "below"}
+    assert edge["log10_potential_fraction"]["coincides"]
+    assert "not a data bound" in (report / "verdicts.md").read_text()
     samples = pd.read_csv(out / "chains" / "bounce" / "samples.csv")
     assert samples["N_B_star"].quantile(0.05) > 13.0
     # every run folder lists its failed evaluations; no staging folder is left anywhere

@@ -18,12 +18,12 @@ import pytest
 from sampling_targets import COV, MEAN, SETTINGS, gaussian_posterior, gaussian_prior
 
 from bouncelike.errors import InputError
+from bouncelike.reporting.marginals import marginal_statistics
 from bouncelike.sampling import chains
 from bouncelike.sampling.driver import SamplerSettings, run_sampler
 from bouncelike.sampling.failures import load_failures
 from bouncelike.sampling.lock import process_start
 from bouncelike.sampling.storage import read_state
-from bouncelike.sampling.verdicts import marginal_statistics
 
 ROOT = Path(__file__).resolve().parents[1]
 TESTS = Path(__file__).resolve().parent

@@ -10,11 +10,16 @@ oscillation-averaged T.
 
 from __future__ import annotations
 
+from typing import Any
+
+from ._layer import CommandResult, Options
+
 NAME = "transfer-check"
 HELP = "certify the cached bounce transfer against exact mode integration at random points"
+OPTIONS = Options(compiles=True)
 
 
-def add_arguments(parser) -> None:
+def add_arguments(parser: Any) -> None:
     from ..perturbations.states import STATES
     from ..perturbations.transfer_backgrounds import FAMILIES
 
@@ -30,14 +35,10 @@ def add_arguments(parser) -> None:
     parser.add_argument("--points", type=int, default=60,
                         help="random x per background (default 60)")
     parser.add_argument("--seed", type=int, default=0)
-    parser.add_argument("--json", action="store_true", help="print the certificate as JSON")
 
 
-def run(args) -> int:
-    import json
-
+def run(args: Any, session: Any) -> CommandResult:
     from ..errors import InputError
-    from ..io import json_safe
     from ..perturbations.transfer import certificate
 
     if args.points < 2:
@@ -51,28 +52,31 @@ def run(args) -> int:
                          "(the tabulated k/k_LQC)")
     c = certificate(args.backgrounds, args.points, args.seed, args.prescription, args.state,
                     (args.x_min, 100.0), args.potential)
-    if args.json:
-        print(json.dumps(json_safe(c)))
-        return 0
+    return CommandResult(data=c, text=certificate_text(c, args))
+
+
+def certificate_text(c: dict, args: Any) -> str:
     tol = c["tolerance"]
-    print(f"transfer ({args.prescription}, {args.state}, {args.potential}): {args.backgrounds} "
-          f"random backgrounds x {args.points} random k/k_LQC in {args.x_min:g}-100; conformal "
-          "duration calibrated over "
-          f"{c['conformal_duration_range'][0]:.0f}-{c['conformal_duration_range'][1]:.0f}")
-    print("  k/k_LQC range   max rel. error   vs period mean   of period mean   target 1%")
+    lines = [
+        f"transfer ({args.prescription}, {args.state}, {args.potential}): {args.backgrounds} "
+        f"random backgrounds x {args.points} random k/k_LQC in {args.x_min:g}-100; conformal "
+        "duration calibrated over "
+        f"{c['conformal_duration_range'][0]:.0f}-{c['conformal_duration_range'][1]:.0f}",
+        "  k/k_LQC range   max rel. error   vs period mean   of period mean   target 1%"]
     for rng, err in c["max_error_by_range"].items():
         if err is None:
-            print(f"  {rng:>13}   {'(no points)':>14}")
+            lines.append(f"  {rng:>13}   {'(no points)':>14}")
             continue
         em = c["max_error_vs_mean_by_range"][rng]
         ea = c["max_error_of_period_mean_by_range"][rng]
-        print(f"  {rng:>13}   {err:14.2e}   {em:14.2e}   {ea:14.2e}   "
-              f"{'met' if err <= tol else 'NOT met'}")
-    print("  k/k_LQC >=      max rel. error   vs period mean")
+        lines.append(f"  {rng:>13}   {err:14.2e}   {em:14.2e}   {ea:14.2e}   "
+                     f"{'met' if err <= tol else 'NOT met'}")
+    lines.append("  k/k_LQC >=      max rel. error   vs period mean")
     for cut, err in c["max_error_above"].items():
         em = c["max_error_vs_mean_above"][cut]
-        print(f"  {cut:>13}   {err:14.2e}   {em:14.2e}   {'met' if err <= tol else 'NOT met'}")
+        lines.append(f"  {cut:>13}   {err:14.2e}   {em:14.2e}   "
+                     f"{'met' if err <= tol else 'NOT met'}")
     if c["skipped"]:
-        print(f"  ({len(c['skipped'])} backgrounds skipped: the state cannot be set at the "
-              "default past density there, as in the forward model)")
-    return 0
+        lines.append(f"  ({len(c['skipped'])} backgrounds skipped: the state cannot be set at "
+                     "the default past density there, as in the forward model)")
+    return "\n".join(lines)

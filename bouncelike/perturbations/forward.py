@@ -168,10 +168,10 @@ def deformed_uv_tensor_note(ln_x_pivot: float, ln_pt_std: float, pivot: float) -
         excess = f"e^{ln_pt_std + ln_tt - ln_bound:.4g}"
     else:
         lg = (math.log(t.growth_per_x) + ln_x_pivot) / math.log(10)
-        amp = f"ln P_t ~ 10^{lg:.4g}"
-        excess = f"e^(10^{lg:.4g})"
+        amp = f"ln P_t ~ 10^{lg:.6g} (uncapped estimate; the scored spectra are capped)"
+        excess = f"e^(10^{lg:.6g})"
     return (f"deformed algebra, tensor amplitude at k_* = {pivot:g} Mpc^-1 (k_*/k_LQC = "
-            f"e^{ln_x_pivot:.4g}): {amp} from the Euclidean growth exp(2 k int sqrt(-Omega) "
+            f"e^{ln_x_pivot:.6g}): {amp} from the Euclidean growth exp(2 k int sqrt(-Omega) "
             f"d eta), against the tensor bound P_t < r_max A_s = {r_max:g} x "
             f"{math.exp(ln_as):.3g} = {math.exp(ln_bound):.2g} (BK18 r limit x Planck 2018 A_s; "
             f"the argument of arXiv:1510.08766): excluded by the tensor amplitude, {excess} "

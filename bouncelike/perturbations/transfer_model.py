@@ -105,7 +105,6 @@ class BounceSpectraModel:
         from ..spectra.tabulated import TabulatedSpectra
 
         self.coverage(params)
-        a_s = math.exp(params["ln_1e10_As"]) * 1e-10
         r = params.get("r", 0.0)
         x = self.k / 10 ** params["log10_k_lqc"]
         if params.get("log10_conformal_duration") is None:
@@ -116,6 +115,30 @@ class BounceSpectraModel:
                                         average_below=2 * self._dlnk
                                         if self.average_unresolved else None, split=True)
         lk = np.log(self.k / self.pivot)
+        ps, pt, capped = self._powers(params, lt, lk)
+        notes = () if self.derived(params)["certified"] else (
+            "bounce transfer used outside its certified range (CERTIFIED_RANGES of "
+            "k/k_LQC over the observable window)",)
+        if np.any(capped):
+            notes = (*notes, "deformed algebra: transfer above e^600 capped by a common factor "
+                     "(a lower bound; P_t/P_s kept)")
+        # period means and the period pi/(x D) of the features in ln k, for consumers that
+        # cannot resolve them (protocol of bouncelike.spectra.oscillations); without D the
+        # spectra above are already period means
+        period_mean, period = (ps, pt), None
+        if params.get("log10_conformal_duration") is not None:
+            d = 10 ** params["log10_conformal_duration"]
+            period_mean = self._powers(params, self.table.ln_mean_transfer(x, d, split=True),
+                                       lk)[:2]
+            period = math.pi / (x * d)
+        return TabulatedSpectra(self.k, ps, pt, notes=notes, label="bounce transfer model",
+                                period_mean=period_mean, oscillation_period=period)
+
+    @staticmethod
+    def _powers(params: dict, lt: dict, lk: np.ndarray):
+        """P_s, P_t (and where capped) of the power law times the transfer ``lt``."""
+        a_s = math.exp(params["ln_1e10_As"]) * 1e-10
+        r = params.get("r", 0.0)
         # deformed algebra far above k_LQC: a common cap e^600 on the transfer keeps P_t/P_s
         # (both grow with the same exponent G; see forward.py)
         top = np.maximum(lt["scalar"], lt["tensor"])
@@ -124,13 +147,7 @@ class BounceSpectraModel:
         ltt = np.where(capped, lt["tensor"] - top + CAP_EXPONENT, lt["tensor"] + lt["growth"])
         ps = a_s * np.exp((params["n_s"] - 1) * lk + ls)
         pt = r * a_s * np.exp(-r / 8 * lk + ltt) if r > 0 else np.zeros_like(ps)
-        notes = () if self.derived(params)["certified"] else (
-            "bounce transfer used outside its certified range (CERTIFIED_RANGES of "
-            "k/k_LQC over the observable window)",)
-        if np.any(capped):
-            notes = (*notes, "deformed algebra: transfer above e^600 capped by a common factor "
-                     "(a lower bound; P_t/P_s kept)")
-        return TabulatedSpectra(self.k, ps, pt, notes=notes, label="bounce transfer model")
+        return ps, pt, capped
 
     def derived(self, params: dict) -> dict:
         self.coverage(params)

@@ -21,6 +21,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError, NotEvaluable, NumericalFailure
+from ..likelihood.bounds import spectra_cap
 from .failures import (
     NOT_REPRESENTED,
     ModelError,
@@ -111,19 +112,11 @@ class SummarisedSpectra:
     def summary_at(self, pivot: float) -> Any:
         return self.summaries[pivot]
 
+    def averaged_power(self, k: Any, resolution: float | None) -> Any:
+        """Period-mean protocol of the wrapped spectra (bouncelike.spectra.oscillations)."""
+        from ..spectra.oscillations import averaged_power
 
-def spectra_cap(spectra: Any) -> str | None:
-    """What caps the values of ``spectra``, or None.
-
-    A spectra object declares a cap with a ``cap`` attribute naming it; spectra without that
-    attribute count as capped when one of their ``notes`` says they are capped."""
-    cap = getattr(spectra, "cap", None)
-    if cap:
-        return str(cap)
-    for note in getattr(spectra, "notes", ()) or ():
-        if "capped" in str(note).lower():
-            return str(note)
-    return None
+        return averaged_power(self.spectra, k, resolution)
 
 
 class ModelPosterior(Posterior):
@@ -151,7 +144,7 @@ class ModelPosterior(Posterior):
     def _log_likelihood(self, params: dict[str, float]) -> float:
         spectra = computing("spectra", self.model.spectra, params)
         cap = spectra_cap(spectra)
-        if cap is not None:
+        if cap:
             raise CappedEvaluation(cap, computing("likelihood", self.likelihood.log_likelihood,
                                                   spectra))
         if self.require_summary_fit and not hasattr(spectra, "summary_at"):
