@@ -20,14 +20,15 @@ OPTIONS = Options(compiles=True)
 
 
 def add_arguments(parser: Any) -> None:
-    from ..perturbations.states import STATES
-    from ..perturbations.transfer_backgrounds import FAMILIES
-
+    # names checked in run() against the registries (building the parser imports no numerics)
     parser.add_argument("--prescription", default="dressed_metric",
                         choices=("dressed_metric", "deformed_algebra"))
-    parser.add_argument("--state", default="remote_past", choices=STATES)
-    parser.add_argument("--potential", default="quadratic", choices=tuple(FAMILIES),
-                        help="family of backgrounds (default quadratic)")
+    parser.add_argument("--state", default="remote_past",
+                        help="initial state of the modes (perturbations/states.py STATES; "
+                             "default remote_past)")
+    parser.add_argument("--potential", default="quadratic",
+                        help="family of backgrounds with a cache (quadratic, starobinsky; "
+                             "default quadratic)")
     parser.add_argument("--x-min", type=float, default=0.01,
                         help="smallest k/k_LQC drawn (default 0.01)")
     parser.add_argument("--backgrounds", type=int, default=4,
@@ -39,8 +40,15 @@ def add_arguments(parser: Any) -> None:
 
 def run(args: Any, session: Any) -> CommandResult:
     from ..errors import InputError
+    from ..perturbations.states import STATES
     from ..perturbations.transfer import certificate
+    from ..perturbations.transfer_backgrounds import FAMILIES
 
+    if args.state not in STATES:
+        raise InputError(f"--state = '{args.state}' is not known; allowed: {', '.join(STATES)}")
+    if args.potential not in FAMILIES:
+        raise InputError(f"--potential = '{args.potential}' has no transfer cache; allowed: "
+                         f"{', '.join(FAMILIES)}")
     if args.points < 2:
         raise InputError("--points must be >= 2")
     if args.backgrounds < 1:
