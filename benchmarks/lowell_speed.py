@@ -24,7 +24,7 @@ from scipy.interpolate import CubicSpline  # noqa: E402
 
 from bouncelike.config import Table  # noqa: E402
 from bouncelike.likelihood.gaussian import likelihood_from_config  # noqa: E402
-from bouncelike.models.bounce_transfer import BounceSpectraModel  # noqa: E402
+from bouncelike.perturbations.transfer import BounceSpectraModel  # noqa: E402
 from bouncelike.sky import kernels  # noqa: E402
 from bouncelike.sky.cosmology import planck18_late_universe  # noqa: E402
 from bouncelike.sky.projection import (  # noqa: E402

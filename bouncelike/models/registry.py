@@ -15,9 +15,12 @@ never chooses code to import.
                                           ``[background]``, ``[perturbations]``,
                                           ``[reheating]``); too slow to sample
 ``bounce_dressed_metric``,                power law times the cached transfer of the bounce
-``bounce_deformed_algebra``               (``[bounce_transfer]``)
+``bounce_deformed_algebra``,              (``[bounce_transfer]``); the last two: other
+``bounce_dressed_metric_non_oscillating``, states set around the bounce
+``bounce_dressed_metric_low_energy``
 ``bounce_physical_dressed_metric``,       background -> e-folds -> N_* -> N_B* -> k_LQC ->
-``bounce_physical_deformed_algebra``      pivot spectrum (Stewart-Lyth) -> cached transfer
+``bounce_physical_deformed_algebra``,     pivot spectrum (Stewart-Lyth) -> cached transfer
+``bounce_physical_dressed_metric_non_oscillating``, ``..._low_energy``
 ``table``                                 spectra read from a CSV file (``[table] file``,
                                           relative to the configuration's folder); scored only
 ========================================  ====================================================
@@ -30,10 +33,20 @@ from typing import Any
 
 from ..config import Table
 from ..errors import InputError, NumericalFailure
-from ..sampling.bounce_physical import PhysicalBounceDeformedAlgebra, PhysicalBounceDressedMetric
+from ..sampling.bounce_physical import (
+    PhysicalBounceDeformedAlgebra,
+    PhysicalBounceDressedMetric,
+    PhysicalBounceLowEnergy,
+    PhysicalBounceNonOscillating,
+)
 from ..spectra.table_file import table_spectra_from_config
 from .base import ForwardModel
-from .bounce_transfer import BounceDeformedAlgebra, BounceDressedMetric
+from .bounce_transfer import (
+    BounceDeformedAlgebra,
+    BounceDressedMetric,
+    BounceDressedMetricLowEnergy,
+    BounceDressedMetricNonOscillating,
+)
 from .powerlaw import PowerLawModel
 from .slowroll import QuadraticSlowRoll, StarobinskySlowRoll
 
@@ -91,8 +104,9 @@ def configured_values(config: Table) -> str:
 #: every forward model by its name
 MODELS: dict[str, type[ForwardModel]] = {cls.name: cls for cls in (
     PowerLawModel, QuadraticSlowRoll, StarobinskySlowRoll, BounceModel, BounceDressedMetric,
-    BounceDeformedAlgebra, PhysicalBounceDressedMetric, PhysicalBounceDeformedAlgebra,
-    TableModel)}
+    BounceDeformedAlgebra, BounceDressedMetricNonOscillating, BounceDressedMetricLowEnergy,
+    PhysicalBounceDressedMetric, PhysicalBounceDeformedAlgebra, PhysicalBounceNonOscillating,
+    PhysicalBounceLowEnergy, TableModel)}
 
 
 

@@ -87,6 +87,7 @@ _SUPPLIED = ("ln_1e10_As", "n_s", "r", "log10_k_lqc")
 
 class _PhysicalBounce(ForwardModel):
     prescription = ""
+    state = "remote_past"
     parameters = (LOG10_POTENTIAL_FRACTION, N_INFLATION, QUADRATIC_MASS, CRITICAL_DENSITY,
                   *REHEATING)
     optional_parameter_names = ("log10_potential_fraction", "N_inflation",
@@ -121,9 +122,10 @@ class _PhysicalBounce(ForwardModel):
     # -- evaluation -----------------------------------------------------------------------
     def _fast(self) -> Any:
         if self._fast_model is None:
-            from ..models.bounce_transfer import BounceSpectraModel
+            from ..perturbations.transfer_model import BounceSpectraModel
 
-            self._fast_model = BounceSpectraModel(prescription=self.prescription, pivot=PIVOT)
+            self._fast_model = BounceSpectraModel(prescription=self.prescription, pivot=PIVOT,
+                                                  state=self.state)
         return self._fast_model
 
     def spectra(self, p: dict[str, float]) -> Any:
@@ -170,7 +172,7 @@ class _PhysicalBounce(ForwardModel):
         obs = pivot_observables(tab, sm.ln_a_pivot)
         log10_k = float(sm.ln_k_lqc_mpc) / math.log(10.0)
         fast_params = {"ln_1e10_As": obs["ln_1e10_As"], "n_s": obs["n_s"], "r": obs["r"],
-                       "log10_k_lqc": log10_k}
+                       "log10_k_lqc": log10_k, "log10_potential_fraction": lx}
         extra = [n for n in self._fast().parameter_names if n not in _SUPPLIED]
         log10_d = math.nan
         for name in extra:
@@ -204,6 +206,22 @@ class PhysicalBounceDressedMetric(_PhysicalBounce):
 class PhysicalBounceDeformedAlgebra(_PhysicalBounce):
     name = "bounce_physical_deformed_algebra"
     prescription = "deformed_algebra"
+
+
+class PhysicalBounceNonOscillating(PhysicalBounceDressedMetric):
+    """Non-oscillating vacuum set around the bounce (perturbations/states_window.py)."""
+
+    title = "Bounce in physical parameters, dressed metric, non-oscillating state"
+    name = "bounce_physical_dressed_metric_non_oscillating"
+    state = "non_oscillating"
+
+
+class PhysicalBounceLowEnergy(PhysicalBounceDressedMetric):
+    """State of low energy set around the bounce (perturbations/states_window.py)."""
+
+    title = "Bounce in physical parameters, dressed metric, state of low energy"
+    name = "bounce_physical_dressed_metric_low_energy"
+    state = "low_energy"
 
 
 _DYNAMICS: dict[float, Any] = {}
