@@ -102,6 +102,15 @@ SCORE_CASES = {
         '[model]\nspectra = "bounce"\n[reheating]\nequation_of_state = 0.0\n'
         "log10_reheating_density = -100.0\n", "'reheating.log10_reheating_density' = -100",
         "nucleosynthesis"),
+    "k_max 1e300 k_LQC (was accepted)": (
+        '[model]\nspectra = "bounce"\n[perturbations]\nk_max = 1e300\n[reheating]\nN_star = 55.0\n',
+        "'perturbations.k_max' = 1e+300", "<= 10000 k_LQC"),
+    "k_count 1e9 (was accepted)": (
+        '[model]\nspectra = "bounce"\n[perturbations]\nk_count = 1000000000\n[reheating]\n'
+        "N_star = 55.0\n", "'perturbations.k_count' = 1000000000", "<= 4000"),
+    "k_count not an integer": (
+        '[model]\nspectra = "bounce"\n[perturbations]\nk_count = 1e9\n[reheating]\n'
+        "N_star = 55.0\n", "'perturbations.k_count' must be an integer", "1000000000.0"),
     "renamed: background.contracting.density": (
         '[model]\nspectra = "bounce"\n[potential]\nname = "quadratic"\nmass = 1.2e-6\n'
         "[background.contracting]\ndensity = 1e-14\n[reheating]\nN_star = 55.0\n",

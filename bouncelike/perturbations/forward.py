@@ -49,7 +49,7 @@ from typing import Any
 
 import numpy as np
 
-from ..config import Table
+from ..config import Parameter, Table
 from ..errors import InputError
 from ..models.reheating import reheating_from_config
 from .background import BackgroundTable, integrate_background
@@ -58,9 +58,47 @@ from .prescriptions import DEFAULT_SIGN_CONVENTION, PRESCRIPTIONS, SIGN_CONVENTI
 from .spectra import BounceSpectrum, bounce_spectra
 from .states import REMOTE_PAST_TOLERANCE, STATES, Bogoliubov, remote_past_density
 
-PERTURBATION_KEYS = ("prescription", "state", "sign_convention", "k_min", "k_max", "k_count",
-                     "bogoliubov_beta", "bogoliubov_scale", "bogoliubov_phase", "past_density",
-                     "freeze", "adiabatic_ratio", "step", "switch_density")
+#: the options of ``[perturbations]``, declared once (module docstring)
+PERTURBATION_OPTIONS = (
+    Parameter("prescription", "mode equations through the bounce", kind="string",
+              choices=tuple(PRESCRIPTIONS), default="dressed_metric"),
+    Parameter("state", "initial state of the modes", kind="string", choices=tuple(STATES),
+              default="remote_past"),
+    Parameter("sign_convention", "sign s of the dressed-metric scalar potential",
+              kind="string", choices=tuple(SIGN_CONVENTIONS), default=DEFAULT_SIGN_CONVENTION),
+    Parameter("k_min", "low end of the feature range", "k_LQC", 1e-4, 1e4,
+              why="the cached and integrated states are set for modes down to ~0.01 k_LQC; "
+              "a decade and more below, the remote contracting branch no longer holds them; "
+              "above 1e4 k_LQC the bounce leaves every mode untouched", default=0.01),
+    Parameter("k_max", "high end of the feature range", "k_LQC", 1e-4, 1e4,
+              why="above ~10 k_LQC the bounce leaves the modes untouched (dressed-metric "
+              "transfer 1 to 1e-12 above 100 k_LQC); 1e4 is far beyond", default=100.0),
+    Parameter("k_count", "wavenumbers integrated over [k_min, k_max]", "", 4, 4000,
+              kind="integer", why="the cost grows in proportion (about a second per hundred "
+              "modes); 4000 resolves eight decades at 500 per decade", default=120),
+    Parameter("bogoliubov_beta", "beta_0 of a Bogoliubov rotation of the state", "", 0.0, 100.0,
+              why="the power grows by 1 + 2 |beta|^2 on average; beyond 100 it is 2e4 times the "
+              "vacuum, far outside any spectrum the data allow", default=0.0),
+    Parameter("bogoliubov_scale", "k_beta of the rotation", "k_LQC", 0.0, 1e4,
+              lower_open=True, why="a scale among the modes the bounce can touch",
+              default=1.0),
+    Parameter("bogoliubov_phase", "phase theta of the rotation", "radians", default=0.0),
+    Parameter("past_density", "density down to which the contracting branch is integrated "
+              "(default: from k_min)", "Planck density", 0.0, 1e-2, lower_open=True,
+              why="far below the critical density 0.41, where the modes are set in the "
+              "contracting branch"),
+    Parameter("freeze", "k/(aH) at which modes are read off", "", 1e-8, 0.1,
+              why="modes must be well outside the Hubble radius, and not so far that the "
+              "integration is wasted", default=1e-3),
+    Parameter("adiabatic_ratio", "W / rate above which a stretch is adiabatic", "", 5.0, None,
+              why="a WKB jump below ratio 5 loses accuracy", default=40.0),
+    Parameter("step", "integrator step x frequency", "", 1e-3, 0.5,
+              why="the symplectic step is stable and accurate to 1e-6 below 0.5", default=0.08),
+    Parameter("switch_density", "deformed-algebra scalars: regular variables where rho > this "
+              "x rho_c", "rho_c", 1e-12, 0.1, why="the regular variables are needed near the "
+              "bounce and valid while rho << rho_c is not yet reached", default=1e-4),
+)
+PERTURBATION_KEYS = tuple(p.name for p in PERTURBATION_OPTIONS)
 WINDOW_GRID = (1e-5, 1.0, 40)
 MAX_GROWTH_EXPONENT = 600.0
 
@@ -84,25 +122,12 @@ class PerturbationOptions:
 
     @classmethod
     def from_table(cls, t: Table) -> PerturbationOptions:
-        d = cls()
-        opts = cls(
-            prescription=t.string("prescription", d.prescription, choices=PRESCRIPTIONS),
-            state=t.string("state", d.state, choices=STATES),
-            sign_convention=t.string("sign_convention", d.sign_convention,
-                                     choices=SIGN_CONVENTIONS),
-            k_min=t.positive("k_min", d.k_min), k_max=t.positive("k_max", d.k_max),
-            k_count=t.integer("k_count", d.k_count, minimum=4),
-            bogoliubov_beta=t.number("bogoliubov_beta", d.bogoliubov_beta, minimum=0.0),
-            bogoliubov_scale=t.positive("bogoliubov_scale", d.bogoliubov_scale),
-            bogoliubov_phase=t.number("bogoliubov_phase", d.bogoliubov_phase),
-            past_density=t.positive("past_density", None) if "past_density" in t else None,
-            freeze=t.number("freeze", d.freeze, minimum=1e-8, maximum=0.1),
-            adiabatic_ratio=t.number("adiabatic_ratio", d.adiabatic_ratio, minimum=5.0),
-            step=t.number("step", d.step, minimum=1e-3, maximum=0.5),
-            switch_density=t.number("switch_density", d.switch_density, minimum=1e-12,
-                                    maximum=0.1))
+        # past_density has no fixed default: absent, it follows from k_min
+        opts = cls(**{p.name: p.read(t) for p in PERTURBATION_OPTIONS
+                      if p.name != "past_density" or p.name in t})
         if opts.k_max <= opts.k_min:
-            raise InputError("perturbations.k_max must exceed perturbations.k_min")
+            raise InputError(f"'perturbations.k_max' = {opts.k_max:g} must exceed "
+                             f"'perturbations.k_min' = {opts.k_min:g}")
         return opts
 
 
