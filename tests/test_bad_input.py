@@ -108,9 +108,6 @@ SCORE_CASES = {
     "k_count 1e9 (was accepted)": (
         '[model]\nspectra = "bounce"\n[perturbations]\nk_count = 1000000000\n[reheating]\n'
         "N_star = 55.0\n", "'perturbations.k_count' = 1000000000", "<= 4000"),
-    "k_count not an integer": (
-        '[model]\nspectra = "bounce"\n[perturbations]\nk_count = 1e9\n[reheating]\n'
-        "N_star = 55.0\n", "'perturbations.k_count' must be an integer", "1000000000.0"),
     "renamed: background.contracting.density": (
         '[model]\nspectra = "bounce"\n[potential]\nname = "quadratic"\nmass = 1.2e-6\n'
         "[background.contracting]\ndensity = 1e-14\n[reheating]\nN_star = 55.0\n",
