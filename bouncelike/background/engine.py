@@ -1,0 +1,336 @@
+"""The background engine at the Python boundary: one call integrates one background.
+
+:func:`run` integrates a system of :mod:`.systems` from a state with the solver of
+:mod:`.solver` and returns an :class:`EngineRun`: a typed :class:`~.result.RunSummary` (status,
+reason, message, events, counts) and, with ``store``, the :class:`DenseSolution` (the
+integrator's 7th-order continuous extension, evaluable anywhere). Every dynamics, the e-fold
+distributions and the background tables of the perturbations go through it.
+
+Budgets. The compiled solver runs in chunks of :data:`CHUNK_STEPS` accepted steps and returns
+to Python between chunks: Ctrl-C interrupts a long integration within a fraction of a second,
+and a wall-clock budget (``settings.max_seconds``) ends it with status ``"failed"`` and a
+message giving the physical state reached. A run never hangs.
+
+Potentials without a compiled kernel (registered from Python) run through the *same* solver and
+systems uncompiled (:func:`bouncelike.background.jit.python_copy`), about a hundred times slower;
+their results say so (``engine = "python"``).
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from . import potential_kernels, problem, solver, systems
+from .initial import IntegrationSettings
+from .jit import drop_stale_caches, python_copy
+from .result import STATUSES, BackgroundEvents, RunSummary
+
+drop_stale_caches(Path(__file__).with_name(name) for name in (
+    "jit.py", "potential_kernels.py", "isotropic_system.py", "bianchi_system.py",
+    "asymmetric_system.py", "loop_system.py", "systems.py", "problem.py", "solver.py",
+    "dop853_tableau.py"))
+
+#: accepted steps per compiled call (a few tens of milliseconds)
+CHUNK_STEPS = 20_000
+REASONS = {solver.R_TIME_CAP: "time_cap", solver.R_STEP_BUDGET: "step_budget",
+           solver.R_STEP_UNDERFLOW: "step_underflow", solver.R_NONFINITE: "nonfinite",
+           solver.R_WALL_BUDGET: "wall_budget"}
+STOPS = {problem.STOP_END: "end", problem.STOP_EFOLD_CAP: "efold_cap",
+         problem.STOP_DENSITY: "density", problem.STOP_NONE: "end"}
+
+
+@dataclass(frozen=True)
+class System:
+    """What to integrate: a system code of :mod:`.systems` and its 4 parameters."""
+
+    code: int
+    parameters: tuple[float, float, float, float]
+
+
+def _kernel(potential: Any) -> tuple[int, tuple[float, ...], bool]:
+    """(kernel code, 4 parameters, compiled?) of a potential."""
+    from .potentials import KERNEL_PYTHON
+
+    kernel = getattr(potential, "kernel", None)
+    if kernel is None or int(kernel[0]) == KERNEL_PYTHON:
+        return KERNEL_PYTHON, (0.0, 0.0, 0.0, 0.0), False
+    p = [float(x) for x in np.asarray(kernel[1], dtype=float)][:4]
+    return int(kernel[0]), tuple(p + [0.0] * (4 - len(p))), True
+
+
+class _Functions:
+    """The entry points of the engine: compiled, or their uncompiled copies for a potential."""
+
+    def __init__(self, potential: Any | None):
+        entries = {"start": solver.start, "advance": solver.advance,
+                   "observe_many": systems.observe_many, "residual_many": systems.residual_many,
+                   "anisotropy_many": systems.anisotropy_many, "finish": problem.finish}
+        if potential is None:
+            for name, fn in entries.items():
+                setattr(self, name, fn)
+            return
+
+        def terms(kind: int, p: Any, phi: float) -> tuple[float, float, float]:
+            return (float(potential.V(phi)), float(potential.dV(phi)),
+                    float(potential.d2V(phi)))
+
+        overrides = {potential_kernels.potential_terms: terms}
+        for name, fn in entries.items():
+            setattr(self, name, python_copy(fn, overrides))
+
+
+_COMPILED = _Functions(None)
+
+
+def functions(potential: Any) -> _Functions:
+    return _COMPILED if _kernel(potential)[2] else _Functions(potential)
+
+
+@dataclass(frozen=True)
+class DenseSolution:
+    """The continuous extension of a run: states and observables at any time in its span."""
+
+    system: System
+    potential: Any
+    steps: np.ndarray          # rows [t0, t1, h, mode, y0 (n), F (7 n)]
+    t_final: float
+    y_final: np.ndarray
+    mode_final: int
+
+    @property
+    def n(self) -> int:
+        return len(self.y_final)
+
+    @property
+    def step_starts(self) -> np.ndarray:
+        return self.steps[:, 0]
+
+    @property
+    def t_start(self) -> float:
+        return float(self.steps[0, 0]) if len(self.steps) else self.t_final
+
+    def states(self, t: Any) -> tuple[np.ndarray, np.ndarray]:
+        """(states (m, n), modes (m,)) at times ``t`` inside [t_start, t_final]."""
+        t = np.atleast_1d(np.asarray(t, dtype=float))
+        out = np.empty((len(t), self.n))
+        modes = np.full(len(t), self.mode_final, dtype=np.int64)
+        final = t >= self.t_final
+        out[final] = self.y_final
+        inner = ~final
+        if inner.any() and len(self.steps):
+            tq = np.ascontiguousarray(t[inner])
+            idx = np.clip(np.searchsorted(self.steps[:, 0], tq, side="right") - 1, 0,
+                          len(self.steps) - 1)
+            buf = np.empty((len(tq), self.n))
+            solver.interpolate_states(self.steps, idx.astype(np.int64), tq, buf)
+            out[inner] = buf
+            modes[inner] = self.steps[idx, 3].astype(np.int64)
+        elif inner.any():
+            out[inner] = self.y_final
+        return out, modes
+
+    def observables(self, t: Any) -> dict[str, np.ndarray]:
+        """ln a, H, Hdot, phi, phidot, phiddot, rho, V at times ``t`` (arrays)."""
+        states, modes = self.states(t)
+        obs = np.empty((len(states), systems.N_OBS))
+        kind, pp, _ = _kernel(self.potential)
+        functions(self.potential).observe_many(self.system.code, self.system.parameters, kind,
+                                               pp, states, modes, obs)
+        names = ("ln_a", "H", "Hdot", "phi", "phidot", "phiddot", "rho", "V")
+        return {name: obs[:, i] for i, name in enumerate(names)}
+
+    def residuals(self, t: Any) -> np.ndarray:
+        states, modes = self.states(t)
+        out = np.empty(len(states))
+        kind, pp, _ = _kernel(self.potential)
+        functions(self.potential).residual_many(self.system.code, self.system.parameters,
+                                                kind, pp, states, modes, out)
+        return out
+
+    def anisotropy(self, t: Any) -> np.ndarray:
+        """(H_1, H_2, H_3, sigma^2) per time (Bianchi I runs)."""
+        states, modes = self.states(t)
+        out = np.empty((len(states), 4))
+        kind, pp, _ = _kernel(self.potential)
+        functions(self.potential).anisotropy_many(self.system.parameters, kind, pp, states,
+                                                  modes, out)
+        return out
+
+
+@dataclass(frozen=True)
+class EngineRun:
+    """One integration: its summary and (with ``store``) its continuous extension."""
+
+    summary: RunSummary
+    dense: DenseSolution | None
+
+
+def _message(book: Any, state: Any, reason: str, obs: dict, settings: IntegrationSettings,
+             target_density: float) -> str:
+    status = STATUSES[int(book.status)]
+    t = float(state.t)
+    where = (f"t = {t:.6g}, rho = {float(obs['rho']):.4g}, H = {float(obs['H']):.4g}, "
+             f"ln a = {float(obs['ln_a']):.6g} (Planck units)")
+    if reason == "step_budget":
+        return (f"integration failed: the budget of {settings.max_steps} accepted steps was "
+                f"used up at {where}")
+    if reason == "wall_budget":
+        return (f"integration failed: the wall-clock budget of {settings.max_seconds:g} s was "
+                f"used up at {where} after {int(state.n_steps)} steps")
+    if reason == "step_underflow":
+        return (f"integration failed: the step size fell below 1e-15 of the time at {where}; "
+                "the solution changes faster than double precision can follow there")
+    if reason == "nonfinite":
+        return (f"integration failed: the equations gave non-finite values after {where}; "
+                "the state left the range where this dynamics is defined")
+    n_inf = float(book.lna_final - book.lna_inf_start) if status == "efold_cap" else float(
+        book.lna_inf_end - book.lna_inf_start)
+    if reason == "density":
+        return f"density fell to {target_density:g} at {where}"
+    if status == "inflated":
+        return f"inflated: {n_inf:.4f} inflationary e-folds"
+    if status == "efold_cap":
+        why = ("e-fold cap reached during inflation" if reason == "efold_cap" else
+               f"time cap max_time = {settings.max_time:g} reached during inflation")
+        return f"inflation did not end: more than {n_inf:.4g} e-folds ({why})"
+    if status == "no_bounce":
+        return f"no bounce within max_time = {settings.max_time:g} ({where})"
+    return ("no inflation within the integration limits ("
+            + ("end of the accelerated phases" if reason == "end" else
+               f"time cap max_time = {settings.max_time:g} reached") + ")")
+
+
+def run(system: System, potential: Any, y0: Any, mode: int, settings: IntegrationSettings, *,
+        bounced: bool, has_bounce: bool, atol: Any = None, goal: int = problem.GOAL_INFLATION,
+        extra_efolds: float = 0.0, target_density: float = 0.0,
+        store: bool = False) -> EngineRun:
+    """Integrate ``system`` from ``y0`` (at t = 0, in ``mode``) until the goal or a budget.
+
+    ``bounced``: the start is at or after a bounce (or classical: no bounce expected);
+    ``has_bounce``: the start is the bounce itself. ``atol``: absolute tolerances, a scalar or
+    an array (3 modes x n components); default ``settings.atol``. Goals: see :mod:`.problem`.
+    """
+    y = np.array(y0, dtype=float)
+    n = len(y)
+    if atol is None:
+        atol = settings.atol
+    atol = np.ascontiguousarray(np.broadcast_to(np.asarray(atol, dtype=float), (3, n)))
+    kind, pp, compiled = _kernel(potential)
+    fn = functions(potential)
+    code, prm = int(system.code), tuple(float(x) for x in system.parameters)
+    state = np.zeros(1, dtype=solver.STATE).view(np.recarray)
+    state.mode = int(mode)
+    book = problem.new_book(bool(bounced), bool(has_bounce))
+    cfg = problem.new_config(float(settings.max_inflation_efolds), int(goal),
+                             float(extra_efolds), float(target_density))
+    k = np.zeros((16, n))
+    g_cur = np.empty(problem.N_EVENTS)
+    rec = np.empty((256 if store else 1, 4 + 8 * n))
+    deadline = time.monotonic() + float(settings.max_seconds)
+    try:
+        fn.start(code, prm, kind, pp, y, k, g_cur, state, book, cfg)
+        while not state.done[0]:
+            rec = fn.advance(code, prm, kind, pp, float(settings.rtol), atol,
+                             float(settings.max_time), int(settings.max_steps), CHUNK_STEPS,
+                             bool(store), y, k, g_cur, state, book, cfg, rec)
+            if not state.done[0] and time.monotonic() > deadline:
+                state.done, state.reason = True, solver.R_WALL_BUDGET
+                fn.finish(code, prm, kind, pp, float(state.t[0]), y, int(state.mode[0]), book,
+                          True)
+    except (ZeroDivisionError, OverflowError, ValueError):
+        # the uncompiled path raises where the compiled one gives inf or NaN: the same failure
+        state.done, state.reason = True, solver.R_NONFINITE
+        book.status = problem.ST_FAILED
+        book.t_final = state.t[0]
+    s, b = state[0], book[0]
+    reason = REASONS.get(int(s.reason)) or STOPS[int(b.stop)]
+    ypt = y.copy()
+    dense = None
+    if store:
+        dense = DenseSolution(system, potential, rec[:int(s.n_store)].copy(), float(s.t), ypt,
+                              int(s.mode))
+    obs = _final_observables(system, potential, ypt, int(s.mode), fn, kind, pp)
+    message = _message(b, s, reason, obs, settings, target_density)
+    if not compiled:
+        message += "; slow pure-Python integration (the potential is not compiled)"
+    f = float
+    summary = RunSummary(
+        status=STATUSES[int(b.status)], reason=reason, message=message,
+        events=BackgroundEvents(f(b.t_bounce), f(b.t_si_end), f(b.t_inf_start), f(b.t_inf_end),
+                                f(b.lna_bounce), f(b.lna_si_end), f(b.lna_inf_start),
+                                f(b.lna_inf_end)),
+        phi_bounce=f(b.phi_bounce), phidot_bounce=f(b.phidot_bounce),
+        potential_fraction_at_bounce=f(b.vfrac_bounce), density_at_bounce=f(b.rho_bounce),
+        max_constraint_residual=f(b.max_residual),
+        accelerated_phases=int(b.n_phases) + (1 if b.started else 0), steps=int(s.n_steps),
+        rejected_steps=int(s.n_rej), rhs_evaluations=int(s.n_rhs), t_final=f(s.t),
+        ln_a_final=f(b.lna_final) if math.isfinite(b.lna_final) else f(obs["ln_a"]),
+        engine="compiled" if compiled else "python",
+    )
+    return EngineRun(summary, dense)
+
+
+def _final_observables(system: System, potential: Any, y: np.ndarray, mode: int, fn: Any,
+                       kind: int, pp: tuple) -> dict[str, float]:
+    out = np.full((1, systems.N_OBS), np.nan)
+    try:
+        fn.observe_many(system.code, system.parameters, kind, pp, y[None, :],
+                        np.array([mode], dtype=np.int64), out)
+    except (ZeroDivisionError, OverflowError, ValueError):
+        pass
+    names = ("ln_a", "H", "Hdot", "phi", "phidot", "phiddot", "rho", "V")
+    return {name: float(out[0, i]) for i, name in enumerate(names)}
+
+
+def sample_times(dense: DenseSolution, summary: RunSummary, dense_points: int) -> np.ndarray:
+    """The step starts, the end, the events and (for ``dense_points``) points inside steps."""
+    starts = dense.steps[:, 0]
+    ends = dense.steps[:, 1]
+    parts = [starts, [dense.t_final]]
+    e = summary.events
+    events = np.array([e.t_bounce, e.t_superinflation_end, e.t_inflation_start,
+                       e.t_inflation_end], dtype=float)
+    parts.append(events[np.isfinite(events) & (events >= dense.t_start)
+                        & (events <= dense.t_final)])
+    if dense_points > 0 and len(starts):
+        inner = int(min(50, max(0, math.ceil(dense_points / len(starts)) - 1)))
+        if inner:
+            frac = np.arange(1, inner + 1) / (inner + 1.0)
+            parts.append((starts[:, None] + (ends - starts)[:, None] * frac).ravel())
+    return np.unique(np.concatenate(parts))
+
+
+def trajectory(name: str, result: EngineRun, critical_density: float,
+               settings: IntegrationSettings, *, status: str | None = None,
+               message: str | None = None, extras: dict | None = None,
+               provenance: dict | None = None) -> Any:
+    """The :class:`~.result.BackgroundTrajectory` of a stored run."""
+    from .result import BackgroundTrajectory
+
+    s = result.summary
+    dense = result.dense
+    t = sample_times(dense, s, int(settings.dense_points))
+    obs = dense.observables(t)
+    kinetic = 0.5 * obs["phidot"] ** 2
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = (kinetic - obs["V"]) / obs["rho"]
+    return BackgroundTrajectory(
+        dynamics=name, t=t, ln_a=obs["ln_a"], H=obs["H"], Hdot=obs["Hdot"], phi=obs["phi"],
+        phidot=obs["phidot"], phiddot=obs["phiddot"], rho=obs["rho"], w=w,
+        critical_density=critical_density, events=s.events, efolds=s.efolds,
+        potential_fraction_at_bounce=s.potential_fraction_at_bounce,
+        max_constraint_residual=s.max_constraint_residual,
+        status=status or s.status, message=message or s.message,
+        extras={"engine": s.engine, "steps": s.steps, "rejected_steps": s.rejected_steps,
+                "rhs_evaluations": s.rhs_evaluations, "stop_reason": s.reason,
+                "accelerated_phases": s.accelerated_phases, "phi_bounce": s.phi_bounce,
+                "phidot_bounce": s.phidot_bounce, **(extras or {})},
+        settings={**settings.as_dict(), **(provenance or {})},
+        dense=dense,
+    )
