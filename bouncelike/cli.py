@@ -22,7 +22,7 @@ import sys
 from collections.abc import Sequence
 
 from . import __version__
-from .errors import EXIT_INPUT_ERROR, InputError
+from .errors import EXIT_INPUT_ERROR, InputError, NumericalFailure
 
 
 def _command_modules() -> list:
@@ -72,6 +72,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except InputError as exc:
         print(f"bouncelike: error: {exc}", file=sys.stderr)
         return EXIT_INPUT_ERROR
+    except NumericalFailure as exc:  # a configuration the model cannot evaluate
+        print(f"bouncelike: numerical failure: {exc}", file=sys.stderr)
+        return 1
     except KeyboardInterrupt:
         print("bouncelike: interrupted", file=sys.stderr)
         return 130

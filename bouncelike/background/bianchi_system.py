@@ -174,13 +174,14 @@ def late_density(prm):
 
 @inline
 def to_post(prm, y):
-    """PRE -> POST at the bounce: u = ln(pi - xbar) becomes ln(xbar) (in place)."""
-    y[0] = math.log(math.pi - math.exp(y[0]))
+    """PRE -> POST at the bounce: u = ln(pi - xbar) becomes ln(xbar)."""
+    return (math.log(math.pi - math.exp(y[0])), y[1], y[2], y[3], y[4], y[5])
 
 
 @jit
 def to_late(prm, kind, pp, y):
-    """POST -> LATE: the mean angle from the constraint (in place)."""
+    """POST -> LATE: the mean angle from the constraint."""
     d1, d2, d3 = offsets(y)
     rho = 0.5 * y[5] * y[5] + potential_terms(kind, pp, y[4])[0]
-    y[0] = math.log(solve_mean_angle(3.0 * rho / prm[0], d1, d2, d3))
+    return (math.log(solve_mean_angle(3.0 * rho / prm[0], d1, d2, d3)), y[1], y[2], y[3], y[4],
+            y[5])

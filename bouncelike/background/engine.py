@@ -29,6 +29,7 @@ import numpy as np
 from . import potential_kernels, problem, solver, systems
 from .initial import IntegrationSettings
 from .jit import drop_stale_caches, python_copy
+from .potentials import KERNEL_PYTHON
 from .result import STATUSES, BackgroundEvents, RunSummary
 
 drop_stale_caches(Path(__file__).with_name(name) for name in (
@@ -53,24 +54,34 @@ class System:
     parameters: tuple[float, float, float, float]
 
 
-def _kernel(potential: Any) -> tuple[int, tuple[float, ...], bool]:
-    """(kernel code, 4 parameters, compiled?) of a potential."""
-    from .potentials import KERNEL_PYTHON
+_KERNELS: dict[int, tuple[Any, tuple]] = {}
 
+
+def _kernel(potential: Any) -> tuple[int, tuple[float, ...], bool]:
+    """(kernel code, 4 parameters, compiled?) of a potential (potentials are immutable: the
+    answer is kept per object)."""
+    known = _KERNELS.get(id(potential))
+    if known is not None and known[0] is potential:
+        return known[1]
     kernel = getattr(potential, "kernel", None)
     if kernel is None or int(kernel[0]) == KERNEL_PYTHON:
-        return KERNEL_PYTHON, (0.0, 0.0, 0.0, 0.0), False
-    p = [float(x) for x in np.asarray(kernel[1], dtype=float)][:4]
-    return int(kernel[0]), tuple(p + [0.0] * (4 - len(p))), True
+        out = (KERNEL_PYTHON, (0.0, 0.0, 0.0, 0.0), False)
+    else:
+        p = [float(x) for x in np.asarray(kernel[1], dtype=float)][:4]
+        out = (int(kernel[0]), tuple(p + [0.0] * (4 - len(p))), True)
+    if len(_KERNELS) > 256:
+        _KERNELS.clear()
+    _KERNELS[id(potential)] = (potential, out)
+    return out
 
 
 class _Functions:
     """The entry points of the engine: compiled, or their uncompiled copies for a potential."""
 
     def __init__(self, potential: Any | None):
-        entries = {"start": solver.start, "advance": solver.advance,
+        entries = {"advance": solver.advance, "stop": solver.stop,
                    "observe_many": systems.observe_many, "residual_many": systems.residual_many,
-                   "anisotropy_many": systems.anisotropy_many, "finish": problem.finish}
+                   "anisotropy_many": systems.anisotropy_many}
         if potential is None:
             for name, fn in entries.items():
                 setattr(self, name, fn)
@@ -98,7 +109,7 @@ class DenseSolution:
 
     system: System
     potential: Any
-    steps: np.ndarray          # rows [t0, t1, h, mode, y0 (n), F (7 n)]
+    steps: np.ndarray          # rows [t0, t1, h, mode, y0 (6), F (7 x 6)] (solver.ROW)
     t_final: float
     y_final: np.ndarray
     mode_final: int
@@ -171,28 +182,31 @@ class EngineRun:
     dense: DenseSolution | None
 
 
-def _message(book: Any, state: Any, reason: str, obs: dict, settings: IntegrationSettings,
+def _message(b: dict, s: dict, reason: str, obs: Any, settings: IntegrationSettings,
              target_density: float) -> str:
-    status = STATUSES[int(book.status)]
-    t = float(state.t)
-    where = (f"t = {t:.6g}, rho = {float(obs['rho']):.4g}, H = {float(obs['H']):.4g}, "
-             f"ln a = {float(obs['ln_a']):.6g} (Planck units)")
+    status = STATUSES[int(b["status"])]
+
+    def where() -> str:
+        o = obs()
+        return (f"t = {float(s['t']):.6g}, rho = {o['rho']:.4g}, H = {o['H']:.4g}, "
+                f"ln a = {o['ln_a']:.6g} (Planck units)")
+
     if reason == "step_budget":
         return (f"integration failed: the budget of {settings.max_steps} accepted steps was "
-                f"used up at {where}")
+                f"used up at {where()}")
     if reason == "wall_budget":
         return (f"integration failed: the wall-clock budget of {settings.max_seconds:g} s was "
-                f"used up at {where} after {int(state.n_steps)} steps")
+                f"used up at {where()} after {int(s['n_steps'])} steps")
     if reason == "step_underflow":
-        return (f"integration failed: the step size fell below 1e-15 of the time at {where}; "
+        return (f"integration failed: the step size fell below 1e-15 of the time at {where()}; "
                 "the solution changes faster than double precision can follow there")
     if reason == "nonfinite":
-        return (f"integration failed: the equations gave non-finite values after {where}; "
+        return (f"integration failed: the equations gave non-finite values after {where()}; "
                 "the state left the range where this dynamics is defined")
-    n_inf = float(book.lna_final - book.lna_inf_start) if status == "efold_cap" else float(
-        book.lna_inf_end - book.lna_inf_start)
     if reason == "density":
-        return f"density fell to {target_density:g} at {where}"
+        return f"density fell to {target_density:g} at {where()}"
+    end = b["lna_final"] if status == "efold_cap" else b["lna_inf_end"]
+    n_inf = float(end - b["lna_inf_start"])
     if status == "inflated":
         return f"inflated: {n_inf:.4f} inflationary e-folds"
     if status == "efold_cap":
@@ -200,7 +214,7 @@ def _message(book: Any, state: Any, reason: str, obs: dict, settings: Integratio
                f"time cap max_time = {settings.max_time:g} reached during inflation")
         return f"inflation did not end: more than {n_inf:.4g} e-folds ({why})"
     if status == "no_bounce":
-        return f"no bounce within max_time = {settings.max_time:g} ({where})"
+        return f"no bounce within max_time = {settings.max_time:g} ({where()})"
     return ("no inflation within the integration limits ("
             + ("end of the accelerated phases" if reason == "end" else
                f"time cap max_time = {settings.max_time:g} reached") + ")")
@@ -216,68 +230,81 @@ def run(system: System, potential: Any, y0: Any, mode: int, settings: Integratio
     ``has_bounce``: the start is the bounce itself. ``atol``: absolute tolerances, a scalar or
     an array (3 modes x n components); default ``settings.atol``. Goals: see :mod:`.problem`.
     """
-    y = np.array(y0, dtype=float)
-    n = len(y)
+    y0 = np.asarray(y0, dtype=float)
+    n = len(y0)
+    y = np.zeros(solver.N)
+    y[:n] = y0
     if atol is None:
         atol = settings.atol
-    atol = np.ascontiguousarray(np.broadcast_to(np.asarray(atol, dtype=float), (3, n)))
+    if np.ndim(atol) == 0:
+        atol_full = np.full((3, solver.N), float(atol))
+    else:
+        atol_full = np.ones((3, solver.N))
+        atol_full[:, :n] = np.broadcast_to(np.asarray(atol, dtype=float), (3, n))
     kind, pp, compiled = _kernel(potential)
-    fn = functions(potential)
+    fn = _COMPILED if compiled else _Functions(potential)
     code, prm = int(system.code), tuple(float(x) for x in system.parameters)
-    state = np.zeros(1, dtype=solver.STATE).view(np.recarray)
-    state.mode = int(mode)
+    state = np.zeros(1, dtype=solver.STATE)
+    state["mode"] = int(mode)
     book = problem.new_book(bool(bounced), bool(has_bounce))
     cfg = problem.new_config(float(settings.max_inflation_efolds), int(goal),
                              float(extra_efolds), float(target_density))
-    k = np.zeros((16, n))
+    if not compiled:  # the uncompiled code reads records by attribute
+        state, book, cfg = (a.view(np.recarray) for a in (state, book, cfg))
+    k = np.zeros((16, solver.N))
     g_cur = np.empty(problem.N_EVENTS)
-    rec = np.empty((256 if store else 1, 4 + 8 * n))
+    rec = np.empty((256 if store else 1, solver.ROW))
     deadline = time.monotonic() + float(settings.max_seconds)
+    done = state["done"]
     try:
-        fn.start(code, prm, kind, pp, y, k, g_cur, state, book, cfg)
-        while not state.done[0]:
-            rec = fn.advance(code, prm, kind, pp, float(settings.rtol), atol,
+        while not done[0]:
+            rec = fn.advance(code, prm, kind, pp, float(settings.rtol), atol_full,
                              float(settings.max_time), int(settings.max_steps), CHUNK_STEPS,
                              bool(store), y, k, g_cur, state, book, cfg, rec)
-            if not state.done[0] and time.monotonic() > deadline:
-                state.done, state.reason = True, solver.R_WALL_BUDGET
-                fn.finish(code, prm, kind, pp, float(state.t[0]), y, int(state.mode[0]), book,
-                          True)
+            if not done[0] and time.monotonic() > deadline:
+                fn.stop(code, prm, kind, pp, solver.R_WALL_BUDGET, y, state, book)
     except (ZeroDivisionError, OverflowError, ValueError):
         # the uncompiled path raises where the compiled one gives inf or NaN: the same failure
-        state.done, state.reason = True, solver.R_NONFINITE
-        book.status = problem.ST_FAILED
-        book.t_final = state.t[0]
-    s, b = state[0], book[0]
-    reason = REASONS.get(int(s.reason)) or STOPS[int(b.stop)]
+        state["done"], state["reason"] = True, solver.R_NONFINITE
+        book["status"] = problem.ST_FAILED
+        book["t_final"] = state["t"][0]
+    s = dict(zip(solver.STATE.names, state[0].tolist(), strict=True))
+    b = dict(zip(problem.BOOK.names, book[0].tolist(), strict=True))
+    reason = REASONS.get(int(s["reason"])) or STOPS[int(b["stop"])]
     ypt = y.copy()
     dense = None
     if store:
-        dense = DenseSolution(system, potential, rec[:int(s.n_store)].copy(), float(s.t), ypt,
-                              int(s.mode))
-    obs = _final_observables(system, potential, ypt, int(s.mode), fn, kind, pp)
+        dense = DenseSolution(system, potential, rec[:int(s["n_store"])].copy(), float(s["t"]),
+                              ypt, int(s["mode"]))
+    cache: dict = {}
+
+    def obs() -> dict:
+        if not cache:
+            cache.update(_final_observables(system, ypt, int(s["mode"]), fn, kind, pp))
+        return cache
+
     message = _message(b, s, reason, obs, settings, target_density)
     if not compiled:
         message += "; slow pure-Python integration (the potential is not compiled)"
-    f = float
+    lna_final = b["lna_final"] if math.isfinite(b["lna_final"]) else obs()["ln_a"]
     summary = RunSummary(
-        status=STATUSES[int(b.status)], reason=reason, message=message,
-        events=BackgroundEvents(f(b.t_bounce), f(b.t_si_end), f(b.t_inf_start), f(b.t_inf_end),
-                                f(b.lna_bounce), f(b.lna_si_end), f(b.lna_inf_start),
-                                f(b.lna_inf_end)),
-        phi_bounce=f(b.phi_bounce), phidot_bounce=f(b.phidot_bounce),
-        potential_fraction_at_bounce=f(b.vfrac_bounce), density_at_bounce=f(b.rho_bounce),
-        max_constraint_residual=f(b.max_residual),
-        accelerated_phases=int(b.n_phases) + (1 if b.started else 0), steps=int(s.n_steps),
-        rejected_steps=int(s.n_rej), rhs_evaluations=int(s.n_rhs), t_final=f(s.t),
-        ln_a_final=f(b.lna_final) if math.isfinite(b.lna_final) else f(obs["ln_a"]),
+        status=STATUSES[int(b["status"])], reason=reason, message=message,
+        events=BackgroundEvents(b["t_bounce"], b["t_si_end"], b["t_inf_start"],
+                                b["t_inf_end"], b["lna_bounce"], b["lna_si_end"],
+                                b["lna_inf_start"], b["lna_inf_end"]),
+        phi_bounce=b["phi_bounce"], phidot_bounce=b["phidot_bounce"],
+        potential_fraction_at_bounce=b["vfrac_bounce"], density_at_bounce=b["rho_bounce"],
+        max_constraint_residual=b["max_residual"],
+        accelerated_phases=int(b["n_phases"]) + (1 if b["started"] else 0),
+        steps=int(s["n_steps"]), rejected_steps=int(s["n_rej"]),
+        rhs_evaluations=int(s["n_rhs"]), t_final=float(s["t"]), ln_a_final=float(lna_final),
         engine="compiled" if compiled else "python",
     )
     return EngineRun(summary, dense)
 
 
-def _final_observables(system: System, potential: Any, y: np.ndarray, mode: int, fn: Any,
-                       kind: int, pp: tuple) -> dict[str, float]:
+def _final_observables(system: System, y: np.ndarray, mode: int, fn: Any, kind: int,
+                       pp: tuple) -> dict[str, float]:
     out = np.full((1, systems.N_OBS), np.nan)
     try:
         fn.observe_many(system.code, system.parameters, kind, pp, y[None, :],

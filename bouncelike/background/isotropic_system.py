@@ -74,23 +74,16 @@ def rates(prm, kind, pp, y, mode, want_obs):
 
 
 @inline
-def error_scale(prm, y, ynew, aux0, aux1, mode, rtol, atol, memory, scale):
-    """Fill ``scale`` with the error scale of each controlled component; return their count."""
+def error_scale(prm, y, ynew, aux0, aux1, mode, rtol, atol, memory):
+    """(error scale of each component (6-tuple), number of controlled components)."""
     inv = prm[0]
     rho = max(aux0, aux1)
     rho_scale = math.sqrt(rho * (inv if inv > 0.0 else 1.0))
-    ncomp = 4 if mode == BOUNCE else 3
-    for i in range(ncomp):
-        big = max(abs(y[i]), abs(ynew[i]))
-        if i == 0:
-            scale[i] = atol + rtol * max(1.0, big)
-        elif i == 3:
-            scale[i] = atol + rtol * max(big, math.sqrt(EIGHT_PI_3 * rho))
-        elif i == 2:
-            scale[i] = atol * rho_scale + rtol * max(big, math.sqrt(2.0 * rho))
-        else:
-            scale[i] = atol * rho_scale + rtol * max(big, memory)
-    return ncomp
+    s0 = atol + rtol * max(1.0, max(abs(y[0]), abs(ynew[0])))
+    s1 = atol * rho_scale + rtol * max(max(abs(y[1]), abs(ynew[1])), memory)
+    s2 = atol * rho_scale + rtol * max(max(abs(y[2]), abs(ynew[2])), math.sqrt(2.0 * rho))
+    s3 = atol + rtol * max(max(abs(y[3]), abs(ynew[3])), math.sqrt(EIGHT_PI_3 * rho))
+    return (s0, s1, s2, s3, 1.0, 1.0), (4 if mode == BOUNCE else 3)
 
 
 @inline
@@ -120,13 +113,12 @@ def switch_direction(prm, mode, bounced):
 
 @inline
 def apply_switch(prm, kind, pp, y, mode):
-    """Mode change at the switch event (in place): into mode 1 H = -sqrt(F), out of it mode 2."""
+    """(state, mode) after the switch event: into mode 1 H = -sqrt(F), out of it mode 2."""
     if mode == CONTRACTING:
         V, _, _ = potential_terms(kind, pp, y[1])
         F = hubble_squared(0.5 * y[2] * y[2] + V, prm[0])
-        y[3] = -1.0 * math.sqrt(F)
-        return BOUNCE
-    return EXPANDING
+        return (y[0], y[1], y[2], -1.0 * math.sqrt(F), y[4], y[5]), BOUNCE
+    return y, EXPANDING
 
 
 @inline
@@ -135,7 +127,8 @@ def prepare(prm, kind, pp, y, mode, bounced):
     if mode == BOUNCE and not bounced:
         V, _, _ = potential_terms(kind, pp, y[1])
         F = hubble_squared(0.5 * y[2] * y[2] + V, prm[0])
-        y[3] = -1.0 * math.sqrt(F) if F > 0.0 else 0.0
+        return (y[0], y[1], y[2], -1.0 * math.sqrt(F) if F > 0.0 else 0.0, y[4], y[5])
+    return y
 
 
 @inline

@@ -77,10 +77,9 @@ def late_density(prm):
 
 @jit
 def to_post(prm, y):
-    y[0] = math.log(math.pi - math.exp(y[0]))
+    return (math.log(math.pi - math.exp(y[0])), y[1], y[2], y[3], y[4], y[5])
 
 
 @jit
 def to_late(prm, kind, pp, y):
-    yt = (y[0], y[1], y[2], y[3], 0.0, 0.0)
-    y[0] = math.log(angle(prm, kind, pp, yt, LATE))
+    return (math.log(angle(prm, kind, pp, y, LATE)), y[1], y[2], y[3], y[4], y[5])

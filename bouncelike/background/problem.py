@@ -25,7 +25,9 @@ bookkept but never stopping the run.
 
 The solver sees only the hooks below: event values and directions, the action of an event
 (continue, switch the system's variables at the event, stop), the change of variables, the
-start of a run, the residual tracking and the final status.
+start of a run, the residual tracking and the final status. They take states as 6-tuples and
+the bookkeeping ``b`` and settings ``c`` as numba records (``book[0]``, ``cfg[0]``): no array
+crosses a function boundary on the hot path.
 """
 
 from __future__ import annotations
@@ -75,31 +77,45 @@ BOOK = np.dtype([
     ("vfrac_bounce", "f8"), ("rho_bounce", "f8"), ("t_si_end", "f8"), ("lna_si_end", "f8"),
     ("t_inf_start", "f8"), ("lna_inf_start", "f8"), ("t_inf_end", "f8"),
     ("lna_inf_end", "f8"), ("max_residual", "f8"), ("t_final", "f8"), ("lna_final", "f8"),
-])
+], align=True)
 #: what the run is for
 CONFIG = np.dtype([("max_efolds", "f8"), ("goal", "i8"), ("extra_efolds", "f8"),
-                   ("target_density", "f8")])
+                   ("target_density", "f8")], align=True)
 
 
-def new_book(bounced: bool, has_bounce: bool) -> np.recarray:
-    """A fresh bookkeeping record; ``bounced``: the run starts at or after a bounce (or is
-    classical); ``has_bounce``: the start *is* the bounce."""
-    book = np.zeros(1, dtype=BOOK).view(np.recarray)
+def _template() -> np.ndarray:
+    book = np.zeros(1, dtype=BOOK)
     for name in BOOK.names:
         if BOOK[name].kind == "f":
             book[name] = np.nan
-    book.bounced, book.has_bounce = bounced, has_bounce
-    book.best_n, book.max_residual = -1.0, 0.0
-    book.lna_cap, book.lna_target = np.inf, np.inf
+    book["best_n"], book["max_residual"] = -1.0, 0.0
+    book["lna_cap"], book["lna_target"] = np.inf, np.inf
     return book
 
 
+def _templates() -> dict:
+    out = {}
+    for bounced in (False, True):
+        for has_bounce in (False, True):
+            book = _template()
+            book["bounced"], book["has_bounce"] = bounced, has_bounce
+            out[bounced, has_bounce] = book.tobytes()
+    return out
+
+
+_BOOKS = _templates()
+
+
+def new_book(bounced: bool, has_bounce: bool) -> np.ndarray:
+    """A fresh bookkeeping record (a structured array of one element); ``bounced``: the run
+    starts at or after a bounce (or is classical); ``has_bounce``: the start *is* the bounce.
+    (Built from bytes: copying a structured array costs ten times more.)"""
+    return np.frombuffer(bytearray(_BOOKS[bool(bounced), bool(has_bounce)]), dtype=BOOK)
+
+
 def new_config(max_efolds: float, goal: int = GOAL_INFLATION, extra_efolds: float = 0.0,
-               target_density: float = 0.0) -> np.recarray:
-    cfg = np.zeros(1, dtype=CONFIG).view(np.recarray)
-    cfg.max_efolds, cfg.goal = max_efolds, goal
-    cfg.extra_efolds, cfg.target_density = extra_efolds, target_density
-    return cfg
+               target_density: float = 0.0) -> np.ndarray:
+    return np.array([(max_efolds, goal, extra_efolds, target_density)], dtype=CONFIG)
 
 
 @inline
@@ -114,37 +130,29 @@ def _start_value(obs):
     return min(_acceleration(obs), (obs[POT] - kin) / obs[RHO])
 
 
-@jit
-def event_values(code, prm, kind, pp, y, mode, book, cfg, g):
-    """All event functions at the state array ``y``."""
-    b = book[0]
+@inline
+def event_values(code, prm, kind, pp, y, mode, b, c):
+    """All event functions at the state ``y`` (a 9-tuple, indices E_*)."""
     obs = observe(code, prm, kind, pp, y, mode)
     acc = _acceleration(obs)
     kin = 0.5 * obs[PHIDOT] * obs[PHIDOT]
-    g[E_SYSTEM] = switch_value(code, prm, mode, obs)
-    g[E_BOUNCE] = obs[HUB]
-    g[E_SI_END] = obs[HDOT]
-    g[E_START] = min(acc, (obs[POT] - kin) / obs[RHO])
-    g[E_END] = acc
-    g[E_CAP] = obs[LN_A] - b.lna_cap
-    g[E_FIELD] = obs[PHI]
-    g[E_DENSITY] = obs[RHO] - cfg[0].target_density
-    g[E_EFOLDS] = obs[LN_A] - b.lna_target
+    return (switch_value(code, prm, mode, obs), obs[HUB], obs[HDOT],
+            min(acc, (obs[POT] - kin) / obs[RHO]), acc, obs[LN_A] - b.lna_cap, obs[PHI],
+            obs[RHO] - c.target_density, obs[LN_A] - b.lna_target)
 
 
-@jit
-def event_directions(code, prm, mode, book, cfg, d):
-    """1 up, -1 down, 2 either, 0 inactive."""
-    b = book[0]
-    d[E_SYSTEM] = switch_direction(code, prm, mode, b.bounced)
-    d[E_BOUNCE] = 0 if b.bounced else 1
-    d[E_SI_END] = -1 if (b.has_bounce and not b.si_ended) else 0
-    d[E_START] = 1 if (b.bounced and not b.started and not b.finished) else 0
-    d[E_END] = -1 if b.started else 0
-    d[E_CAP] = 1 if b.started else 0
-    d[E_FIELD] = 2 if (b.any_end and not b.started and not b.finished) else 0
-    d[E_DENSITY] = -1 if cfg[0].target_density > 0.0 else 0
-    d[E_EFOLDS] = 1 if b.finished and cfg[0].goal == GOAL_INFLATION else 0
+@inline
+def event_directions(code, prm, mode, b, c):
+    """Per event: 1 up, -1 down, 2 either, 0 inactive (a 9-tuple)."""
+    return (switch_direction(code, prm, mode, b.bounced),
+            0 if b.bounced else 1,
+            -1 if (b.has_bounce and not b.si_ended) else 0,
+            1 if (b.bounced and not b.started and not b.finished) else 0,
+            -1 if b.started else 0,
+            1 if b.started else 0,
+            2 if (b.any_end and not b.started and not b.finished) else 0,
+            -1 if c.target_density > 0.0 else 0,
+            1 if (b.finished and c.goal == GOAL_INFLATION) else 0)
 
 
 @inline
@@ -156,10 +164,8 @@ def _start(b, t, lna, max_efolds):
 
 
 @jit
-def handle_event(code, prm, kind, pp, i, t, y, mode, book, cfg):
-    """Bookkeeping of event ``i`` at time ``t`` (state array ``y``); the action for the solver."""
-    b = book[0]
-    c = cfg[0]
+def handle_event(code, prm, kind, pp, i, t, y, mode, b, c):
+    """Bookkeeping of event ``i`` at time ``t`` (state ``y``); the action for the solver."""
     if i == E_SYSTEM:
         return SWITCH
     if i == E_CAP:
@@ -224,19 +230,17 @@ def handle_event(code, prm, kind, pp, i, t, y, mode, book, cfg):
 
 @jit
 def switch_state(code, prm, kind, pp, i, y, mode):
-    """Change of variables at a SWITCH event (in place); the new mode."""
+    """(state, mode) after the change of variables of a SWITCH event."""
     if i == E_BOUNCE:
-        new = bounce_switch(code, prm, y, mode)
-        return mode if new < 0 else new
+        return bounce_switch(code, prm, y, mode)
     return apply_switch(code, prm, kind, pp, y, mode)
 
 
 @jit
-def on_start(code, prm, kind, pp, y, mode, book, cfg):
-    """Bookkeeping at t = 0: a bounce start records the bounce; a start at or after the bounce
-    in a potential-dominated accelerated state starts inflation."""
-    b = book[0]
-    prepare(code, prm, kind, pp, y, mode, b.bounced)
+def on_start(code, prm, kind, pp, y, mode, b, c):
+    """Bookkeeping at t = 0 (returns the prepared state): a bounce start records the bounce; a
+    start at or after the bounce in a potential-dominated accelerated state starts inflation."""
+    y = prepare(code, prm, kind, pp, y, mode, b.bounced)
     obs = observe(code, prm, kind, pp, y, mode)
     if b.has_bounce:
         b.t_bounce = 0.0
@@ -246,7 +250,8 @@ def on_start(code, prm, kind, pp, y, mode, book, cfg):
         b.vfrac_bounce = obs[POT] / obs[RHO]
         b.rho_bounce = obs[RHO]
     if b.bounced and _start_value(obs) > 0.0:
-        _start(b, 0.0, obs[LN_A], cfg[0].max_efolds)
+        _start(b, 0.0, obs[LN_A], c.max_efolds)
+    return y
 
 
 @jit
@@ -260,18 +265,16 @@ def time_rate(code, prm, kind, pp, y, mode):
 
 
 @jit
-def track(code, prm, kind, pp, y, mode, book):
+def track(code, prm, kind, pp, y, mode, b):
     """Largest constraint residual so far."""
     r = residual(code, prm, kind, pp, y, mode)
-    b = book[0]
     if r > b.max_residual:
         b.max_residual = r
 
 
 @jit
-def finish(code, prm, kind, pp, t, y, mode, book, failed):
+def finish(code, prm, kind, pp, t, y, mode, b, failed):
     """Final status; a phase still running at a cap is reported (its end stays NaN)."""
-    b = book[0]
     obs = observe(code, prm, kind, pp, y, mode)
     b.t_final = t
     b.lna_final = obs[LN_A]

@@ -18,8 +18,13 @@ never a hang: ``max_steps`` accepted steps, ``max_time`` of integration time, a 
 1e-15 of the time (the solution varies faster than double precision can follow), non-finite
 right-hand sides (the state left the domain of the equations).
 
+States are arrays of :data:`N` = 6 components (systems with fewer carry zeros, whose
+derivatives are zero and which the error norm leaves out). Arrays never cross into the
+problem's hooks: they get tuples and numba records (numba reference-counts arrays passed between
+compiled functions, which on this hot path would cost more than the right-hand sides).
+
 With ``store`` every accepted step is kept for dense output: a row
-[t0, t1, h, mode, y0 (n), F (7 x n)] (t1 < t0 + h for a step cut at a stopping or switching
+[t0, t1, h, mode, y0 (6), F (7 x 6)] (t1 < t0 + h for a step cut at a stopping or switching
 event); :func:`interpolate_states` evaluates the continuous extension anywhere.
 """
 
@@ -44,19 +49,21 @@ from .problem import (
     time_rate,
     track,
 )
-from .systems import error_scale, memory_update, rhs_into
+from .systems import SIZES, error_scale, memory_update, rates
 
 #: solver state of one run (numba record)
 STATE = np.dtype([("t", "f8"), ("h", "f8"), ("mode", "i8"), ("aux", "f8"), ("memory", "f8"),
                   ("n_steps", "i8"), ("n_rhs", "i8"), ("n_rej", "i8"), ("n_store", "i8"),
-                  ("done", "b1"), ("reason", "i8")])
+                  ("started", "b1"), ("done", "b1"), ("reason", "i8")], align=True)
 #: why a run ended (``STATE.reason``); R_PROBLEM: the problem's stop (see problem.STOP_*)
 (R_RUNNING, R_PROBLEM, R_TIME_CAP, R_STEP_BUDGET, R_STEP_UNDERFLOW, R_NONFINITE,
  R_WALL_BUDGET) = range(7)
-FAILURES = (R_STEP_BUDGET, R_STEP_UNDERFLOW, R_NONFINITE, R_WALL_BUDGET)
 SAFETY, MIN_FACTOR, MAX_FACTOR, EXPONENT = 0.9, 0.2, 10.0, -0.125
 #: initial step as a fraction of the fastest time scale
 FIRST_STEP = 1e-3
+#: components of every state array
+N = 6
+ROW = 4 + 8 * N
 
 _A = _T.A
 _B = _T.B
@@ -76,9 +83,9 @@ def stage_point(y, k, h, st, ytmp, n):
 
 
 @jit
-def dense_rows(y, ynew, k, h, F, n):
+def dense_rows(y, ynew, k, h, F):
     """The 7 coefficient rows F of the continuous extension from stages 0-15."""
-    for i in range(n):
+    for i in range(N):
         dy = ynew[i] - y[i]
         F[0, i] = dy
         F[1, i] = h * k[0, i] - dy
@@ -91,9 +98,9 @@ def dense_rows(y, ynew, k, h, F, n):
 
 
 @jit
-def dense_interpolate(y0, F, theta, out, n):
+def dense_interpolate(y0, F, theta, out):
     """Continuous extension at theta in [0, 1] of the step from y0 (coefficients F)."""
-    for i in range(n):
+    for i in range(N):
         acc = 0.0
         for m in range(7):
             acc += F[6 - m, i]
@@ -105,43 +112,37 @@ def dense_interpolate(y0, F, theta, out, n):
 
 
 @jit
+def tup(a):
+    """A state array as a 6-tuple."""
+    return (a[0], a[1], a[2], a[3], a[4], a[5])
+
+
+@jit
+def _put(r, k, row):
+    for i in range(N):
+        k[row, i] = r[i]
+
+
+@jit
 def _dense(code, prm, kind, pp, y, ynew, k, h, mode, ytmp, F):
     """Extra stages 13-15 and the coefficient rows of the continuous extension."""
-    n = y.shape[0]
     for st in range(13, 16):
-        stage_point(y, k, h, st, ytmp, n)
-        rhs_into(code, prm, kind, pp, ytmp, mode, k, st)
-    dense_rows(y, ynew, k, h, F, n)
+        stage_point(y, k, h, st, ytmp, N)
+        r, _, _ = rates(code, prm, kind, pp, tup(ytmp), mode, False)
+        _put(r, k, st)
+    dense_rows(y, ynew, k, h, F)
 
 
 @jit
-def _error_norm(k, h, scale, nc):
-    e5sq = 0.0
-    e3sq = 0.0
-    for i in range(nc):
-        e5 = 0.0
-        e3 = 0.0
-        for j in range(13):
-            e5 += _E5[j] * k[j, i]
-            e3 += _E3[j] * k[j, i]
-        e5sq += (e5 / scale[i]) ** 2
-        e3sq += (e3 / scale[i]) ** 2
-    if e5sq == 0.0 and e3sq == 0.0:
-        return 0.0
-    return abs(h) * e5sq / math.sqrt((e5sq + 0.01 * e3sq) * nc)
-
-
-@jit
-def _locate(code, prm, kind, pp, y, F, h, mode, book, cfg, idx, th_lo, g_lo, ytmp, gtmp):
+def _locate(code, prm, kind, pp, y, F, h, mode, b, c, idx, th_lo, g_lo, ytmp):
     """Bisection on the continuous extension for the root of event ``idx`` in (th_lo, 1]."""
     lo, hi = th_lo, 1.0
     sign_lo = g_lo > 0.0
-    n = y.shape[0]
     for _ in range(60):
         mid = 0.5 * (lo + hi)
-        dense_interpolate(y, F, mid, ytmp, n)
-        event_values(code, prm, kind, pp, ytmp, mode, book, cfg, gtmp)
-        if (gtmp[idx] > 0.0) == sign_lo:
+        dense_interpolate(y, F, mid, ytmp)
+        g = event_values(code, prm, kind, pp, tup(ytmp), mode, b, c)
+        if (g[idx] > 0.0) == sign_lo:
             lo = mid
         else:
             hi = mid
@@ -152,64 +153,86 @@ def _locate(code, prm, kind, pp, y, F, h, mode, book, cfg, idx, th_lo, g_lo, ytm
 
 @jit
 def _store(rec, n_rec, t0, t1, h, mode, y, F):
-    n = y.shape[0]
     if n_rec >= rec.shape[0]:
-        bigger = np.empty((2 * rec.shape[0] + 16, rec.shape[1]))
+        bigger = np.empty((2 * rec.shape[0] + 16, ROW))
         bigger[:n_rec] = rec[:n_rec]
         rec = bigger
     rec[n_rec, 0] = t0
     rec[n_rec, 1] = t1
     rec[n_rec, 2] = h
     rec[n_rec, 3] = mode
-    for i in range(n):
+    for i in range(N):
         rec[n_rec, 4 + i] = y[i]
         for r in range(7):
-            rec[n_rec, 4 + n + r * n + i] = F[r, i]
+            rec[n_rec, 4 + N + r * N + i] = F[r, i]
     return rec, n_rec + 1
 
 
 @jit
-def start(code, prm, kind, pp, y, k, g_cur, state, book, cfg):
-    """Initialise a run at t = 0 from ``y`` in ``state.mode``: derivatives, events, first step."""
-    s = state[0]
-    on_start(code, prm, kind, pp, y, s.mode, book, cfg)
-    s.aux = rhs_into(code, prm, kind, pp, y, s.mode, k, 0)
-    s.n_rhs += 1
-    event_values(code, prm, kind, pp, y, s.mode, book, cfg, g_cur)
-    s.memory = memory_update(code, y, 0.0, True)
-    rate = time_rate(code, prm, kind, pp, y, s.mode)
-    s.h = FIRST_STEP / rate if (rate > 0.0 and math.isfinite(rate)) else FIRST_STEP
-    s.t = 0.0
+def _atol_row(atol, mode):
+    return (atol[mode, 0], atol[mode, 1], atol[mode, 2], atol[mode, 3], atol[mode, 4],
+            atol[mode, 5])
 
 
 @jit
-def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, y, k, g_cur,
+def start(code, prm, kind, pp, y, k, g_arr, state, book, cfg):
+    """Initialise a run at t = 0 from ``y`` in ``state.mode``: derivatives, events, first step."""
+    s = state[0]
+    b = book[0]
+    c = cfg[0]
+    yt = on_start(code, prm, kind, pp, tup(y), s.mode, b, c)
+    for i in range(N):
+        y[i] = yt[i]
+    r, rho, _ = rates(code, prm, kind, pp, yt, s.mode, False)
+    _put(r, k, 0)
+    s.aux = rho
+    s.n_rhs += 1
+    g = event_values(code, prm, kind, pp, yt, s.mode, b, c)
+    for i in range(N_EVENTS):
+        g_arr[i] = g[i]
+    s.memory = memory_update(code, yt, 0.0, True)
+    rate = time_rate(code, prm, kind, pp, yt, s.mode)
+    s.h = FIRST_STEP / rate if (rate > 0.0 and math.isfinite(rate)) else FIRST_STEP
+    s.t = 0.0
+    s.started = True
+
+
+@jit
+def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, y, k, g_arr,
             state, book, cfg, rec):
     """Take up to ``chunk`` accepted steps; returns the (possibly grown) step store ``rec``.
 
-    ``atol[mode, i]``: absolute tolerances per mode (read by the system's error scale).
+    The first call starts the run (:func:`start`). ``atol[mode, i]``: absolute tolerances per
+    mode (read by the system's error scale); ``g_arr``: the event values at ``y`` (kept between
+    calls).
     """
-    n = y.shape[0]
+    if not state[0].started:
+        start(code, prm, kind, pp, y, k, g_arr, state, book, cfg)
     s = state[0]
-    ynew = np.empty(n)
-    ytmp = np.empty(n)
-    scale = np.empty(n)
-    F = np.zeros((7, n))
-    g_lo = np.empty(N_EVENTS)
-    g_hi = np.empty(N_EVENTS)
-    g_tmp = np.empty(N_EVENTS)
-    d = np.zeros(N_EVENTS, np.int64)
+    b = book[0]
+    c = cfg[0]
+    n = SIZES[code]
+    ynew = np.zeros(N)
+    ytmp = np.zeros(N)
+    F = np.zeros((7, N))
     t = s.t
     h = s.h
     mode = s.mode
     rho = s.aux
     memory = s.memory
+    n_steps = s.n_steps
+    n_rhs = s.n_rhs
+    n_rej = s.n_rej
+    n_store = s.n_store
+    atol_row = _atol_row(atol, mode)
+    g_cur = (g_arr[0], g_arr[1], g_arr[2], g_arr[3], g_arr[4], g_arr[5], g_arr[6], g_arr[7],
+             g_arr[8])
     taken = 0
     reason = R_RUNNING
     while True:
         if taken >= chunk:
             break
-        if s.n_steps >= max_steps:
+        if n_steps >= max_steps:
             reason = R_STEP_BUDGET
             break
         if t >= max_time:
@@ -219,43 +242,60 @@ def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, 
             h = max_time - t
         for st in range(1, 12):
             stage_point(y, k, h, st, ytmp, n)
-            rhs_into(code, prm, kind, pp, ytmp, mode, k, st)
+            r, _, _ = rates(code, prm, kind, pp, tup(ytmp), mode, False)
+            _put(r, k, st)
         for i in range(n):
             acc = 0.0
             for j in range(12):
                 acc += _B[j] * k[j, i]
             ynew[i] = y[i] + h * acc
-        rho_new = rhs_into(code, prm, kind, pp, ynew, mode, k, 12)
-        s.n_rhs += 12
-        nc = error_scale(code, prm, y, ynew, rho, rho_new, mode, rtol, atol, memory, scale)
-        err = _error_norm(k, h, scale, nc)
+        yn = tup(ynew)
+        r, rho_new, _ = rates(code, prm, kind, pp, yn, mode, False)
+        _put(r, k, 12)
+        n_rhs += 12
+        # error norm (Hairer's combination of the 5th- and 3rd-order estimators)
+        scale, nc = error_scale(code, prm, tup(y), yn, rho, rho_new, mode, rtol, atol_row,
+                                memory)
+        e5sq = 0.0
+        e3sq = 0.0
+        for i in range(nc):
+            e5 = 0.0
+            e3 = 0.0
+            for j in range(13):
+                e5 += _E5[j] * k[j, i]
+                e3 += _E3[j] * k[j, i]
+            e5sq += (e5 / scale[i]) ** 2
+            e3sq += (e3 / scale[i]) ** 2
+        if e5sq == 0.0 and e3sq == 0.0:
+            err = 0.0
+        else:
+            err = abs(h) * e5sq / math.sqrt((e5sq + 0.01 * e3sq) * nc)
         if not math.isfinite(err):
             h *= 0.1
-            s.n_rej += 1
+            n_rej += 1
             if abs(h) < 1e-300:
                 reason = R_NONFINITE
                 break
             continue
         if err > 1.0:
             h *= max(MIN_FACTOR, SAFETY * err ** EXPONENT)
-            s.n_rej += 1
+            n_rej += 1
             if h <= 1e-15 * (abs(t) + 1e-300):
                 reason = R_STEP_UNDERFLOW
                 break
             continue
         # accepted: events inside the step, in time order
-        s.n_steps += 1
+        n_steps += 1
         taken += 1
-        for i in range(N_EVENTS):
-            g_lo[i] = g_cur[i]
-        event_values(code, prm, kind, pp, ynew, mode, book, cfg, g_hi)
+        g_lo = g_cur
+        g_hi = event_values(code, prm, kind, pp, yn, mode, b, c)
         th_lo = 0.0
         stop_theta = -1.0
         action = CONTINUE
         stop_event = -1
         have_dense = False
         for _pass in range(16):
-            event_directions(code, prm, mode, book, cfg, d)
+            d = event_directions(code, prm, mode, b, c)
             best = 2.0
             best_i = -1
             for i in range(N_EVENTS):
@@ -267,17 +307,18 @@ def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, 
                 if (di == 1 and up) or (di == -1 and down) or (di == 2 and (up or down)):
                     if not have_dense:
                         _dense(code, prm, kind, pp, y, ynew, k, h, mode, ytmp, F)
-                        s.n_rhs += 3
+                        n_rhs += 3
                         have_dense = True
-                    th = _locate(code, prm, kind, pp, y, F, h, mode, book, cfg, i, th_lo,
-                                 g_lo[i], ytmp, g_tmp)
+                    th = _locate(code, prm, kind, pp, y, F, h, mode, b, c, i, th_lo, g_lo[i],
+                                 ytmp)
                     if th < best:
                         best = th
                         best_i = i
             if best_i < 0:
                 break
-            dense_interpolate(y, F, best, ytmp, n)
-            act = handle_event(code, prm, kind, pp, best_i, t + best * h, ytmp, mode, book, cfg)
+            dense_interpolate(y, F, best, ytmp)
+            ye = tup(ytmp)
+            act = handle_event(code, prm, kind, pp, best_i, t + best * h, ye, mode, b, c)
             if act != CONTINUE:
                 stop_theta = best
                 action = act
@@ -285,45 +326,54 @@ def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, 
                 break
             # re-evaluate at the event so newly active events start from here
             th_lo = best
-            event_values(code, prm, kind, pp, ytmp, mode, book, cfg, g_lo)
-            event_values(code, prm, kind, pp, ynew, mode, book, cfg, g_hi)
+            g_lo = event_values(code, prm, kind, pp, ye, mode, b, c)
+            g_hi = event_values(code, prm, kind, pp, yn, mode, b, c)
         if store and not have_dense:
             _dense(code, prm, kind, pp, y, ynew, k, h, mode, ytmp, F)
-            s.n_rhs += 3
+            n_rhs += 3
             have_dense = True
         if action != CONTINUE:
             # the step ends at the event: stop there, or change variables and go on
-            dense_interpolate(y, F, stop_theta, ytmp, n)
+            dense_interpolate(y, F, stop_theta, ytmp)
             t_event = t + stop_theta * h
             if store:
-                rec, s.n_store = _store(rec, s.n_store, t, t_event, h, mode, y, F)
+                rec, n_store = _store(rec, n_store, t, t_event, h, mode, y, F)
             t = t_event
-            for i in range(n):
-                y[i] = ytmp[i]
-            rho = rhs_into(code, prm, kind, pp, y, mode, k, 0)
-            track(code, prm, kind, pp, y, mode, book)
+            ye = tup(ytmp)
+            r, rho, _ = rates(code, prm, kind, pp, ye, mode, False)
+            track(code, prm, kind, pp, ye, mode, b)
             if action == SWITCH:
-                mode = switch_state(code, prm, kind, pp, stop_event, y, mode)
-                rho = rhs_into(code, prm, kind, pp, y, mode, k, 0)
-                s.n_rhs += 1
-                event_values(code, prm, kind, pp, y, mode, book, cfg, g_cur)
+                ye, mode = switch_state(code, prm, kind, pp, stop_event, ye, mode)
+                atol_row = _atol_row(atol, mode)
+                r, rho, _ = rates(code, prm, kind, pp, ye, mode, False)
+                n_rhs += 1
+            for i in range(N):
+                y[i] = ye[i]
+            _put(r, k, 0)
+            g_cur = event_values(code, prm, kind, pp, ye, mode, b, c)
+            if action == SWITCH:
                 continue
             reason = R_PROBLEM
             break
-        track(code, prm, kind, pp, ynew, mode, book)
+        track(code, prm, kind, pp, yn, mode, b)
         if store:
-            rec, s.n_store = _store(rec, s.n_store, t, t + h, h, mode, y, F)
+            rec, n_store = _store(rec, n_store, t, t + h, h, mode, y, F)
         t = t + h
-        for i in range(n):
+        for i in range(N):
             y[i] = ynew[i]
             k[0, i] = k[12, i]
         rho = rho_new
-        memory = memory_update(code, y, memory, False)
-        for i in range(N_EVENTS):
-            g_cur[i] = g_hi[i]
+        memory = memory_update(code, yn, memory, False)
+        g_cur = g_hi
         fac = MAX_FACTOR if err == 0.0 else min(MAX_FACTOR, max(MIN_FACTOR,
                                                                 SAFETY * err ** EXPONENT))
         h *= fac
+    for i in range(N_EVENTS):
+        g_arr[i] = g_cur[i]
+    s.n_steps = n_steps
+    s.n_rhs = n_rhs
+    s.n_rej = n_rej
+    s.n_store = n_store
     s.t = t
     s.h = h
     s.mode = mode
@@ -334,25 +384,36 @@ def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, 
         s.reason = reason
         failed = (reason == R_STEP_BUDGET or reason == R_STEP_UNDERFLOW
                   or reason == R_NONFINITE)
-        finish(code, prm, kind, pp, t, y, mode, book, failed)
+        finish(code, prm, kind, pp, t, tup(y), mode, b, failed)
     return rec
+
+
+@jit
+def stop(code, prm, kind, pp, reason, y, state, book):
+    """End a run from outside the loop (the wall-clock budget)."""
+    s = state[0]
+    s.done = True
+    s.reason = reason
+    finish(code, prm, kind, pp, s.t, tup(y), s.mode, book[0], True)
 
 
 @jit
 def interpolate_states(rec, index, tq, out):
     """States at times ``tq`` on the continuous extension of the stored steps ``index``."""
-    n = out.shape[1]
-    y0 = np.empty(n)
-    F = np.empty((7, n))
+    y0 = np.empty(N)
+    F = np.empty((7, N))
+    buf = np.empty(N)
     for q in range(tq.shape[0]):
         j = index[q]
-        for i in range(n):
+        for i in range(N):
             y0[i] = rec[j, 4 + i]
             for r in range(7):
-                F[r, i] = rec[j, 4 + n + r * n + i]
+                F[r, i] = rec[j, 4 + N + r * N + i]
         theta = (tq[q] - rec[j, 0]) / rec[j, 2]
         if theta <= 0.0:
-            for i in range(n):
+            for i in range(N):
                 out[q, i] = y0[i]
         else:
-            dense_interpolate(y0, F, theta, out[q], n)
+            dense_interpolate(y0, F, theta, buf)
+            for i in range(N):
+                out[q, i] = buf[i]

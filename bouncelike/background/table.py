@@ -292,10 +292,13 @@ def table_from_state(potential: Any, critical_density: float, phi0: float, phido
         ok = past.summary.reason == "density" if past_density else past.summary.reason in (
             "time_cap", "density")
         if not ok:
+            why = past.summary.message
+            if past.summary.status == "efold_cap":
+                why = (f"it stays potential-dominated for more than {max_efolds:g} e-folds "
+                       "(the time reverse of inflation)")
             raise NumericalFailure(
-                "background integration (past) failed: the contracting branch before the "
-                f"bounce does not reach rho = {past_density:g}: {past.summary.message}"
-                if past_density else
-                f"background integration (past) failed: {past.summary.message}")
+                "the contracting branch before the bounce does not reach rho = "
+                f"{past_density:g}: {why}" if past_density else
+                f"background integration (past) failed: {why}")
     return table_from_runs(forward, past, potential, rc, extra_efolds, points_per_unit,
                            dense_efolds)
