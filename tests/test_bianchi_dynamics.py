@@ -193,3 +193,40 @@ def test_bad_input_is_one_line_error():
         BianchiIDynamics(RHO_C, shear_ratio=1e100)
     with pytest.raises(InputError, match="shear_ratio.*initial density"):
         BianchiIDynamics(RHO_C, shear_ratio=1e10).evolve(POT, cn.ContractingStart(1e-13, 0.0))
+
+
+def test_efolds_converge_with_the_tolerance():
+    """Tightening rtol tenfold moves the e-folds by far less than the tolerance scale
+    (convergence; common practice), with and without shear."""
+    for ratio in (0.0, 1e-3):
+        dyn = BianchiIDynamics(RHO_C, ratio, 30.0)
+        start = ContractingStart(1e-16, 1.0)
+        a = dyn.evolve_summary(POT, start, IntegrationSettings())
+        b = dyn.evolve_summary(POT, start, IntegrationSettings(rtol=1e-11, atol=1e-14))
+        assert a.status == b.status == "inflated"
+        assert a.inflationary_efolds == pytest.approx(b.inflationary_efolds, rel=1e-8)
+        assert a.events.t_bounce == pytest.approx(b.events.t_bounce, rel=1e-9)
+
+
+def test_python_potential_runs_the_same_engine():
+    """A potential registered from Python (no compiled kernel) runs the same solver uncompiled:
+    same e-folds as the compiled quadratic potential."""
+    from bouncelike.background.potentials import CustomPotential
+
+    class Quad:
+        def V(self, phi):
+            return 0.5e-4 * np.asarray(phi) ** 2
+
+        def dV(self, phi):
+            return 1e-4 * np.asarray(phi)
+
+        def d2V(self, phi):
+            return np.full_like(np.asarray(phi, dtype=float), 1e-4)
+
+    dyn = BianchiIDynamics(RHO_C, shear_ratio=1e-14)
+    start = ContractingStart(1e-4, 1.0)
+    fast = dyn.evolve_summary(Quadratic(1e-2), start)
+    slow = dyn.evolve_summary(CustomPotential(Quad(), "test:Quad"), start)
+    assert fast.engine == "compiled" and slow.engine == "python"
+    assert slow.status == fast.status == "inflated"
+    assert slow.inflationary_efolds == pytest.approx(fast.inflationary_efolds, rel=1e-12)
