@@ -35,7 +35,6 @@ from bouncelike.background.initial import ContractingStart, IntegrationSettings 
 from bouncelike.background.isotropic import (  # noqa: E402
     IsotropicDynamics,
     hubble_squared,
-    inflationary_efolds,
     raychaudhuri,
 )
 from bouncelike.background.potentials import Quadratic  # noqa: E402
@@ -156,7 +155,7 @@ def main() -> None:
     repeat = 20
     t0 = time.perf_counter()
     for _ in range(repeat):
-        engine = [inflationary_efolds(dynamics.evolve_summary(potential, ini, settings))
+        engine = [dynamics.evolve_summary(potential, ini, settings).inflationary_efolds
                   for ini in initials]
     t_engine = (time.perf_counter() - t0) / (repeat * len(initials))
     print(f"engine (serial, same draws): {t_engine * 1e3:.3f} ms per trajectory")
