@@ -46,6 +46,7 @@ from ..errors import InputError
 from . import canonical as cn
 from . import engine
 from .initial import BounceStart, ContractingStart, IntegrationSettings
+from .isotropic import IsotropicDynamics
 from .limits import check_critical_density, check_potential_fraction
 from .result import BackgroundTrajectory, RunSummary
 from .systems import SYS_LOOP
@@ -106,9 +107,7 @@ class CondensateDynamics(cn.CanonicalDynamics):
         """Without the extra term the dynamics is the isotropic one with rho_c -> rho_c'."""
         return self.condensate_term == 0.0 and not self.canonical
 
-    def _isotropic(self) -> Any:
-        from .isotropic import IsotropicDynamics
-
+    def _isotropic(self) -> IsotropicDynamics:
         return IsotropicDynamics(self.effective_critical_density)
 
     @property

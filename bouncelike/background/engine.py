@@ -30,7 +30,7 @@ from . import potential_kernels, problem, solver, systems
 from .initial import IntegrationSettings
 from .jit import drop_stale_caches, python_copy
 from .potentials import KERNEL_PYTHON
-from .result import STATUSES, BackgroundEvents, RunSummary
+from .result import STATUSES, BackgroundEvents, BackgroundTrajectory, RunSummary
 
 drop_stale_caches(Path(__file__).with_name(name) for name in (
     "jit.py", "potential_kernels.py", "isotropic_system.py", "bianchi_system.py",
@@ -336,10 +336,8 @@ def sample_times(dense: DenseSolution, summary: RunSummary, dense_points: int) -
 def trajectory(name: str, result: EngineRun, critical_density: float,
                settings: IntegrationSettings, *, status: str | None = None,
                message: str | None = None, extras: dict | None = None,
-               provenance: dict | None = None) -> Any:
+               provenance: dict | None = None) -> BackgroundTrajectory:
     """The :class:`~.result.BackgroundTrajectory` of a stored run."""
-    from .result import BackgroundTrajectory
-
     s = result.summary
     dense = result.dense
     t = sample_times(dense, s, int(settings.dense_points))

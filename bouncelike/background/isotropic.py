@@ -48,7 +48,7 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import InputError
+from ..errors import InputError, NumericalFailure
 from ..units import critical_density as critical_density_from_gamma
 from . import engine
 from .initial import BounceStart, ClassicalStart, ContractingStart, IntegrationSettings
@@ -56,6 +56,7 @@ from .isotropic_system import SWITCH_FRACTION
 from .limits import check_critical_density, check_potential_fraction
 from .result import BackgroundTrajectory, RunSummary
 from .systems import SYS_ISOTROPIC
+from .table import BackgroundTable, table_from_state
 
 
 # -- pure array-level physics (usable by other dynamics and by baselines) ------------------------
@@ -223,14 +224,11 @@ class IsotropicDynamics:
 
     def table(self, potential: Any, initial: Any, *, past_density: float | None = None,
               extra_efolds: float = 2.0, settings: IntegrationSettings | None = None,
-              points_per_unit: float = 60.0, dense_efolds: float = 60.0) -> Any:
+              points_per_unit: float = 60.0, dense_efolds: float = 60.0) -> BackgroundTable:
         """The :class:`~bouncelike.background.table.BackgroundTable` through the bounce of
         ``initial`` (a bounce start, or the bounce reached from a contracting start), with the
         contracting branch back to ``past_density`` and ``extra_efolds`` after the end of
         inflation."""
-        from ..errors import NumericalFailure
-        from .table import table_from_state
-
         settings = settings or IntegrationSettings()
         if isinstance(initial, BounceStart):
             phi_b, phidot_b = self.bounce_state(potential, initial)
