@@ -46,17 +46,13 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
 from bouncelike.parallel import ProcessPool  # noqa: E402
-from bouncelike.sampling.driver import (  # noqa: E402
-    ModelPosterior,
-    SamplerSettings,
-    install_posterior,
-    run_sampler,
-)
+from bouncelike.sampling.driver import SamplerSettings, run_sampler  # noqa: E402
 from bouncelike.sampling.parametric import (  # noqa: E402
     PowerLawModel,
     model_prior,
     parametric_model,
 )
+from bouncelike.sampling.posterior import ModelPosterior, install_posterior  # noqa: E402
 from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior  # noqa: E402
 
 
@@ -107,8 +103,7 @@ def pool_efficiency(label, post, steps, tmp):
     t_serial = time.perf_counter() - t0
     # mean cost of one evaluation in the serial run (distinct points: no cache hits)
     t_eval = t_serial / max(rs.evaluations, 1)
-    install_posterior(post)  # the workers inherit the posterior at fork
-    pool = ProcessPool(2)
+    pool = ProcessPool(2, install_posterior, (post,))  # each worker gets the posterior once
     try:
         t0 = time.perf_counter()
         run_sampler(post, s2, tmp / f"pool_{name}", pool=pool, show_progress=False)
@@ -295,8 +290,7 @@ def main() -> int:
             print(f"3c. physical bounce posterior to convergence ({example.name} settings: "
                   f"{ps.walkers} walkers, tau multiple {ps.tau_multiple:g}), 2 worker "
                   "processes")
-            install_posterior(phys_post)
-            pool = ProcessPool(2)
+            pool = ProcessPool(2, install_posterior, (phys_post,))
             try:
                 t0 = time.perf_counter()
                 rp = run_sampler(phys_post, ps, tmp / "physical", pool=pool,

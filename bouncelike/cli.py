@@ -75,8 +75,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     except NumericalFailure as exc:  # a configuration the model cannot evaluate
         print(f"bouncelike: numerical failure: {exc}", file=sys.stderr)
         return 1
-    except KeyboardInterrupt:
-        print("bouncelike: interrupted", file=sys.stderr)
+    except KeyboardInterrupt as exc:  # RunInterrupted says where it stopped
+        print("bouncelike: interrupted" + (f": {exc}" if str(exc) else ""), file=sys.stderr)
         return 130
     except BrokenPipeError:  # output piped into a pager or head that closed early
         import os

@@ -12,6 +12,7 @@ Top-level sections of a run configuration (each validated by the module that own
 ``model``         which forward model produces the spectra (``spectra = ...``)
 ``power_law``     a power-law primordial spectrum
 ``slow_roll``     slow-roll prediction of a potential at N_* e-folds
+``table``         spectra read from a CSV file (``[model] spectra = "table"``)
 ``potential``     inflaton potential (name and parameters)
 ``background``    effective bounce dynamics and initial data
 ``perturbations`` prescription, initial state and options for the modes
@@ -43,6 +44,7 @@ TOP_LEVEL_SECTIONS = (
     "model",
     "power_law",
     "slow_roll",
+    "table",
     "potential",
     "background",
     "perturbations",

@@ -20,3 +20,23 @@ class InputError(ValueError):
 
 class NumericalFailure(RuntimeError):
     """A forward-model evaluation that failed numerically (reported, never silently ignored)."""
+
+
+class NotEvaluable(NumericalFailure):
+    """A point the likelihood cannot score: the model has no prediction there.
+
+    Raised (with a physical reason, e.g. "inflation does not end before the e-fold cap") for a
+    parameter point whose spectra cannot be computed or cannot be represented by what the
+    likelihood scores -- e.g. a featured spectrum whose features reach a pivot's window, or
+    spectra that are not positive where the large-scale temperature projection needs them.
+    Such a point is reported as *not evaluable*, never as excluded by the data: a posterior run
+    records it (parameters and reason) and gives it no posterior weight.
+    """
+
+
+class RunInterrupted(KeyboardInterrupt):
+    """A long computation stopped on the user's request (Ctrl-C) after saving its progress.
+
+    The message says where it stopped and how to continue; the command-line front end prints
+    it as one line (exit code 130).
+    """

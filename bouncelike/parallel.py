@@ -9,14 +9,23 @@ workers.
 Under ``mpiexec`` (detected from the environment, mpi4py installed as the ``mpi`` extra) the
 pool is a master/worker pool over MPI ranks: rank 0 runs the program and hands out chunks of each
 ``map``; the other ranks serve until the master closes the pool and then exit.
+
+A pool takes an ``initializer`` (with ``initargs``) that runs once in every worker before its
+first task -- e.g. :func:`bouncelike.sampling.posterior.install_posterior`, which puts the
+posterior into each worker so that a task carries only its point. Serial pools run it in the
+calling process. Workers ignore Ctrl-C (SIGINT): the main process alone decides what an
+interruption means, and an interrupted or failed ``map`` ends the workers at once
+(``terminate``) instead of waiting for queued tasks, so Ctrl-C gives one line and no hang.
 """
 
 from __future__ import annotations
 
+import contextlib
 import multiprocessing as mp
 import os
+import signal
 import sys
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Iterable, Iterator
 from typing import Any
 
 
@@ -33,6 +42,13 @@ class SerialPool:
 
     workers = 1
 
+    def __init__(self, initializer: Callable[..., Any] | None = None,
+                 initargs: tuple = ()) -> None:
+        self.initializer = initializer
+        self.initargs = tuple(initargs)
+        if initializer is not None:
+            initializer(*self.initargs)
+
     def map(self, func: Callable[[Any], Any], tasks: Iterable[Any]) -> list[Any]:
         return [func(t) for t in tasks]
 
@@ -40,22 +56,58 @@ class SerialPool:
         return True
 
     def close(self) -> None:
-        pass
+        """Finish: wait for the workers to end after their last task."""
+
+    def terminate(self) -> None:
+        """Stop at once (after an error or an interruption): queued tasks are dropped."""
+        self.close()
 
     def __enter__(self) -> SerialPool:
         return self
 
-    def __exit__(self, *exc: object) -> None:
-        self.close()
+    def __exit__(self, exc_type: object, *exc: object) -> None:
+        if exc_type is None:
+            self.close()
+        else:
+            self.terminate()
+
+
+def _start_worker(initializer: Callable[..., Any] | None, initargs: tuple) -> None:
+    """First code a worker process runs: ignore SIGINT, then the pool's initializer."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    if hasattr(signal, "pthread_sigmask"):
+        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
+    if initializer is not None:
+        initializer(*initargs)
+
+
+@contextlib.contextmanager
+def _sigint_blocked() -> Iterator[None]:
+    """Hold SIGINT back while workers are forked, so none is hit before it can ignore it.
+
+    A Ctrl-C pressed meanwhile is delivered to this process when the block ends."""
+    if not hasattr(signal, "pthread_sigmask"):  # pragma: no cover - not POSIX
+        yield
+        return
+    old = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
+    try:
+        yield
+    finally:
+        signal.pthread_sigmask(signal.SIG_SETMASK, old)
 
 
 class ProcessPool(SerialPool):
     """Local worker processes (``fork`` where available so compiled code is inherited)."""
 
-    def __init__(self, workers: int):
+    def __init__(self, workers: int, initializer: Callable[..., Any] | None = None,
+                 initargs: tuple = ()):
         self.workers = int(workers)
+        self.initializer = initializer
+        self.initargs = tuple(initargs)
         method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
-        self._pool = mp.get_context(method).Pool(self.workers)
+        with _sigint_blocked():
+            self._pool = mp.get_context(method).Pool(
+                self.workers, initializer=_start_worker, initargs=(initializer, self.initargs))
 
     def map(self, func: Callable[[Any], Any], tasks: Iterable[Any]) -> list[Any]:
         tasks = list(tasks)
@@ -67,10 +119,18 @@ class ProcessPool(SerialPool):
         else:
             # large batches of uneven cost (e-fold distributions): a few chunks per worker
             chunk = max(1, n // (4 * self.workers))
-        return self._pool.map(func, tasks, chunksize=max(1, chunk))
+        try:
+            return self._pool.map(func, tasks, chunksize=max(1, chunk))
+        except BaseException:
+            self.terminate()  # a failed or interrupted map: do not wait for queued tasks
+            raise
 
     def close(self) -> None:
         self._pool.close()
+        self._pool.join()
+
+    def terminate(self) -> None:
+        self._pool.terminate()
         self._pool.join()
 
 
@@ -79,12 +139,22 @@ class MPIPool(SerialPool):
 
     _TAG_TASK, _TAG_RESULT, _TAG_STOP = 11, 12, 13
 
-    def __init__(self) -> None:
+    def __init__(self, initializer: Callable[..., Any] | None = None,
+                 initargs: tuple = ()) -> None:
         from mpi4py import MPI
 
         self.comm = MPI.COMM_WORLD
         self.rank = self.comm.Get_rank()
         self.workers = self.comm.Get_size()
+        self.initializer = initializer
+        self.initargs = tuple(initargs)
+
+    def start(self) -> None:
+        """Run the initializer on this rank (every rank, the master included, computes)."""
+        if self.rank != 0:
+            signal.signal(signal.SIGINT, signal.SIG_IGN)
+        if self.initializer is not None:
+            self.initializer(*self.initargs)
 
     def is_master(self) -> bool:
         return self.rank == 0
@@ -122,7 +192,9 @@ class MPIPool(SerialPool):
                 self.comm.send(None, dest=r, tag=self._TAG_STOP)
 
 
-def make_pool(workers: int | None = 1, use_mpi: bool | None = None) -> SerialPool:
+def make_pool(workers: int | None = 1, use_mpi: bool | None = None, *,
+              initializer: Callable[..., Any] | None = None, initargs: tuple = ()
+              ) -> SerialPool:
     """Build the pool a command asked for.
 
     Parameters
@@ -131,6 +203,8 @@ def make_pool(workers: int | None = 1, use_mpi: bool | None = None) -> SerialPoo
         Local worker processes; 1 means serial, None means all cores.
     use_mpi : bool or None
         None: use MPI when started under an MPI launcher with several ranks.
+    initializer, initargs : callable and its arguments, run once in every worker (and, for a
+        serial pool or on the MPI master, in this process) before the first task.
 
     Under MPI the worker ranks enter their service loop here and leave the program when the
     master closes the pool, so code after ``make_pool`` runs on rank 0 only.
@@ -139,7 +213,7 @@ def make_pool(workers: int | None = 1, use_mpi: bool | None = None) -> SerialPoo
         use_mpi = running_under_mpi()
     if use_mpi:
         try:
-            pool = MPIPool()
+            pool = MPIPool(initializer, initargs)
         except ImportError as exc:  # pragma: no cover - depends on the environment
             from .errors import InputError
 
@@ -148,6 +222,7 @@ def make_pool(workers: int | None = 1, use_mpi: bool | None = None) -> SerialPoo
                 "(pip install 'bouncelike[mpi]')"
             ) from exc
         if pool.workers > 1:
+            pool.start()
             if not pool.is_master():
                 pool.wait()
                 sys.exit(0)
@@ -155,5 +230,5 @@ def make_pool(workers: int | None = 1, use_mpi: bool | None = None) -> SerialPoo
     if workers is None:
         workers = os.cpu_count() or 1
     if workers <= 1:
-        return SerialPool()
-    return ProcessPool(workers)
+        return SerialPool(initializer, initargs)
+    return ProcessPool(workers, initializer, initargs)

@@ -73,11 +73,12 @@ def hubble_radius_wavenumber(h0_km_s_mpc: float | None = None) -> float:
 
 def wavenumber_in_mpc(k: object) -> np.ndarray:
     """Accept comoving wavenumbers as plain numbers (Mpc^-1) or astropy quantities."""
-    try:
-        from astropy import units as u
+    if hasattr(k, "to_value"):  # only quantities: the import below costs ~0.1 ms per call
+        try:
+            from astropy import units as u
 
-        if isinstance(k, u.Quantity):
-            return np.asarray(k.to_value(1 / u.Mpc), dtype=float)
-    except ImportError:  # pragma: no cover
-        pass
+            if isinstance(k, u.Quantity):
+                return np.asarray(k.to_value(1 / u.Mpc), dtype=float)
+        except ImportError:  # pragma: no cover
+            pass
     return np.asarray(k, dtype=float)

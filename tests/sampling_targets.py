@@ -7,7 +7,8 @@ import time
 import numpy as np
 
 from bouncelike.errors import NumericalFailure
-from bouncelike.sampling.driver import Posterior, SamplerSettings, run_sampler
+from bouncelike.sampling.driver import SamplerSettings, run_sampler
+from bouncelike.sampling.posterior import Posterior
 from bouncelike.sampling.priors import ParameterPrior, Prior
 
 MEAN = np.array([1.0, -2.0])
@@ -49,9 +50,11 @@ def gaussian_posterior(delay: float = 0.0, fail_above: float | None = None) -> P
 
 
 SETTINGS = SamplerSettings(walkers=12, max_steps=600, min_steps=100, tau_multiple=10,
-                           tau_tolerance=0.2, checkpoint_every=50, seed=11)
+                           tau_tolerance=0.2, checkpoint_every=50, seed=11,
+                           prior_survey_draws=50)
 
 
-def run(folder: str, delay: float = 0.0, resume: bool = False) -> None:
-    run_sampler(gaussian_posterior(delay), SETTINGS, folder, resume=resume,
+def run(folder: str, delay: float = 0.0, resume: bool = False,
+        fail_above: float | None = None) -> None:
+    run_sampler(gaussian_posterior(delay, fail_above), SETTINGS, folder, resume=resume,
                 show_progress=False)

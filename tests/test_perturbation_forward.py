@@ -46,7 +46,8 @@ def test_forward_model_covers_window_and_notes_bounce_scale(presc):
     assert np.all(np.isfinite(run.spectrum.scalar)) and np.all(run.spectrum.tensor > 0)
     j = np.argmin(np.abs(run.k_mpc - 0.05))
     if presc == "dressed_metric":
-        assert any(n.startswith("sign convention: 'classical'") for n in run.notes)
+        assert any(n.startswith("sign convention: 'fixed_slow_roll' instead of 'classical'")
+                   for n in run.notes)
     if presc == "deformed_algebra":
         # UV growth: k_* ~ 23 k_LQC here, far above the dressed-metric (standard) value
         dm = run_bounce(tab, PerturbationOptions(k_count=24), n_star=55.0)
@@ -160,3 +161,51 @@ def test_contracting_start_on_negative_branch_gives_slow_roll(tmp_path):
     s = pivot_summary(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor, 0.05)
     assert s["n_s"] == pytest.approx(1 - 2 / 55.5, abs=1.5e-3)
     assert s["r"] == pytest.approx(8 / 55.5, rel=0.02)
+
+
+def test_n_star_carries_the_thermal_degrees_of_freedom():
+    # Planck 2018 inflation paper (arXiv:1807.06211), N_* equation, after Liddle & Leach
+    # (PRD 68 (2003) 103503): N_* = 67 - ln(k_*/a_0 H_0) + (1/4) ln(V_*^2/(M_Pl^4 rho_end))
+    # + ((1 - 3w)/(12(1 + w))) ln(rho_reh/rho_end) - (1/12) ln g_th (form from memory).
+    # Hand evaluation for given inputs: rho_end and V(ln a) read off the background, reduced
+    # M_Pl^4 = 1/(8 pi)^2, k_* = 0.05 Mpc^-1, a_0 H_0 = H_0/c with astropy's Planck18 H_0,
+    # w = 0, rho_reh = 1e-20, g_th = 106.75; V_* at N_* before the end, solved by iteration.
+    from astropy.cosmology import Planck18
+
+    tab = bounce_background()
+    k0 = Planck18.H0.to_value("km/(s Mpc)") / 299792.458
+    i_end = int(np.argmin(np.abs(tab.t - tab.t_inflation_end)))
+    rho_end, ln_a_end = float(tab.rho[i_end]), float(tab.ln_a[i_end])
+    post = tab.t > 0
+    n = 55.0
+    for _ in range(60):
+        v_star = float(np.interp(ln_a_end - n, tab.ln_a[post], tab.V[post]))
+        n = (67 - math.log(0.05 / k0)
+             + 0.25 * math.log(v_star**2 * (8 * math.pi) ** 2 / rho_end)
+             + (1 / 12) * math.log(1e-20 / rho_end) - math.log(106.75) / 12)
+    got = liddle_leach_n_star(tab, 0.0, 1e-20)
+    assert got == pytest.approx(n, abs=1e-6)  # without the g_th term: 0.39 above
+    # slow-roll cross-check of the inputs (m^2 phi^2: phi_*^2 = (N + 1/2)/(2 pi), Encyclopaedia
+    # Inflationaris arXiv:1303.3787): V_* within 3%
+    assert v_star == pytest.approx(0.5 * 1.2e-6**2 * (n + 0.5) / (2 * math.pi), rel=0.03)
+    # the g_th dependence itself: -(1/12) ln g_th, amplified by the self-consistency of V_*
+    # (d ln V_*/dN = 1/(N + 1/2) in this model): 1/(1 - 1/(2N + 1))
+    shift = liddle_leach_n_star(tab, 0.0, 1e-20, g_th=1.0) - got
+    assert shift == pytest.approx(math.log(106.75) / 12 / (1 - 1 / (2 * got + 1)), rel=2e-3)
+
+
+def test_reheating_degrees_of_freedom_validated(tmp_path):
+    from bouncelike.config import load_run_config
+    from bouncelike.errors import InputError
+    from bouncelike.perturbations.forward import REHEATING_KEYS, reheating_from_table
+
+    cfg = tmp_path / "r.toml"
+    cfg.write_text("[reheating]\nequation_of_state = 0.0\ndensity = 1e-20\n"
+                   "thermal_degrees_of_freedom = 0.5\n")
+    table = load_run_config(cfg).table("reheating", REHEATING_KEYS)
+    with pytest.raises(InputError, match="reheating.thermal_degrees_of_freedom"):
+        reheating_from_table(table)
+    cfg.write_text("[reheating]\nequation_of_state = 0.0\ndensity = 1e-20\n"
+                   "thermal_degrees_of_freedom = 200.0\n")
+    _, reh, _, _ = reheating_from_table(load_run_config(cfg).table("reheating", REHEATING_KEYS))
+    assert reh == (0.0, 1e-20, 200.0)

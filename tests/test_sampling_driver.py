@@ -2,8 +2,11 @@
 
 from __future__ import annotations
 
+import json
+import math
 import os
 import signal
+import socket
 import subprocess
 import sys
 import time
@@ -15,9 +18,12 @@ import pytest
 from sampling_targets import COV, MEAN, SETTINGS, gaussian_posterior, gaussian_prior
 
 from bouncelike.errors import InputError
+from bouncelike.reporting.marginals import marginal_statistics
 from bouncelike.sampling import chains
 from bouncelike.sampling.driver import SamplerSettings, run_sampler
-from bouncelike.sampling.verdicts import marginal_statistics
+from bouncelike.sampling.failures import load_failures
+from bouncelike.sampling.lock import process_start
+from bouncelike.sampling.storage import read_state
 
 ROOT = Path(__file__).resolve().parents[1]
 TESTS = Path(__file__).resolve().parent
@@ -82,8 +88,15 @@ def test_manifest_and_chain_file(gaussian_run):
     assert m["run"]["steps"] == result.steps
     chain = pd.read_csv(folder / "chain.csv")
     assert len(chain) == result.steps * 16
-    assert list(chain.columns[:4]) == ["step", "walker", "a", "b"]
+    assert list(chain.columns) == ["step", "walker", "a", "b", "log_likelihood", "s", "d",
+                                   "log_posterior"]
     assert not (folder / ".lock").exists()
+    assert len(load_failures(folder)) == 0  # nothing failed: failures.csv holds its header
+    assert m["run"]["failure_summary"]["prior_survey"]["draws"] == 200
+
+
+def _steps(folder):
+    return int(read_state(folder)["steps"])
 
 
 def _state_arrays(folder):
@@ -96,15 +109,16 @@ def _assert_same_run(a, b):
     assert sa.keys() == sb.keys()
     for k in sa:
         np.testing.assert_array_equal(sa[k], sb[k], err_msg=k)
-    assert (a / "chain.csv").read_bytes() == (b / "chain.csv").read_bytes()
-    assert (a / "samples.csv").read_bytes() == (b / "samples.csv").read_bytes()
+    for name in ("chain.csv", "samples.csv", "failures.csv"):
+        assert (a / name).read_bytes() == (b / name).read_bytes(), name
 
 
-def test_resume_equals_continuous_run(tmp_path):
+@pytest.mark.parametrize("stop", [0, 130])  # right after placing the walkers; mid-chunk
+def test_resume_equals_continuous_run(tmp_path, stop):
     cont, part = tmp_path / "continuous", tmp_path / "interrupted"
     r1 = run_sampler(gaussian_posterior(), SETTINGS, cont, show_progress=False)
-    run_sampler(gaussian_posterior(), SETTINGS, part, show_progress=False, stop_after=130)
-    assert chains.Checkpoint.load(part).steps == 130
+    run_sampler(gaussian_posterior(), SETTINGS, part, show_progress=False, stop_after=stop)
+    assert _steps(part) == stop
     with pytest.raises(InputError, match="--resume"):
         run_sampler(gaussian_posterior(), SETTINGS, part, show_progress=False)
     r2 = run_sampler(gaussian_posterior(), SETTINGS, part, show_progress=False, resume=True)
@@ -113,24 +127,32 @@ def test_resume_equals_continuous_run(tmp_path):
 
 
 def test_resume_after_sigkill_equals_continuous_run(tmp_path):
+    # a failing region (a > 1.5) so that failures.csv has rows after the last checkpoint too
     cont, killed = tmp_path / "continuous", tmp_path / "killed"
-    run_sampler(gaussian_posterior(), SETTINGS, cont, show_progress=False)
+    run_sampler(gaussian_posterior(fail_above=1.5), SETTINGS, cont, show_progress=False)
     code = (f"import sys; sys.path[:0] = [{str(ROOT)!r}, {str(TESTS)!r}]\n"
-            f"from sampling_targets import run; run({str(killed)!r}, delay=0.002)\n")
+            f"from sampling_targets import run\n"
+            f"run({str(killed)!r}, delay=0.002, fail_above=1.5)\n")
     proc = subprocess.Popen([sys.executable, "-c", code])
     deadline = time.time() + 60
     while time.time() < deadline:
-        if (killed / "state.npz").exists() and chains.Checkpoint.load(killed).steps >= 100:
-            break
+        try:
+            if _steps(killed) >= 100:
+                break
+        except (InputError, FileNotFoundError):  # not written yet
+            pass
         time.sleep(0.05)
     assert proc.poll() is None, "the run ended before it could be killed"
+    time.sleep(0.13)  # into the next chunk: rows appended after the checkpoint are cut back
     os.kill(proc.pid, signal.SIGKILL)
     proc.wait()
-    steps_at_kill = chains.Checkpoint.load(killed).steps
+    steps_at_kill = _steps(killed)
     assert steps_at_kill < SETTINGS.max_steps
     assert (killed / ".lock").exists()  # stale lock of the killed process
-    run_sampler(gaussian_posterior(), SETTINGS, killed, show_progress=False, resume=True)
+    run_sampler(gaussian_posterior(fail_above=1.5), SETTINGS, killed, show_progress=False,
+                resume=True)
     _assert_same_run(cont, killed)
+    assert len(load_failures(killed)) > 0
 
 
 def test_second_run_on_same_folder_is_refused(tmp_path):
@@ -138,8 +160,10 @@ def test_second_run_on_same_folder_is_refused(tmp_path):
     holder = subprocess.Popen([sys.executable, "-c", "import time; time.sleep(30)"])
     try:
         folder.mkdir()
-        (folder / ".lock").write_text(f"{holder.pid} {os.uname().nodename}\n")
-        with pytest.raises(InputError, match="in use by process"):
+        lock = {"pid": holder.pid, "host": socket.gethostname(),
+                "process_start": process_start(holder.pid), "since": "today"}
+        (folder / ".lock").write_text(json.dumps(lock) + "\n")
+        with pytest.raises(InputError, match=f"in use by process {holder.pid}.*kill"):
             run_sampler(gaussian_posterior(), SETTINGS, folder, show_progress=False)
         assert sorted(p.name for p in folder.iterdir()) == [".lock"]
     finally:
@@ -147,20 +171,35 @@ def test_second_run_on_same_folder_is_refused(tmp_path):
         holder.wait()
 
 
-def test_failing_forward_model_counted_and_run_continues(tmp_path):
+def test_failing_forward_model_recorded_and_run_continues(tmp_path):
     post = gaussian_posterior(fail_above=2.5)
     settings = SamplerSettings(walkers=12, max_steps=300, min_steps=100, tau_multiple=10,
-                               tau_tolerance=0.5, checkpoint_every=100, seed=5)
+                               tau_tolerance=0.5, checkpoint_every=100, seed=5,
+                               prior_survey_draws=400)
     result = run_sampler(post, settings, tmp_path / "fail", show_progress=False)
     assert result.steps >= 100
     assert len(result.failures) == 1
     (text, count), = result.failures.items()
-    assert text == "NumericalFailure: integration did not converge at a = #"
+    assert text == "integration did not converge at a = #"
     assert count > 0
     chain = pd.read_csv(tmp_path / "fail" / "chain.csv")
     assert chain["a"].max() <= 2.5  # the failing region carries no posterior mass
     m = chains.read_manifest(tmp_path / "fail")
     assert m["run"]["failures"] == {text: count}
+    # every failed proposal is in failures.csv with its parameters, though none was accepted
+    f = load_failures(tmp_path / "fail")
+    run_rows = f[f["stage"] != "prior_survey"]
+    assert len(run_rows) == count and (run_rows["a"] > 2.5).all()
+    assert set(run_rows["kind"]) == {"numerical_failure"}
+    assert run_rows["message"].str.startswith("integration did not converge at a = ").all()
+    # the prior survey measures the failing prior fraction: a uniform prior on [-20, 20] puts
+    # 17.5 / 40 of its mass above a = 2.5 (measure of an interval); binomial error
+    (entry,) = m["run"]["failure_summary"]["by_reason"]
+    survey = f[f["stage"] == "prior_survey"]
+    assert entry["survey_count"] == len(survey) and (survey["a"] > 2.5).all()
+    exact = 17.5 / 40
+    assert abs(entry["prior_fraction"] - exact) < 4 * math.sqrt(exact * (1 - exact) / 400)
+    assert entry["prior_fraction_error"] > 0
 
 
 def test_gaussian_prior_draws_match_scipy():
@@ -187,7 +226,8 @@ def test_walkers_start_inside_the_support():
     from bouncelike.sampling.priors import ParameterPrior, Prior
 
     prior = Prior("t", "t", (
-        ParameterPrior("r", "sampled", "r", "uniform", 0.0, 0.3, start=0.0, start_width=0.01),
+        ParameterPrior("r", "sampled", "r", "uniform", 0.0, 0.3, walkers_centre=0.0,
+                       walkers_spread=0.01),
         ParameterPrior("m", "sampled", "m", "log_uniform", 1e-7, 1e-5),
         ParameterPrior("g", "sampled", "g", "gaussian", lower=-1.0, upper=1.0, mean=0.9,
                        sigma=2.0)))

@@ -12,7 +12,8 @@ import pytest
 from sampling_targets import SETTINGS, gaussian_posterior
 
 from bouncelike.parallel import ProcessPool
-from bouncelike.sampling.driver import install_posterior, run_sampler
+from bouncelike.sampling.driver import run_sampler
+from bouncelike.sampling.posterior import install_posterior
 
 ROOT = Path(__file__).resolve().parents[1]
 TESTS = Path(__file__).resolve().parent
@@ -20,28 +21,28 @@ TESTS = Path(__file__).resolve().parent
 
 def _same_state(a: Path, b: Path) -> None:
     with np.load(a / "state.npz") as za, np.load(b / "state.npz") as zb:
+        assert za.files == zb.files
         for k in za.files:
             np.testing.assert_array_equal(za[k], zb[k], err_msg=k)
-    assert (a / "chain.csv").read_bytes() == (b / "chain.csv").read_bytes()
+    for name in ("chain.csv", "failures.csv"):
+        assert (a / name).read_bytes() == (b / name).read_bytes(), name
 
 
 @pytest.fixture(scope="module")
 def serial_run(tmp_path_factory):
     folder = tmp_path_factory.mktemp("serial") / "run"
-    run_sampler(gaussian_posterior(), SETTINGS, folder, show_progress=False)
+    # a failing region, so that failure records travel back from the workers too
+    run_sampler(gaussian_posterior(fail_above=1.5), SETTINGS, folder, show_progress=False)
     return folder
 
 
 @pytest.mark.parametrize("installed", [False, True])
 def test_process_pool_equals_serial(serial_run, tmp_path, installed):
-    post = gaussian_posterior()
-    if installed:
-        install_posterior(post)  # workers inherit it at fork; tasks carry only the points
-    pool = ProcessPool(2)
-    try:
+    post = gaussian_posterior(fail_above=1.5)
+    # installed: the pool's initializer gives each worker the posterior; tasks carry points
+    pool = ProcessPool(2, install_posterior, (post,)) if installed else ProcessPool(2)
+    with pool:
         run_sampler(post, SETTINGS, tmp_path / "pool", pool=pool, show_progress=False)
-    finally:
-        pool.close()
     _same_state(serial_run, tmp_path / "pool")
 
 
@@ -58,10 +59,10 @@ def test_mpi_run_equals_serial(serial_run, tmp_path):
     code = (f"import sys; sys.path[:0] = [{str(ROOT)!r}, {str(TESTS)!r}]\n"
             "from bouncelike.parallel import make_pool, MPIPool\n"
             "from sampling_targets import SETTINGS, gaussian_posterior\n"
-            "from bouncelike.sampling.driver import install_posterior, run_sampler\n"
-            "post = gaussian_posterior()\n"
-            "install_posterior(post)\n"
-            "pool = make_pool(1)\n"
+            "from bouncelike.sampling.driver import run_sampler\n"
+            "from bouncelike.sampling.posterior import install_posterior\n"
+            "post = gaussian_posterior(fail_above=1.5)\n"
+            "pool = make_pool(1, initializer=install_posterior, initargs=(post,))\n"
             "assert isinstance(pool, MPIPool) and pool.workers == 2, type(pool)\n"
             f"run_sampler(post, SETTINGS, {str(folder)!r}, pool=pool, show_progress=False)\n"
             "pool.close()\n")

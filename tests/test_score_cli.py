@@ -86,7 +86,10 @@ def test_constraints_listing(capsys):
     assert "arXiv:1807.06209" in out and "FORECAST" in out
     code, out, _ = _run(capsys, ["constraints", "--json"])
     sets = {s["name"]: s for s in json.loads(out)["sets"]}
-    assert len(sets) == 11 and sets["forecast_ground_r"]["forecast"] is True
+    # 11 sets of pivot constraints and the large-scale temperature set
+    assert len(sets) == 12 and sets["forecast_ground_r"]["forecast"] is True
+    assert sets["planck2018_lowell_tt"]["kind"] == "temperature_low_ell"
+    assert sets["planck2018_lowell_tt"]["arxiv"] == "1907.12875"
 
 
 BAD = {

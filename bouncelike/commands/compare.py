@@ -150,7 +150,13 @@ def run(args: Any) -> int:
     from ..background.setup import critical_density_from_config, settings_from_config
     from ..config import Table, load_run_config
     from ..errors import InputError
-    from ..io import json_safe, save_figure_atomic, write_csv_atomic, write_json_atomic
+    from ..io import (
+        json_safe,
+        output_set,
+        save_figure_atomic,
+        write_csv_atomic,
+        write_json_atomic,
+    )
     from ..parallel import make_pool
 
     config = load_run_config(args.config)
@@ -223,10 +229,11 @@ def run(args: Any) -> int:
         "files": {k: str(v) for k, v in files.items()},
         "plugins": loaded_plugins(),
     }
-    write_csv_atomic(files["table"], frame, float_format="%.8g")
-    save_figure_atomic(fig, files["figure_pdf"])
-    save_figure_atomic(fig, files["figure_png"], dpi=150)
-    write_json_atomic(files["summary"], json_safe(summary))
+    with output_set(out_dir):  # all four files, or none
+        write_csv_atomic(files["table"], frame, float_format="%.8g")
+        save_figure_atomic(fig, files["figure_pdf"])
+        save_figure_atomic(fig, files["figure_png"], dpi=150)
+        write_json_atomic(files["summary"], json_safe(summary))
     import matplotlib.pyplot as plt
 
     plt.close(fig)

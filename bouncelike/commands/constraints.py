@@ -1,6 +1,8 @@
 """``bouncelike constraints``: list the shipped constraint sets with their citations.
 
 Given names or set-file paths, shows (and validates) only those. Forecast sets are labelled.
+Sets of pivot constraints are listed first, then the large-scale temperature sets (kind
+``temperature_low_ell``) with their citations, reference spectrum and approximations.
 """
 
 from __future__ import annotations
@@ -9,6 +11,7 @@ import json
 from typing import Any
 
 from ..io import json_safe
+from ..likelihood.lowell_data import LowEllData, available_low_ell_sets
 from ..likelihood.sets import QUANTITY_LABELS, ConstraintSet, available_sets, load_constraint_set
 
 NAME = "constraints"
@@ -22,7 +25,31 @@ def add_arguments(parser: Any) -> None:
     parser.add_argument("--json", action="store_true", help="print one JSON object instead")
 
 
-def format_set(s: ConstraintSet) -> str:
+def format_low_ell_set(s: LowEllData) -> str:
+    tag = "  [FORECAST, not a measurement]" if s.is_forecast else ""
+    ells = [int(e) for e in s.ells]
+    m = s.reference_model
+    return "\n".join([
+        f"{s.name}{tag}  (large-scale temperature, kind temperature_low_ell)",
+        f"    {s.title}",
+        f"    {s.citation}, arXiv:{s.arxiv}",
+        f"    where: {s.table}",
+        f"    data: {s.data_combination}",
+        f"    multipoles {ells[0]}-{ells[-1]} ({len(ells)}); {s.units}; overlap tags: "
+        f"{', '.join(s.overlap_tags)}",
+        f"    intervals read as {100 * s.interval_probability:.2f}% highest-density intervals "
+        "of a per-multipole inverse gamma (Hamimeche & Lewis 2008, arXiv:0801.0554)",
+        f"    reference: ln(1e10 A_s) = {m['ln_1e10_As']:g}, n_s = {m['n_s']:g}, r = {m['r']:g} "
+        f"at k = {m['pivot']:g} Mpc^-1; {s.reference_citation}",
+        f"    approximation: {s.approximation}",
+        f"    overlap: {s.overlap_treatment}",
+        *([f"    note: {s.notes}"] if s.notes else []),
+    ])
+
+
+def format_set(s: ConstraintSet | LowEllData) -> str:
+    if isinstance(s, LowEllData):
+        return format_low_ell_set(s)
     tag = "  [FORECAST, not a measurement]" if s.is_forecast else ""
     lines = [
         f"{s.name}{tag}",
@@ -42,7 +69,7 @@ def format_set(s: ConstraintSet) -> str:
 
 
 def run(args: Any) -> int:
-    names = args.sets or list(available_sets())
+    names = args.sets or [*available_sets(), *available_low_ell_sets()]
     sets = [load_constraint_set(n) for n in names]
     if args.json:
         print(json.dumps(json_safe({"sets": [s.as_dict() for s in sets]}), indent=2))

@@ -72,7 +72,8 @@ chains_dir = "chains"
 
 [report]
 exclusion_map = [{axes}]
-grid = 24
+grid = 20
+refine = 2
 prior_draws = 400
 rescore_samples = 120
 evidence_draws = 2000
@@ -81,14 +82,20 @@ compare = [{comp}]
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..io import json_safe, write_json_atomic, write_text_atomic
+    from ..io import json_safe, output_set, write_json_atomic, write_text_atomic
     from ..likelihood.gaussian import GaussianLikelihood
-    from ..reporting.report import compute_report, write_report
-    from ..sampling.driver import result_summary, run_sampler
+    from ..reporting.evidence import comparison_text, evidence_text
+    from ..reporting.goodness import goodness_text
+    from ..reporting.marginals import interval_text
+    from ..reporting.outputs import write_report
+    from ..reporting.refusals import coincidence_notes
+    from ..reporting.report import compute_report
+    from ..reporting.tables import outcome_text
+    from ..sampling.convergence import result_summary
+    from ..sampling.driver import run_sampler
     from ..sampling.parametric import parametric_model
     from ..sampling.priors import resolve_prior_path
     from ..sampling.setup import build_run
-    from ..sampling.verdicts import format_interval
 
     out = Path(args.output)
     say = (lambda *a: None) if args.json else (lambda *a: print(*a, flush=True))
@@ -98,26 +105,28 @@ def run(args: argparse.Namespace) -> int:
     point = {"N_star": 55.0, "ln_1e10_As": 3.044}
     score = likelihood.score(model.spectra(point))
     say(f"[1/3] score: Starobinsky slow roll at N_* = 55 against {', '.join(SETS)}: "
-        f"chi2 = {score.chi2:.3g} for {score.dof} data points, p = {score.p_value:.3g}, "
-        f"{score.verdict}")
+        f"chi2 = {score.chi2:.3g} for {score.dof} terms, p = {score.p_value:.3g} (one "
+        f"configuration: dof = {score.dof} terms), {score.verdict}")
     for t in score.terms:
         say(f"      {t.quantity:>11s}  predicted {t.predicted:.4g}  published "
             f"{t.published:.4g} ({t.kind})  pull {t.pull:+.2f}  [{t.source}]")
-    write_json_atomic(out / "score.json", json_safe({"point": point, "model": model.name,
-                                                     **score.as_dict()}))
+    runs = [r for r in RUNS if _available(r[6])]
+    with output_set(out):  # the score and the runs' configurations, as one set
+        write_json_atomic(out / "score.json", json_safe({"point": point, "model": model.name,
+                                                         **score.as_dict()}))
+        for name, prior_name, seed, compare, emap, tau_mult, _ in runs:
+            prior_src = resolve_prior_path(prior_name)
+            write_text_atomic(out / "priors" / prior_src.name,
+                              prior_src.read_text(encoding="utf-8"))
+            write_text_atomic(out / f"{name}.toml", _config(Path("priors") / prior_src.name,
+                                                            seed, compare, emap, tau_mult))
     # 2. posterior runs
     summaries = {}
-    runs = [r for r in RUNS if _available(r[6])]
     for r in RUNS:
         if r not in runs:
             say(f"      (run '{r[0]}' skipped: {r[6]} is not part of this build)")
-    for i, (name, prior_name, seed, compare, emap, tau_mult, _) in enumerate(runs):
-        prior_src = resolve_prior_path(prior_name)
+    for i, (name, *_) in enumerate(runs):
         config_path = out / f"{name}.toml"
-        prior_copy = out / "priors" / prior_src.name
-        write_text_atomic(prior_copy, prior_src.read_text(encoding="utf-8"))
-        write_text_atomic(config_path, _config(Path("priors") / prior_src.name, seed, compare,
-                                               emap, tau_mult))
         setup = build_run(config_path, quiet=args.quiet or args.json,
                           output=out / "chains" / name)
         say(f"[2/3] posterior run {i + 1}/{len(runs)}: {setup.model.name} "
@@ -125,7 +134,7 @@ def run(args: argparse.Namespace) -> int:
         result = run_sampler(setup.posterior, setup.settings, setup.folder, resume=True,
                              manifest=setup.manifest, fingerprint=setup.fingerprint,
                              show_progress=setup.show_progress)
-        s = result_summary(result, setup.settings)
+        s = result_summary(result)
         summaries[name] = s
         say(f"      {s['status']} after {s['steps']} steps, acceptance "
             f"{s['acceptance_fraction']:.2f}, tau " +
@@ -135,20 +144,25 @@ def run(args: argparse.Namespace) -> int:
     for name, *_ in reversed(runs):
         folder = out / "chains" / name
         data = compute_report(folder)
-        write_report(folder, data)
+        with output_set(folder / "report"):
+            write_report(folder, data)
         v = data["verdicts"]
         reports[name] = v
         bf = v["best_fit"]
         excl = [r["set"] for r in v["by_set"] if r["best_fit_verdict"] == "excluded"]
-        say(f"[3/3] report {name}: best fit chi2 = {bf['chi2']:.3g}, {bf['verdict']}"
+        say(f"[3/3] report {name}: best fit {goodness_text(bf)}; {bf['verdict']}"
             + (f" at {bf['excluded_at']:.1%}" if bf["excluded_at"] else "")
             + f"; best fit excluded by: {', '.join(excl) or 'no single set'}")
+        say(f"      prior volume allowed: "
+            f"{outcome_text(v['allowed_prior_fraction'], 'prior draws')}")
+        say(f"      {evidence_text(v['evidence'])}")
         for e in v["marginals"]:
             if e["name"] in ("log10_k_lqc", "N_B_star"):
-                say(f"      {e['name']}: {format_interval(e)}")
+                say(f"      {e['name']}: {interval_text(e)}")
+        for note in coincidence_notes(v):
+            say(f"      note: {note}")
         for c in v.get("comparisons", []):
-            say(f"      {name} vs quadratic: delta chi2_min = {c['delta_chi2_min']:.3g}, "
-                f"ln evidence ratio = {c['ln_evidence_ratio']:.3g} ({c['interpretation']})")
+            say(f"      {comparison_text(c)}")
     say("")
     say(f"outputs in {out}/:")
     say("  score.json                 score of the scenario point")
@@ -157,7 +171,8 @@ def run(args: argparse.Namespace) -> int:
         say(f"  {'chains/' + name + '/':26s} chain.csv (pandas.read_csv), samples.csv, "
             "manifest.json")
         say(f"  {'chains/' + name + '/report/':26s} verdicts.md, marginals.md/.tex, triangle, "
-            "spectra, exclusion_map, efolds (.pdf/.png + .caption.txt)")
+            "ns_r, exclusion_map, spectra, efolds, not_evaluable where the model could not be "
+            "evaluated (.pdf/.png, .caption.txt, drawn numbers in .json)")
     if args.json:
         print(json.dumps(json_safe({"output": str(out), "score": score.as_dict(),
                                     "runs": summaries,

@@ -202,6 +202,7 @@ def run(args: Any) -> int:
     from ..config import load_run_config
     from ..io import (
         json_safe,
+        output_set,
         save_figure_atomic,
         write_csv_atomic,
         write_json_atomic,
@@ -251,10 +252,11 @@ def run(args: Any) -> int:
     }
     result["files"] = {k: str(v) for k, v in files.items()}
 
-    write_csv_atomic(files["samples"], frame, float_format="%.10g")
-    save_figure_atomic(fig, files["figure_pdf"])
-    save_figure_atomic(fig, files["figure_png"], dpi=150)
-    write_json_atomic(files["summary"], json_safe(result))
+    with output_set(out_dir):  # all four files, or none
+        write_csv_atomic(files["samples"], frame, float_format="%.10g")
+        save_figure_atomic(fig, files["figure_pdf"])
+        save_figure_atomic(fig, files["figure_png"], dpi=150)
+        write_json_atomic(files["summary"], json_safe(result))
     import matplotlib.pyplot as plt
 
     plt.close(fig)

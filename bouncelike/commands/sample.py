@@ -34,21 +34,23 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     from ..errors import InputError
     from ..parallel import make_pool
-    from ..sampling.driver import install_posterior, result_summary, run_sampler
-    from ..sampling.setup import build_run
+    from ..sampling.convergence import result_summary
+    from ..sampling.driver import run_sampler
+    from ..sampling.posterior import install_posterior
+    from ..sampling.setup import MAX_WORKERS, build_run
 
-    if args.workers is not None and args.workers < 1:
-        raise InputError(f"'--workers' = {args.workers} is out of range; allowed: >= 1")
+    if args.workers is not None and not 1 <= args.workers <= MAX_WORKERS:
+        raise InputError(f"'--workers' = {args.workers} is out of range; allowed: >= 1 and "
+                         f"<= {MAX_WORKERS}")
     setup = build_run(args.config, workers=args.workers, quiet=args.quiet, output=args.output)
-    install_posterior(setup.posterior)  # before the pool: workers inherit it
-    pool = make_pool(setup.workers)
-    try:
+    # each worker (process or MPI rank) gets the posterior once, from the pool's initializer
+    with make_pool(setup.workers, initializer=install_posterior,
+                   initargs=(setup.posterior,)) as pool:
         result = run_sampler(setup.posterior, setup.settings, setup.folder, pool=pool,
                              resume=args.resume, manifest=setup.manifest,
-                             fingerprint=setup.fingerprint, show_progress=setup.show_progress)
-    finally:
-        pool.close()
-    summary = result_summary(result, setup.settings)
+                             fingerprint=setup.fingerprint, show_progress=setup.show_progress,
+                             elsewhere=setup.elsewhere)
+    summary = result_summary(result)
     summary["run_folder"] = str(setup.folder)
     summary["wall_time_s"] = result.wall_time
     summary["likelihood_evaluations"] = result.evaluations
@@ -70,9 +72,21 @@ def format_summary(s: dict) -> str:
     lines.append("tau          " + ", ".join(f"{k} {v:.1f}" for k, v in s["tau"].items()) + rel)
     lines.append("ESS          " + ", ".join(f"{k} {v:.0f}" for k, v in
                                              s["effective_sample_size"].items()))
-    if s["failures"]:
-        lines.append(f"failed model evaluations: {s['failed_evaluations']} (log-likelihood "
-                     "-inf):")
-        lines.extend(f"  {n:6d}  {t}" for t, n in s["failures"].items())
+    fs = s.get("failure_summary") or {}
+    rows = [e for e in fs.get("by_reason", []) if e["count"] or e["survey_count"]]
+    if rows:
+        survey = fs["prior_survey"]["draws"]
+        lines.append(f"evaluations without a log-likelihood: {s['failed_evaluations']} in the "
+                     f"run (no posterior weight; listed in failures.csv); prior fraction from "
+                     f"{survey} prior draws:")
+        lines.extend(f"  {e['count']:6d}  {_fraction(e)}  {e['kind']}: {e['reason']}"
+                     for e in rows)
     lines.append(f"next: bouncelike report {s['run_folder']}")
     return "\n".join(lines)
+
+
+def _fraction(e: dict) -> str:
+    f = e["prior_fraction"]
+    if f is None or f != f:  # no prior survey
+        return "   -   "
+    return f"{f:7.1%}"

@@ -109,7 +109,13 @@ def run(args) -> int:
     import pandas as pd
 
     from ..config import load_run_config
-    from ..io import json_safe, save_figure_atomic, write_csv_atomic, write_json_atomic
+    from ..io import (
+        json_safe,
+        output_set,
+        save_figure_atomic,
+        write_csv_atomic,
+        write_json_atomic,
+    )
     from ..perturbations.forward import run_from_config
 
     config = load_run_config(args.config)
@@ -131,10 +137,11 @@ def run(args) -> int:
               "notes": list(br.notes), "plugins": loaded_plugins(),
               "files": [str(out / n) for n in ("spectrum.csv", "spectrum.pdf", "spectrum.png",
                                                "spectrum.json")]}
-    write_csv_atomic(out / "spectrum.csv", frame, index=False)
-    save_figure_atomic(fig, out / "spectrum.pdf")
-    save_figure_atomic(fig, out / "spectrum.png", dpi=120)
-    write_json_atomic(out / "spectrum.json", json_safe(result))
+    with output_set(out):  # all four files, or none
+        write_csv_atomic(out / "spectrum.csv", frame, index=False)
+        save_figure_atomic(fig, out / "spectrum.pdf")
+        save_figure_atomic(fig, out / "spectrum.png", dpi=120)
+        write_json_atomic(out / "spectrum.json", json_safe(result))
     if args.json:
         import json
 

@@ -35,6 +35,7 @@ from ..config import Table
 from ..errors import InputError, NumericalFailure
 from ..spectra.powerlaw import PowerLawSpectra, reexpand
 from ..spectra.summary import DEFAULT_HALF_WIDTH, DEFAULT_TOLERANCE, PivotSummary, summarize
+from .bounds import BOUNDED_QUANTITIES, spectra_cap
 from .sets import QUANTITIES, ConstraintSet, load_constraint_set
 
 #: (confidence level, p-value threshold), strictest first.
@@ -45,7 +46,8 @@ VERDICT_RULE = (
 )
 #: Sets used when a configuration names none.
 DEFAULT_SETS = ("planck2018_base", "bk18")
-LIKELIHOOD_KEYS = ("sets", "files", "allow_overlap", "fit_tolerance", "fit_half_width")
+LIKELIHOOD_KEYS = ("sets", "files", "allow_overlap", "fit_tolerance", "fit_half_width",
+                   "low_ell_range")
 
 _Q_INDEX = {q: i for i, q in enumerate(QUANTITIES)}
 
@@ -58,6 +60,14 @@ class Term:
     For ``kind == "upper_limit"``: ``published`` is the published limit and ``error_or_limit`` the
     same limit; ``sigma`` is the half-Gaussian width used. ``pull`` = (predicted - mean) / sigma
     (mean 0 for limits); ``chi2`` is this term's contribution (pull^2 without correlations).
+    ``bound`` is "lower" when ``predicted``, the pull and the contribution are lower bounds
+    (capped spectra, :mod:`.bounds`).
+
+    Multipoles of the large-scale temperature term (``kind == "inverse_gamma"``, quantity
+    ``D_<ell>``, values in micro-K^2): ``published`` is the measured D_ell, ``error_or_limit``
+    half the width of its 68% interval, ``interval_68`` the interval, ``nu`` and ``mode`` the
+    fitted inverse gamma, ``chi2`` = -2 ln(L/L_max), ``pull`` = sign(D - mode) sqrt(chi2), and
+    ``anchoring_error`` the estimated relative error of ``predicted`` from the anchoring.
     """
 
     quantity: str
@@ -72,14 +82,32 @@ class Term:
     sigma: float = math.nan
     confidence: float | None = None
     set_name: str = ""
+    ell: int | None = None
+    interval_68: tuple[float, float] | None = None
+    nu: float | None = None
+    mode: float | None = None
+    anchoring_error: float | None = None
+    bound: str = ""
 
     def as_dict(self) -> dict[str, Any]:
-        return asdict(self)
+        d = asdict(self)
+        if self.ell is None:
+            for key in ("ell", "interval_68", "nu", "mode", "anchoring_error"):
+                d.pop(key)
+        return d
 
 
 @dataclass(frozen=True)
 class Score:
-    """Result of scoring one spectra object against the chosen sets."""
+    """Result of scoring one spectra object against the chosen sets.
+
+    ``cap`` names what caps the spectra (:mod:`.bounds`); then ``bound`` is true, ``chi2`` is a
+    lower bound, ``p_value`` an upper bound and an "allowed" verdict becomes "undetermined".
+
+    With the large-scale temperature term (:mod:`.combined`), ``chi2`` is the chi-square of the
+    pivot terms plus the low-ell statistic, ``rule`` says how ``p_value`` was computed
+    (``p_value_is_bound``: p is an upper bound), and ``low_ell`` holds that term's detail.
+    """
 
     chi2: float
     dof: int
@@ -92,6 +120,16 @@ class Score:
     fit_quality: tuple[dict[str, Any], ...] = ()
     sets: tuple[str, ...] = ()
     summaries: tuple[PivotSummary, ...] = field(default=(), repr=False)
+    rule: str = VERDICT_RULE
+    p_value_is_bound: bool = False
+    low_ell: Any = None
+    cap: str = ""
+
+    @property
+    def bound(self) -> bool:
+        """True for capped spectra: chi2 is a lower bound and p an upper bound
+        (:mod:`.bounds`)."""
+        return bool(self.cap)
 
     @property
     def fit_ok(self) -> bool:
@@ -105,7 +143,10 @@ class Score:
             "p_value": self.p_value,
             "verdict": self.verdict,
             "excluded_at": self.excluded_at,
-            "verdict_rule": VERDICT_RULE,
+            "verdict_rule": self.rule,
+            "p_value_is_bound": self.p_value_is_bound,
+            "bound": self.bound,
+            "cap": self.cap or None,
             "log_likelihood": self.log_likelihood,
             "terms": [t.as_dict() for t in self.terms],
             "notes": list(self.notes),
@@ -113,6 +154,7 @@ class Score:
             "fit_ok": self.fit_ok,
             "sets": list(self.sets),
             "summaries": [s.as_dict() for s in self.summaries],
+            **({"low_ell": self.low_ell.as_dict()} if self.low_ell is not None else {}),
         }
 
 
@@ -170,6 +212,11 @@ class GaussianLikelihood:
         sets = tuple(sets)
         if not sets:
             raise InputError("no constraint sets chosen; give [likelihood] sets or files")
+        for s in sets:
+            if not isinstance(s, ConstraintSet):
+                raise InputError(
+                    f"constraint set '{s.name}' is not a set of pivot constraints; combine it "
+                    "through likelihood_from_config or bouncelike.likelihood.combined")
         self._overlap_notes = tuple(check_overlap(sets, allow_overlap))
         self._sets = sets
         self.allow_overlap = bool(allow_overlap)
@@ -283,6 +330,7 @@ class GaussianLikelihood:
         """Full score with per-term pulls, p-value, verdict, notes and fit quality."""
         summaries = self.summaries(spectra)
         by_pivot = dict(zip(self._pivots, summaries, strict=True))
+        cap = spectra_cap(spectra)
         terms: list[Term] = []
         total = 0.0
         for s in self._sets:
@@ -320,11 +368,14 @@ class GaussianLikelihood:
                         sigma=t.sigma,
                         confidence=t.confidence,
                         set_name=s.name,
+                        bound="lower" if cap and t.quantity in BOUNDED_QUANTITIES else "",
                     )
                 )
         dof = len(terms)
         p_value = float(chi2_dist.sf(total, dof))
         verdict, level = verdict_from_p(p_value)
+        if cap and verdict == "allowed":  # chi2 is a lower bound: allowed cannot be concluded
+            verdict = "undetermined"
         fit_quality = tuple(
             {
                 "pivot": sm.pivot,
@@ -344,16 +395,19 @@ class GaussianLikelihood:
             excluded_at=level,
             log_likelihood=-0.5 * total,
             terms=tuple(terms),
-            notes=tuple(self._notes(spectra, summaries)),
+            notes=tuple(self.notes(spectra, summaries)),
             fit_quality=fit_quality,
             sets=tuple(s.name for s in self._sets),
             summaries=summaries,
+            cap=cap,
         )
 
-    def _notes(self, spectra: Any, summaries: Sequence[PivotSummary]) -> list[str]:
+    def notes(self, spectra: Any, summaries: Sequence[PivotSummary],
+              rule: str | None = VERDICT_RULE, fit_warnings: bool = True) -> list[str]:
+        """Notes printed under a score (fit warnings, forecasts, treatments, ``rule``)."""
         notes = [str(n) for n in getattr(spectra, "notes", ()) or ()]
         for sm in summaries:
-            if not sm.fit_ok:
+            if fit_warnings and not sm.fit_ok:
                 notes.append(
                     f"WARNING: fit quality failed at k = {sm.pivot:g} Mpc^-1: the spectra depart "
                     f"from the cubic in ln k by rms {sm.fit_rms:.3g} in ln P (tolerance "
@@ -368,12 +422,18 @@ class GaussianLikelihood:
             if s.correlation_note:
                 notes.append(f"{s.name}: {s.correlation_note}")
         notes.extend(self._overlap_notes)
-        notes.append("sets are treated as independent of each other; " + VERDICT_RULE)
+        if rule:
+            notes.append("sets are treated as independent of each other; " + rule)
         return notes
 
 
-def likelihood_from_config(config: Table, base_dir: str | Path | None = None) -> GaussianLikelihood:
+def likelihood_from_config(config: Table, base_dir: str | Path | None = None) -> Any:
     """Build the likelihood from ``[likelihood]`` of a run configuration.
+
+    Returns a :class:`GaussianLikelihood`, or a :class:`~.combined.CombinedLikelihood` when a
+    set of the large-scale temperature kind is listed (shipped ``planck2018_lowell_tt`` or a
+    user's file); ``low_ell_range = [lo, hi]`` then restricts its multipoles (default: all of
+    the file's).
 
     Keys: ``sets`` (shipped set names; default ``["planck2018_base", "bk18"]`` when neither
     ``sets`` nor ``files`` is given), ``files`` (paths of user set files; relative paths are
@@ -396,4 +456,27 @@ def likelihood_from_config(config: Table, base_dir: str | Path | None = None) ->
     allow = table.boolean("allow_overlap", False)
     tol = table.positive("fit_tolerance", DEFAULT_TOLERANCE)
     half = table.positive("fit_half_width", DEFAULT_HALF_WIDTH, maximum=10.0)
-    return GaussianLikelihood.from_names(names, allow, tolerance=tol, half_width=half)
+    loaded = [load_constraint_set(n) for n in names]
+    pivot_sets = [s for s in loaded if isinstance(s, ConstraintSet)]
+    others = [s for s in loaded if not isinstance(s, ConstraintSet)]
+    if not others:
+        if "low_ell_range" in table:
+            raise InputError("'likelihood.low_ell_range' applies only with a low-ell set (e.g. "
+                             "sets = [..., \"planck2018_lowell_tt\"])")
+        return GaussianLikelihood(pivot_sets, allow, tolerance=tol, half_width=half)
+    from .combined import combined_likelihood
+
+    return combined_likelihood(pivot_sets, others, allow, tolerance=tol, half_width=half,
+                               ell_range=_ell_range(table))
+
+
+def _ell_range(table: Table) -> tuple[int, int] | None:
+    if "low_ell_range" not in table:
+        return None
+    raw = table.raw("low_ell_range")
+    if (not isinstance(raw, list) or len(raw) != 2
+            or not all(isinstance(v, int) and not isinstance(v, bool) for v in raw)
+            or raw[0] > raw[1]):
+        raise InputError(f"'{table.key('low_ell_range')}' must be [lowest, highest] multipole "
+                         f"(integers, lowest <= highest), got {raw!r}")
+    return int(raw[0]), int(raw[1])

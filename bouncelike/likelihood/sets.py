@@ -5,6 +5,7 @@ point at their own file in the same format) holds::
 
     name = "planck2018_base"             # identifier (letters, digits, underscores)
     title = "..."                         # one-line description
+    label = "BICEP/Keck 2018"             # optional: short title for figures and tables
     citation = "authors, title, journal"  # the paper
     arxiv = "1807.06209"                  # arXiv number
     table = "Table 2, column ..."         # where in the paper the numbers are
@@ -31,6 +32,10 @@ point at their own file in the same format) holds::
     [[correlation]]                       # optional, between two gaussian terms of the set
     quantities = ["n_s", "running"]
     rho = -0.2
+
+A set file may say ``kind = "pivot_summary"`` (the default, this format) or
+``kind = "temperature_low_ell"`` (measured large-scale temperature power, a different format:
+:mod:`bouncelike.likelihood.lowell_data`); :func:`load_constraint_set` reads both.
 
 Upper limits: a one-sided limit L at confidence c on r >= 0 is treated as a half-Gaussian in
 r >= 0 centred on 0 whose c-quantile is L, i.e. sigma = L / Phi^-1((1 + c)/2); for c = 0.95,
@@ -62,10 +67,14 @@ QUANTITY_LABELS = {
     "r": "r",
 }
 KINDS = ("gaussian", "upper_limit")
+#: Kinds of set file (the second one is read by lowell_data.py).
+SET_FILE_KINDS = ("pivot_summary", "temperature_low_ell")
 
 SET_KEYS = (
     "name",
+    "kind",
     "title",
+    "label",
     "citation",
     "arxiv",
     "table",
@@ -128,6 +137,12 @@ class ConstraintSet:
     notes: str = ""
     correlations: tuple[tuple[str, str, float], ...] = field(default=())
     path: str = ""
+    label: str = ""
+
+    @property
+    def short_title(self) -> str:
+        """The short title for figures and tables (``label``, else ``title``)."""
+        return self.label or self.title
 
     @property
     def quantities(self) -> tuple[str, ...]:
@@ -142,6 +157,7 @@ class ConstraintSet:
         return {
             "name": self.name,
             "title": self.title,
+            "label": self.short_title,
             "citation": self.citation,
             "arxiv": self.arxiv,
             "table": self.table,
@@ -222,6 +238,7 @@ def _parse_term(raw: Any, index: int) -> ConstraintTerm:
 def parse_constraint_set(data: dict[str, Any], path: str = "") -> ConstraintSet:
     """Validate the contents of a set file (errors name the field)."""
     top = Table(data, "", SET_KEYS)
+    top.string("kind", "pivot_summary", choices=SET_FILE_KINDS[:1])
     name = _text(top, "name")
     if not _NAME_RE.match(name):
         raise InputError(f"'name' = '{name}' must use letters, digits and underscores only")
@@ -273,11 +290,20 @@ def parse_constraint_set(data: dict[str, Any], path: str = "") -> ConstraintSet:
         notes=_text(top, "notes", required=False),
         correlations=tuple(correlations),
         path=path,
+        label=_text(top, "label", required=False),
     )
 
 
-def _load_path(path: str) -> ConstraintSet:
+def _load_path(path: str) -> Any:
     data = read_toml(path, what="constraint set file")
+    kind = data.get("kind", "pivot_summary")
+    if kind not in SET_FILE_KINDS:
+        raise InputError(f"constraint set file '{path}': 'kind' = {kind!r} is not known; "
+                         f"allowed: {', '.join(SET_FILE_KINDS)}")
+    if kind == "temperature_low_ell":
+        from .lowell_data import load_low_ell_path
+
+        return load_low_ell_path(path, data)
     try:
         return parse_constraint_set(data, path)
     except InputError as exc:
@@ -289,16 +315,25 @@ def _load_shipped(name: str) -> ConstraintSet:
     return _load_path(str(_data_dir() / f"{name}.toml"))
 
 
-def load_constraint_set(name_or_path: str | Path) -> ConstraintSet:
-    """A shipped set by name, or a user's set file by path (``.toml``)."""
+def load_constraint_set(name_or_path: str | Path) -> Any:
+    """A shipped set by name, or a user's set file by path (``.toml``).
+
+    Returns a :class:`ConstraintSet` (pivot summaries) or, for ``kind =
+    "temperature_low_ell"``, a :class:`~bouncelike.likelihood.lowell_data.LowEllData`.
+    """
+    from .lowell_data import available_low_ell_sets, data_dir, load_shipped_low_ell
+
     text = str(name_or_path)
     shipped = _data_dir() / f"{text}.toml"
     if _NAME_RE.match(text) and shipped.is_file():
         return _load_shipped(text)
+    if _NAME_RE.match(text) and (data_dir() / f"{text}.toml").is_file():
+        return load_shipped_low_ell(text)
     if text.endswith(".toml") or Path(text).is_file() or "/" in text:
         return _load_path(str(Path(text)))
+    names = (*available_sets(), *available_low_ell_sets())
     raise InputError(
-        f"unknown constraint set '{text}'; shipped sets: {', '.join(available_sets())} "
+        f"unknown constraint set '{text}'; shipped sets: {', '.join(names)} "
         "(or give the path of a set file ending in .toml)"
     )
 

@@ -7,15 +7,25 @@ Method
   constant coefficients, symmetric and symplectic), composed in Yoshida's fourth-order triple
   jump. A symplectic linear map conserves the Wronskian x pi* - x* pi exactly (round-off only),
   whatever the step sizes, so it is a genuine accuracy check of nothing but round-off; accuracy
-  is checked instead against exact solutions (tests). The step is ``step`` / omega with
-  omega^2 = k^2 |Omega_eff| / a^2 + omega_bg^2.
-* Adiabatic stretches: where W^2 = k^2 Omega_eff - z''/z > ``adiabatic_ratio``^2 x (background
-  rate)^2 over a stretch holding more than ``min_jump_phase`` radians, the mode is projected on
+  is checked instead against exact solutions and an independent integration (tests). The step
+  is ``step`` / omega with omega^2 = k^2 |Omega_eff| / a^2 + omega_bg^2 + |[M, Mdot]|^(2/3)
+  (:func:`step_rate2`): the frequency, the background rates and the rate at which the generator
+  M of (x, pi) turns. The last one is the Airy rate (k^2 |dOmega/dt| / a^2)^(1/3) at the
+  turning points Omega = 0 of the deformed algebra (~50 at k = 30 k_LQC, where the frequency
+  and omega_bg ~ 3 vanish or stay small): without it the steps there were up to ~17 times too
+  long and ln T at 30 k_LQC was off by up to 16 (measured), depending on where steps fell.
+* Adiabatic stretches: where W^2 = k^2 Omega_eff - z''/z > ``adiabatic_ratio``^2 x rate^2,
+  rate^2 = a^2 omega_bg^2 + (W'/W)^2 + |W''/W| (conformal time, :meth:`ModeSolver.flags`), i.e.
+  where the adiabaticity parameters |W'|/W^2 and sqrt(|W''|/W^3) and a omega_bg/W are all below
+  1/``adiabatic_ratio`` (0.025 by default), over a stretch holding more than ``min_jump_phase``
+  radians, the mode is projected on
   the second-order adiabatic basis f = exp(-i int W d eta)/sqrt(2W), f' = (-iW - W'/(2W)) f
   (Bogoliubov alpha, beta; |alpha|^2 - |beta|^2 equals the Wronskian exactly) and rebuilt at the
   far end with the phase int W d eta (Simpson on the background grid). This is how ultraviolet
   modes are started late inside the Hubble radius during inflation, and how deformed-algebra
-  modes cross the long oscillatory eras before and after the bounce.
+  modes cross the long oscillatory eras before and after the bounce. The W-rates matter near
+  Omega = 0, where W'/W ~ (dOmega/d eta)/(2 Omega) outgrows the background rate: with the
+  background rate alone jumps ended where |W'|/W^2 ~ 0.8 (k = 60-100 k_LQC, measured).
 * Each mode stops where k/(aH) = ``freeze`` during inflation (after the last minimum of aH).
 """
 
@@ -41,6 +51,12 @@ _W0 = -(2.0 ** (1.0 / 3.0)) * _W1
 def _seval(S, j, i, t, tg):
     dx = t - tg[i]
     return ((S[j, i, 0] * dx + S[j, i, 1]) * dx + S[j, i, 2]) * dx + S[j, i, 3]
+
+
+@njit(cache=True)
+def _sderiv(S, j, i, t, tg):
+    dx = t - tg[i]
+    return (3.0 * S[j, i, 0] * dx + 2.0 * S[j, i, 1]) * dx + S[j, i, 2]
 
 
 @njit(cache=True)
@@ -80,6 +96,41 @@ def _flow(S, tg, i, tm, tau, k2, x, p):
 
 
 @njit(cache=True)
+def step_rate2(S, tg, i, t, k2):
+    """Squared rate that sets the step at t: omega^2 + omega_bg^2 + |[M, Mdot]|^(2/3).
+
+    M = [[C, A], [-B, -C]] is the generator of (x, pi); the commutator term measures how fast M
+    turns (the local error of the exponential midpoint rule is dt^3 [M, Mdot]/12). Its size,
+    invariant under x -> l x, pi -> pi/l, is |A'B - AB'| + 2 sqrt(|CA' - AC'| |CB' - BC'|)
+    (dots: d/dt). Near a turning point Omega = 0 of the deformed algebra it is
+    k^2 |dOmega/dt|/a^2, the Airy rate cubed, while omega and omega_bg stay small there.
+    """
+    L = _seval(S, 7, i, t, tg)
+    dL = _sderiv(S, 7, i, t, tg)
+    e1 = math.exp(L)
+    e2 = math.exp(-2.0 * L)
+    e3 = math.exp(3.0 * L)
+    em1 = 1.0 / e1
+    em3 = 1.0 / e3
+    pa, dpa = _seval(S, 0, i, t, tg), _sderiv(S, 0, i, t, tg)
+    pb2, dpb2 = _seval(S, 1, i, t, tg), _sderiv(S, 1, i, t, tg)
+    pb0, dpb0 = _seval(S, 2, i, t, tg), _sderiv(S, 2, i, t, tg)
+    pb4, dpb4 = _seval(S, 3, i, t, tg), _sderiv(S, 3, i, t, tg)
+    pc2, dpc2 = _seval(S, 4, i, t, tg), _sderiv(S, 4, i, t, tg)
+    k4 = k2 * k2
+    A = em3 * pa
+    dA = em3 * (dpa - 3.0 * dL * pa)
+    B = k2 * e1 * pb2 + e3 * pb0 + k4 * em1 * pb4
+    dB = (k2 * e1 * (dpb2 + dL * pb2) + e3 * (dpb0 + 3.0 * dL * pb0)
+          + k4 * em1 * (dpb4 - dL * pb4))
+    C = k2 * e2 * pc2
+    dC = k2 * e2 * (dpc2 - 2.0 * dL * pc2)
+    comm = abs(dA * B - A * dB) + 2.0 * math.sqrt(abs(C * dA - A * dC) * abs(C * dB - B * dC))
+    return (k2 * abs(_seval(S, 5, i, t, tg)) * e2 + abs(_seval(S, 6, i, t, tg))
+            + comm ** (2.0 / 3.0))
+
+
+@njit(cache=True)
 def evolve(k, x, p, t0, t1, S, tg, step, max_steps):
     """Evolve (x, pi) (complex) from t0 to t1 > t0; returns x, pi, number of steps."""
     k2 = k * k
@@ -88,9 +139,7 @@ def evolve(k, x, p, t0, t1, S, tg, step, max_steps):
     nstep = 0
     while t < t1 and nstep < max_steps:
         i = _locate(tg, t, i)
-        L = _seval(S, 7, i, t, tg)
-        om2 = k2 * abs(_seval(S, 5, i, t, tg)) * math.exp(-2.0 * L) + abs(_seval(S, 6, i, t, tg))
-        dt = step / math.sqrt(om2)
+        dt = step / math.sqrt(step_rate2(S, tg, i, t, k2))
         if t + dt > t1:
             dt = t1 - t
         ts = t
@@ -151,6 +200,7 @@ class ModeResult:
     description: str
     settings: dict = field(default_factory=dict)
     p_end: np.ndarray | None = None  # conjugate momentum at t_end (same form as x_end)
+    jumps: tuple = ()  # per mode: ((i, j), ...) background nodes where each WKB jump starts/ends
 
 
 class ModeSolver:
@@ -182,6 +232,17 @@ class ModeSolver:
         i_min = post[np.argmin(self.aH[post])]
         self.i_infl = int(i_min)
         self.form_of_node = system.form_of_node
+        # conformal-time derivatives of the k^2 coefficient and of z''/z in W^2 (adiabaticity)
+        self._w2_rates = []
+        for form in system.forms:
+            with np.errstate(invalid="ignore", over="ignore"):
+                pair = []
+                for y in (form.omega_eff, form.zz):
+                    y = np.where(np.isfinite(y), y, np.nan)
+                    yt = np.gradient(y, self.t, edge_order=2)
+                    ytt = np.gradient(yt, self.t, edge_order=2)
+                    pair.append((self.a * yt, self.a**2 * (ytt + tab.H * yt)))
+            self._w2_rates.append(pair)
 
     # -- node-level helpers --------------------------------------------------------------------
     def _coef(self, f: int, i: int, k: float) -> tuple[float, float]:
@@ -228,17 +289,39 @@ class ModeSolver:
             return len(self.t) - 1, False
         return int(self.i_infl + cand[0]), True
 
-    def flags(self, k: float) -> tuple[np.ndarray, np.ndarray]:
-        """Adiabatic flag per node and W^2 of the node's form."""
+    def adiabatic_rate2(self, k: float) -> tuple[np.ndarray, np.ndarray]:
+        """Squared rate of the adiabaticity test per node and W^2 of the node's form.
+
+        rate^2 = a^2 omega_bg^2 + (W'/W)^2 + |W''/W| (conformal time; W'/W = (W^2)'/(2 W^2),
+        W''/W = (W^2)''/(2 W^2) - ((W^2)')^2/(4 W^4), derivatives of k^2 Omega_eff and z''/z by
+        second-order differences on the background grid). NaN where W^2 is not finite.
+        """
         fon = self.form_of_node
-        w2 = np.empty(len(self.t))
-        rate2 = np.empty(len(self.t))
+        n = len(self.t)
+        w2, rate2 = np.empty(n), np.empty(n)
+        k2 = k * k
         for f, F in enumerate(self.system.forms):
             m = fon == f
-            w2[m] = (k * k * F.omega_eff - F.zz)[m]
-            rate2[m] = (self.a**2 * F.wbg2)[m]
+            (o1, o2), (z1, z2) = self._w2_rates[f]
+            with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+                ww = k2 * F.omega_eff[m] - F.zz[m]
+                d1 = k2 * o1[m] - z1[m]
+                d2 = k2 * o2[m] - z2[m]
+                lw1 = d1 / (2 * ww)
+                lw2 = d2 / (2 * ww) - lw1**2
+                w2[m] = ww
+                rate2[m] = self.a[m] ** 2 * F.wbg2[m] + lw1**2 + np.abs(lw2)
+        return rate2, w2
+
+    def flags(self, k: float) -> tuple[np.ndarray, np.ndarray]:
+        """Adiabatic flag per node and W^2 of the node's form.
+
+        A node is adiabatic where W^2 > ``adiabatic_ratio``^2 x rate^2 (:meth:`adiabatic_rate2`):
+        then |W'|/W^2, sqrt(|W''|/W^3) and a omega_bg / W are all below 1/``adiabatic_ratio``.
+        """
+        rate2, w2 = self.adiabatic_rate2(k)
         with np.errstate(invalid="ignore"):
-            ok = np.isfinite(w2) & (w2 > self.adiabatic_ratio**2 * rate2)
+            ok = np.isfinite(w2) & np.isfinite(rate2) & (w2 > self.adiabatic_ratio**2 * rate2)
         return ok, w2
 
     def _long_runs(self, ok, phase, i0, i_end) -> list[tuple[int, int]]:
@@ -266,6 +349,7 @@ class ModeSolver:
         x_end = np.empty(nk, complex)
         p_end = np.empty(nk, complex)
         adiab = np.empty(nk)
+        jumps = []
         fon = self.form_of_node
         for m, k in enumerate(ks):
             i0, x, p, adiab[m] = initial(self, k)
@@ -277,6 +361,7 @@ class ModeSolver:
                 W_over_a = np.sqrt(np.where(np.isfinite(w2) & (w2 > 0), w2, 0.0)) / self.a
             phase = cumulative_simpson(W_over_a, x=self.t, initial=0.0)
             runs = self._long_runs(ok, phase, i0, i_end)
+            jumps.append(tuple(runs))
             i = i0
             while i < i_end:
                 if runs and runs[0][0] == i:
@@ -322,4 +407,4 @@ class ModeSolver:
                           self.system.description,
                           {"step": self.step, "adiabatic_ratio": self.adiabatic_ratio,
                            "min_jump_phase": self.min_jump_phase, "freeze": self.freeze},
-                          p_end)
+                          p_end, tuple(jumps))

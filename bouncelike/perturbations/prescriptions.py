@@ -26,14 +26,32 @@ Forms (Omega = 1 - 2 rho/rho_c)
   CQG 30 (2013) 085014; Agullo & Morris, PRD 92 (2015) 124040). Since v'' = -(k^2 - a''/a +
   a^2 U) v, (a^2 Q')' = -(k^2 + a^2 U) a^2 Q exactly: no a''/a is needed. amp = (H/phidot)^2
   /(2 pi^2) (P_R = k^3/(2 pi^2) (H/phidot)^2 |Q|^2).
-  ``sign_convention``: "published" holds s fixed through the whole evolution at its value in
-  the slow-roll phase, sign(phidot H) at the end of inflation: that is the printed s = -1 for
-  the printed orientation (field rolling down phi > 0 with phidot < 0 after the bounce) and its
-  mirror image phi -> -phi otherwise, so that inflation itself is always treated classically;
-  "classical" takes s = sign(phidot H) at every instant, which reproduces the classical
-  z''/z = a''/a - a^2 U with z = a phidot/H away from the bounce (physics notes s.4). The two
-  differ only where V_phi != 0 and phidot H > 0 (for a field thrown up its potential after the
-  bounce, or in the contracting branch).
+  ``sign_convention`` (how s is carried across the bounce; the literature differs, physics
+  notes s.4):
+
+  - "classical" (default): s = sign(phidot H) at every instant, the sign of 8 pi phidot/H in
+    the classical potential, so that a''/a - a^2 U equals the classical z''/z (z = a phidot/H)
+    on both branches wherever rho << rho_c (up to O(rho/rho_c)). The printed form (s = -1,
+    Agullo, Ashtekar & Nelson 2013) was derived for the expanding branch with the field rolling
+    down; carrying s with the sign of the scale factor's momentum (pi_a ~ -a^2 H, which flips
+    at the bounce), so that the contracting branch keeps its classical limit, is the extension
+    across the bounce discussed by Li, Singh & Wang (arXiv:2105.14067); earlier dressed-metric
+    computations (e.g. arXiv:1912.08225) continued the expanding-branch form, and the two
+    papers' infrared spectra differ by ~10% (physics notes s.4). Only the abstracts were
+    reachable here: which paper uses which choice is from memory. At H = 0 no sign is
+    defined: there s = 0 (the V_phi term is dropped at the bounce instant) and U jumps by
+    4 sqrt(f) |V_phi| ~ 50 m^2 phi_B across the bounce (~1e-10 against k_LQC^2 ~ 10 for
+    inflaton masses ~1e-6; the integrator's splines are split at the bounce node, so the jump
+    is spread over one grid interval on each side, without overshoot).
+  - "fixed_slow_roll" (the default until the classical limit was required): s held through
+    the whole evolution at its slow-roll value sign(phidot H) at the end of inflation, i.e. the
+    printed s = -1 for the printed orientation (phi > 0 rolling down) and its mirror image
+    otherwise. Away from the bounce it has the non-classical sign wherever phidot H > 0: while
+    a field thrown up its potential still climbs after the bounce, and on alternate
+    half-oscillations in the contracting branch.
+
+  The two differ only where V_phi != 0 and phidot H > 0; forward.py reports by how much P_s
+  changes with the other convention.
 * ``scalar_deformed`` (deformed algebra, Cailleteau, Mielczarek, Barrau & Grain 2012; Bolliet
   et al. arXiv:1508.06786): v'' + (Omega k^2 - z_S''/z_S) v = 0, z_S = a phidot/H, singular
   where H = 0. With R = v/z_S and Z = a^3 phidot^2/H^2 the pair (R, p = Z Rdot) has
@@ -60,7 +78,8 @@ from ..errors import InputError
 from .background import BackgroundTable, _cumulative
 
 PRESCRIPTIONS = ("dressed_metric", "deformed_algebra")
-SIGN_CONVENTIONS = ("published", "classical")
+SIGN_CONVENTIONS = ("classical", "fixed_slow_roll")
+DEFAULT_SIGN_CONVENTION = "classical"
 FIELDS = ("tensor", "scalar")
 
 
@@ -78,7 +97,7 @@ class ModeForm:
     zz: np.ndarray          # z''/z (conformal)
     lnz: np.ndarray
     dlnz: np.ndarray        # (ln z)' (conformal)
-    wbg2: np.ndarray        # background rate squared for step control (cosmic time)
+    wbg2: np.ndarray        # background rate squared (cosmic time): step and adiabaticity test
     amp: np.ndarray
 
 
@@ -105,11 +124,16 @@ def _slow_roll_orientation(tab: BackgroundTable) -> float:
     return float(np.sign(tab.phidot[i] * tab.H[i])) or -1.0
 
 
-def bounce_potential(tab: BackgroundTable, sign_convention: str) -> np.ndarray:
-    """U = f V + 2 s sqrt(f) V_phi + V_phiphi, f = 24 pi phidot^2/rho (AAN 2013)."""
+def bounce_potential(tab: BackgroundTable,
+                     sign_convention: str = DEFAULT_SIGN_CONVENTION) -> np.ndarray:
+    """U = f V + 2 s sqrt(f) V_phi + V_phiphi, f = 24 pi phidot^2/rho (AAN 2013).
+
+    s per ``sign_convention`` (module docstring): "classical" sign(phidot H) (0 at H = 0),
+    "fixed_slow_roll" its value during slow roll.
+    """
     rho = tab.rho
     f = 24 * math.pi * tab.phidot**2 / rho
-    if sign_convention == "published":
+    if sign_convention == "fixed_slow_roll":
         s = np.full_like(f, _slow_roll_orientation(tab))
     elif sign_convention == "classical":
         s = np.sign(tab.phidot * tab.H)
@@ -180,7 +204,8 @@ def _deformed_scalar_r_form(tab: BackgroundTable) -> ModeForm:
 
 
 def mode_system(tab: BackgroundTable, field_: str, prescription: str,
-                sign_convention: str = "published", switch_density: float = 1e-4) -> ModeSystem:
+                sign_convention: str = DEFAULT_SIGN_CONVENTION,
+                switch_density: float = 1e-4) -> ModeSystem:
     """Build the mode system of one field ("tensor"/"scalar") in one prescription."""
     if prescription not in PRESCRIPTIONS:
         raise InputError(f"perturbations.prescription must be one of {PRESCRIPTIONS}, "

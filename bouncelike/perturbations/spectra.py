@@ -15,7 +15,7 @@ import numpy as np
 
 from .background import BackgroundTable
 from .modes import ModeResult, ModeSolver
-from .prescriptions import mode_system
+from .prescriptions import DEFAULT_SIGN_CONVENTION, mode_system
 from .states import Bogoliubov, make_state
 
 
@@ -45,7 +45,8 @@ class BounceSpectrum:
 
 
 def bounce_spectra(table: BackgroundTable, k: np.ndarray, *, prescription: str = "dressed_metric",
-                   state: str = "remote_past", sign_convention: str = "published",
+                   state: str = "remote_past",
+                   sign_convention: str = DEFAULT_SIGN_CONVENTION,
                    bogoliubov: Bogoliubov | None = None, step: float = 0.08,
                    adiabatic_ratio: float = 40.0, freeze: float = 1e-3,
                    switch_density: float = 1e-4, show_progress: bool = False) -> BounceSpectrum:

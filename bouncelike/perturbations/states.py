@@ -1,19 +1,41 @@
 """Initial states of the modes, selected by name.
 
-* ``remote_past`` -- second-order adiabatic (Minkowski-like) vacuum at the first node of the
-  background table, which must lie in the remote contracting past where
-  W^2 = k^2 Omega - z''/z >> (background rate)^2; the ratio rate/W at that node is reported per
-  mode (``start_adiabaticity``). On a classical background the same name gives the adiabatic
-  (Bunch-Davies-like) vacuum at the start of the table.
+* ``remote_past`` -- second-order adiabatic (Minkowski-like) vacuum set, for each k, at the
+  latest node before the bounce where the mode is adiabatic to ``REMOTE_PAST_TOLERANCE``:
+  eps = rate/W <= 0.05, W^2 = k^2 Omega - z''/z, rate^2 = (background rate)^2 + (W'/W)^2 +
+  |W''/W| (:func:`adiabaticity`; reported per mode as ``start_adiabaticity``).
+  In the contracting branch of these backgrounds that point lies in the kinetic era (eps ~
+  2 aH/k falls into the past as a^-2 there). Earlier, the contracting branch leaves the kinetic
+  era (a few e-folds of potential-dominated contraction where |aH| grows into the past, then
+  field oscillations): modes below ~k_LQC are not adiabatic there, so "further into the past"
+  means "further back within the last adiabatic stretch before the bounce", where the state is
+  converged: moving it from eps = 0.1 to 0.01 changes the spectra by < 2e-5 (measured,
+  tests/test_perturbation_states.py). The state is thus the adiabatic vacuum of the kinetic
+  contracting era (as in Zhu et al., arXiv:1607.06329: Bunch-Davies vacuum imposed in the
+  contracting phase prior to the bounce, where the modes are inside the Hubble radius); the
+  earlier contracting history is not part of it. A mode whose eps never reaches the
+  tolerance is set where eps is smallest (its ``start_adiabaticity`` > tolerance says so).
+  The background table must reach that point: :func:`remote_past_density` gives the density
+  down to which the contracting branch must be integrated for the smallest k. Without a
+  bounce (classical tables) the state is set at the first node.
 * ``bounce_adiabatic4`` -- fourth-order adiabatic vacuum at the bounce (dressed metric only:
-  in the deformed algebra Omega = -1 there and no positive frequency exists).
-  W_4^2 = omega^2 - (1/2)[W_2''/W_2 - (3/2)(W_2'/W_2)^2], W_2^2 likewise from omega^2 =
-  k^2 - z''/z, derivatives by central differences on a conformal-time stencil of width
-  0.01/k_LQC. Where W_4^2 <= k^2/4 (infrared, k below about k_LQC, where z''/z ~ k_LQC^2 > 0
-  and the adiabatic series has no meaning; likewise where omega^2 <= k^2/4 on the stencil or
-  the fourth-order correction exceeds half of omega^2) the Minkowski-like frequency W = k is
-  used: a
-  documented choice, not a theorem.
+  in the deformed algebra Omega = -1 there and no positive frequency exists; Agullo, Ashtekar
+  & Nelson 2013 impose fourth-order adiabatic states at the bounce). W^2 is the adiabatic
+  series truncated at fourth order, W^2 = w^2 + e2 + e4 with w^2 = k^2 - z''/z
+  (:func:`adiabatic_frequency4`), derivatives of z''/z from a degree-7 interpolating spline in
+  conformal time around the bounce. The series has a meaning only where w^2 > 0 and its terms
+  decrease, |e4| <= |e2| <= w^2/4 (``ADIABATIC4_CRITERION``). At the bounce z''/z ~ k_LQC^2
+  and its derivatives are of order k_LQC^(2+n), so the fourth-order state exists there only
+  above x_4 ~ 3.8 k_LQC (measured: at 3 k_LQC e2/w^2 = -0.047 but e4/w^2 = -0.077; at
+  4 k_LQC -0.013 and -0.011; the same for scalars and every background, the potential being
+  ~1e-11 rho_c at the bounce). **Below x_4 no adiabatic state exists at the bounce**; the state
+  used there is the ``remote_past`` one (the adiabatic vacuum of the last adiabatic stretch
+  before the bounce). The two agree to < 1e-3 in the period-averaged transfer near x_4
+  (measured 1.00199 vs 1.00138 at 3 k_LQC, 1.00004 vs 1.0001 at 4), so the spectra are
+  continuous in k across the switch. Adiabaticity constrains only the ultraviolet part of a
+  state; how the infrared part is fixed is a choice (from memory, AAN 2013 say as much; we did
+  not find their treatment of k < k_LQC spelled out). The earlier choice here, W = k at the
+  bounce below ~2.4 k_LQC, put a ~20% step into the mean transfer near 2.6 k_LQC.
 * Bogoliubov rotation of either: mode -> alpha mode + beta mode*, with
   beta(k) = beta_0 exp(-(k/k_beta)^2) e^{i theta}, alpha = sqrt(1 + |beta|^2) (real), so that
   |alpha|^2 - |beta|^2 = 1 and the rotation acts only below k_beta (ultraviolet untouched).
@@ -28,73 +50,116 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.interpolate import CubicSpline
+from scipy.interpolate import make_interp_spline
 
 from ..errors import InputError, NumericalFailure
 
 STATES = ("remote_past", "bounce_adiabatic4")
+#: eps = rate/W at which the remote-past state is set (spectra converged to < 2e-5 there).
+REMOTE_PAST_TOLERANCE = 0.05
+#: the fourth-order series has a meaning where w^2 > 0 and |e4| <= |e2| <= this x w^2
+ADIABATIC4_CRITERION = 0.25
 
 
-def remote_past(solver, k: float):
-    i0 = 0
+def adiabaticity(solver, k: float) -> np.ndarray:
+    """eps = rate/W per node (inf where W^2 <= 0): the solver's adiabaticity test.
+
+    rate^2 = a^2 omega_bg^2 + (W'/W)^2 + |W''/W| (:meth:`.modes.ModeSolver.adiabatic_rate2`):
+    eps bounds the background rate over W, |W'|/W^2 and sqrt(|W''|/W^3) together, which also
+    sees the turning points Omega = 0 of the deformed algebra.
+    """
+    rate2, w2 = solver.adiabatic_rate2(k)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ok = np.isfinite(w2) & np.isfinite(rate2) & (w2 > 0)
+        return np.where(ok, np.sqrt(np.abs(rate2 / np.where(ok, w2, 1.0))), np.inf)
+
+
+def remote_past_density(x_min: float, critical_density: float,
+                        tolerance: float = REMOTE_PAST_TOLERANCE) -> float:
+    """Density down to which the contracting branch must reach for modes >= x_min k_LQC.
+
+    In the kinetic era of a bounce (a = a_B (rho_c/rho)^(1/6), aH = sqrt(8 pi rho/3) a,
+    rate = 2 aH since |Hdot| = 3 H^2; Ashtekar & Singh 2011) eps = 2 aH/k reaches
+    ``tolerance``/3 at this density (a margin of 27 in density), for a_B = 1 and
+    k = x_min sqrt(8 pi rho_c).
+    """
+    k = x_min * math.sqrt(8 * math.pi * critical_density)
+    c = 2 * math.sqrt(8 * math.pi / 3) * critical_density ** (1 / 6)
+    return (tolerance / 3 * k / c) ** 3
+
+
+def remote_past(solver, k: float, tolerance: float = REMOTE_PAST_TOLERANCE):
+    tab = solver.system.table
+    if tab.has_bounce:
+        if tab.bounce_index() == 0:
+            raise NumericalFailure("the remote-past state needs the contracting branch in the "
+                                   "background table (this one starts at the bounce)")
+        eps = adiabaticity(solver, k)[:tab.bounce_index()]
+        ok = np.nonzero(eps <= tolerance)[0]
+        i0 = int(ok[-1]) if len(ok) else int(np.argmin(eps))
+    else:
+        i0 = 0
+        eps = adiabaticity(solver, k)[:1]
+    if not np.isfinite(eps[i0]):
+        raise NumericalFailure(f"mode k={k:g} has no positive frequency anywhere before the "
+                               "bounce in the background table (start it further in the past)")
     f = solver.form_of_node[i0]
-    F = solver.system.forms[f]
-    w2 = solver.w2(f, k)
-    if not (np.isfinite(w2[i0]) and w2[i0] > 0):
-        raise NumericalFailure(f"mode k={k:g} has no positive frequency at the start of the "
-                               "background table (start it further in the past)")
-    rate = math.sqrt(solver.a[i0] ** 2 * F.wbg2[i0])
-    mu, dmu = solver.adiabatic_basis(f, i0, k, w2)
+    mu, dmu = solver.adiabatic_basis(f, i0, k, solver.w2(f, k))
     x, p = solver.from_mu(f, i0, k, mu, dmu)
-    return i0, x, p, rate / math.sqrt(w2[i0])
+    return i0, x, p, float(eps[i0])
 
 
-def _w2_second_order(w2: np.ndarray, d: float) -> np.ndarray:
-    """W_2^2 on the inner points of an equally spaced stencil of omega^2 values."""
-    d1 = (w2[2:] - w2[:-2]) / (2 * d)
-    d2 = (w2[2:] - 2 * w2[1:-1] + w2[:-2]) / d**2
-    om2 = w2[1:-1]
-    # W = sqrt(om2): W'/W = om2'/(2 om2), W''/W = om2''/(2 om2) - om2'^2/(4 om2^2)
-    wpp = d2 / (2 * om2) - d1**2 / (4 * om2**2)
-    wp = d1 / (2 * om2)
-    return om2 - 0.5 * (wpp - 1.5 * wp**2)
+def adiabatic_frequency4(k: float, s: np.ndarray) -> tuple[np.ndarray, ...]:
+    """Fourth-order adiabatic series of W^2 for w^2 = k^2 - s(eta).
+
+    ``s``: rows s, s', s'', s''', s'''' (conformal-time derivatives of z''/z). From
+    W^2 = w^2 - (1/2)[W''/W - (3/2)(W'/W)^2] (Birrell & Davies, Quantum Fields in Curved
+    Space, s. 3.5; Parker & Fulling 1974), iterated and truncated order by order
+    (u = w^2, u_n its n-th derivative):
+    e2 = -u2/(4u) + (5/16) u1^2/u^2,
+    e4 = -e2''/(4u) + u2 e2/(4u^2) + (5/8) u1 e2'/u^2 - (5/8) u1^2 e2/u^3.
+    Returns (w^2, e2, e4, W'/W to third order).
+    """
+    u = k * k - s[0]
+    u1, u2, u3, u4 = -s[1], -s[2], -s[3], -s[4]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        e2 = -u2 / (4 * u) + 5 / 16 * u1**2 / u**2
+        de2 = -u3 / (4 * u) + 7 / 8 * u1 * u2 / u**2 - 5 / 8 * u1**3 / u**3
+        dde2 = (-u4 / (4 * u) + 9 / 8 * u1 * u3 / u**2 + 7 / 8 * u2**2 / u**2
+                - 29 / 8 * u1**2 * u2 / u**3 + 15 / 8 * u1**4 / u**4)
+        e4 = (-dde2 / (4 * u) + u2 * e2 / (4 * u**2) + 5 / 8 * u1 * de2 / u**2
+              - 5 / 8 * u1**2 * e2 / u**3)
+        dlnw = (u1 + de2) / (2 * (u + e2 + e4))
+    return u, e2, e4, dlnw
+
+
+def bounce_frequency4(solver, k: float) -> tuple[float, float, float, float]:
+    """(w^2, e2, e4, W'/W) of the fourth-order series at the bounce node (dressed metric)."""
+    tab = solver.system.table
+    ib = tab.bounce_index()
+    cache = getattr(solver, "_bounce_derivatives", None)
+    if cache is None:
+        f = int(solver.form_of_node[ib])
+        lo, hi = max(ib - 60, 0), min(ib + 61, len(solver.t))
+        sp = make_interp_spline(solver.eta[lo:hi], solver.system.forms[f].zz[lo:hi], k=7)
+        cache = solver._bounce_derivatives = np.array([sp(solver.eta[ib], nu) for nu in range(5)])
+    return tuple(float(v) for v in adiabatic_frequency4(k, cache))
 
 
 def bounce_adiabatic4(solver, k: float):
     sysm = solver.system
-    tab = sysm.table
     if sysm.prescription != "dressed_metric":
         raise InputError("perturbations.state = 'bounce_adiabatic4' needs prescription "
                          "'dressed_metric' (Omega < 0 at the bounce in the deformed algebra)")
-    ib = tab.bounce_index()
-    f = solver.form_of_node[ib]
-    F = sysm.forms[f]
-    cache = getattr(solver, "_bounce_cache", None)
-    if cache is None:
-        lo, hi = max(ib - 400, 0), min(ib + 400, len(tab.t) - 1)
-        eta = solver.eta[lo:hi + 1]
-        zz = CubicSpline(eta, F.zz[lo:hi + 1])
-        d = 0.01 / tab.k_lqc
-        stencil = solver.eta[ib] + d * np.arange(-4, 5)
-        cache = (zz(stencil), d)
-        solver._bounce_cache = cache
-    zz_s, d = cache
-    om2 = k * k - zz_s
-    w2_2 = _w2_second_order(om2, d)
-    w4sq = None
-    if np.all(om2 > 0.25 * k * k) and np.all(w2_2 > 0.25 * k * k):
-        # the bracket of the W_4 iteration, evaluated with W_2 in place of omega
-        w4sq = om2[2:-2] - (w2_2[1:-1] - _w2_second_order(w2_2, d))
-    if (w4sq is None or np.any(w4sq <= 0.25 * k * k)
-            or np.any(np.abs(w4sq - om2[2:-2]) > 0.5 * om2[2:-2])):
-        W, dW = k, 0.0
-    else:
-        c = len(w4sq) // 2
-        W = math.sqrt(w4sq[c])
-        dW = (math.sqrt(w4sq[c + 1]) - math.sqrt(w4sq[c - 1])) / (2 * d)
+    u, e2, e4, dlnw = bounce_frequency4(solver, k)
+    c2 = ADIABATIC4_CRITERION
+    if not (u > 0 and abs(e4) <= abs(e2) <= c2 * u):
+        return remote_past(solver, k)  # no adiabatic state at the bounce (module docstring)
+    ib = sysm.table.bounce_index()
+    f = int(solver.form_of_node[ib])
+    W = math.sqrt(u + e2 + e4)
     fv = 1 / math.sqrt(2 * W)
-    mu, dmu = complex(fv), (-1j * W - dW / (2 * W)) * fv
-    x, p = solver.from_mu(f, ib, k, mu, dmu)
+    x, p = solver.from_mu(f, ib, k, complex(fv), (-1j * W - dlnw) * fv)
     return ib, x, p, math.nan
 
 

@@ -43,37 +43,57 @@ The cache (``data/transfer_<prescription>_<state>.npz``, ~150-200 kB each) holds
 ln|alpha|, ln rho and theta on X_GRID (401 points over 0.01-100) x the D of nine calibration
 backgrounds (phi_B = 1.2, masses 4.5e-7-6.5e-6: D = 3.1e3-1.7e4), interpolated linearly in
 (ln x, ln D), and for the dressed metric the tilt correction above. Rebuild it with
-``python3 -m bouncelike.perturbations.transfer`` (~1 min per dressed-metric table, ~15 s for
-the deformed algebra, on one core). The remote-past state is the one set at the forward
-model's default
-past_density = 1e-11: for x below ~0.05 the spectrum depends on where that state is set once
-the contracting branch there is no longer kinetic (measured: scalar T(0.01) = 47 at 1e-11 and
-1.9e3 at 1e-13), so the cache does not apply to other past densities.
+``python3 -m bouncelike.perturbations.transfer`` (~1 min per dressed-metric table, ~20 s for
+the deformed algebra, on one core). The remote-past state is set per mode where
+rate/W <= 0.05 (:mod:`.states`; the calibration backgrounds reach down to
+:func:`.states.remote_past_density` of x = 0.01, ~1.2e-12 Planck units): every calibration and
+certificate background reaches that tolerance for x >= 0.01 within its kinetic contracting era
+(measured minimum rate/W at x = 0.01: 0.007-0.048 for masses 4.5e-7-6.5e-6), and the spectra
+do not depend on how far back the table starts (1e-11, 1e-13, 1e-15 agree to 2e-6 in ln T;
+before, the state sat at the table's first node and T(0.01) went from 47 to 1.9e3). The
+state is the adiabatic vacuum of the kinetic contracting era: its infrared is universal
+(period-averaged T at 0.01 k_LQC 23.996 for m = 1.2e-6 and 23.997 for 4e-6); the earlier
+contracting history (a potential-dominated contraction and field oscillations further back,
+where modes below ~k_LQC are not adiabatic) is not part of it. Certified in x >= 0.01 for
+masses up to 6.5e-6 (the minimum rate/W grows ~m^(2/3)/x: for heavier fields or x < 0.01 the
+forward model notes modes that do not reach the tolerance).
 
 Measured accuracy (``bouncelike transfer-check --backgrounds 6 --seed 11``, max relative error
 at 360 random points; pointwise / of the period-averaged T):
 
-* dressed metric, remote past: 0.01-0.03 k_LQC 0.15% / 3e-5; 0.03-0.1: 0.45% / 1e-5;
-  0.1-0.3: 0.08%; 0.3-1: 0.06%; 1-3: 0.013%; above 3: < 1.2e-5. Target met pointwise
-  everywhere. With ``--seed 5`` (other backgrounds): 0.90% at 0.01-0.03 and 0.15% at
-  0.03-0.1. The tightest points are the deepest troughs below 0.1 k_LQC (|1 + rho e^{i phi}|^2
-  ~ 3e-3 at rho ~ 0.95), where a phase error dphi gives a relative error ~ dphi/(1 - rho):
-  1% there needs theta to ~5e-4 rad; the remaining error is the tilt correction's residual.
-* deformed algebra: 1.5-4% pointwise below 3 k_LQC (0.4% at 0.1-0.3), period mean
-  <= 0.06% below 1 k_LQC and 0.96% at 1-3 k_LQC (CERTIFIED_RANGES keeps below 1); above,
-  the exact integrations of different backgrounds differ by 1-3% in the exponent of the
-  Euclidean growth (e^50-e^160) in a way D does not capture (not understood; the same
-  background on finer grids reproduces itself to 1e-4), and the full-depth oscillations
-  (rho -> 1) make pointwise errors unbounded near their nodes. Target not met there. (No tilt
-  correction of theta: these errors are not phase errors of that size.)
-* dressed metric, 4th-order adiabatic state at the bounce: 0.5% pointwise at 0.01-0.03 k_LQC,
-  <= 0.16% at 0.03-1 and above 10 k_LQC; 1-10 k_LQC up to 63% pointwise (12% of the mean):
-  that state switches to its zeroth-order
-  fallback near 2.4 k_LQC (states.py), a jump in k whose position depends on the grid; a
-  check with 3 backgrounds x 8 points also found 1.6% at 3-10 k_LQC, so CERTIFIED_RANGES
-  keeps 0.01-1 and >= 10 k_LQC for this state.
-Above the grid the dressed-metric T is 1 (rho < 1e-12 there); the deformed-algebra ln|alpha|
-continues linearly with the WKB growth rate of the Euclidean phase.
+* dressed metric, remote past (state set per mode where rate/W <= 0.05, classical sign
+  convention): 0.01-0.03 k_LQC 0.50% / 7e-4; 0.03-0.1: 0.49% / 3e-4; 0.1-0.3: 0.09%;
+  0.3-1: 0.06%; 1-3: 0.013%; 3-10: 7e-5; above 10: < 3e-6; period mean <= 2e-5 everywhere.
+  Target met pointwise everywhere. The tightest points are the deepest troughs below
+  0.1 k_LQC (|1 + rho e^{i phi}|^2 ~ 3e-3 at rho ~ 0.95), where a phase error dphi gives a
+  relative error ~ dphi/(1 - rho): 1% there needs theta to ~5e-4 rad; the remaining error is
+  the tilt correction's residual.
+* deformed algebra (``--prescription deformed_algebra``): period mean <= 0.03% below 3 k_LQC,
+  <= 0.3% at 3-10 (0.29% with ``--seed 5``), <= 0.08% at 10-100 (0.16% with ``--seed 5``):
+  CERTIFIED_RANGES covers 0.01-100. Pointwise relative to the period mean <= 0.8% at 0.01-30
+  k_LQC except 0.3-1 (1.5%), and up to 2 at 30-100 (phase of the fast oscillation, 2 x D ~ 1e6
+  rad there); pointwise 1.5-4% below 3 k_LQC (11% at 0.01-0.03 with ``--seed 5``) and
+  unbounded above near the nodes of the full-depth oscillations (rho -> 1). Target met for the
+  period mean only. (No tilt correction of theta.) The exact integrations behind the cache
+  are converged: the step includes the Airy rate of the turning points Omega = 0 and WKB jumps
+  stay off them (modes.py); ln T at 100 k_LQC agrees between all 18 backgrounds checked to
+  1e-5 relative (it scattered by 4-7% before, e^50-e^160 exponents differing by 1-3% per
+  background, set by where the steps fell), and ln(T_t/T_s) at 100 k_LQC is 0.004-0.006 on
+  every calibration row (it ranged from -0.9 to +8.5). ln|alpha| - growth x/2 is what is
+  interpolated in ln x (ln T is linear in x there).
+* dressed metric, 4th-order adiabatic state at the bounce (the truncated series where it exists
+  there, above ~3.8 k_LQC; the remote-past state below, :mod:`.states`): the same as the
+  remote past below 3 k_LQC (identical state), 3-10: 1.1e-5, above 10: < 6e-7. The mean
+  transfer is smooth in k across the switch (largest second difference of its log on 61
+  points over 1-10 k_LQC: 1.4e-3; 0.17 in the previous cache, whose state switched to W = k
+  at the bounce near 2.4 k_LQC: mean T 1.076, 1.047, 1.009 at 2.5, 2.6, 2.8 k_LQC, now
+  1.0052, 1.0040, 1.0023). CERTIFIED_RANGES covers 0.01-100 and above.
+(All three with ``--backgrounds 6 --seed 11``, after the remote-past start was made per mode.
+The deformed algebra with it: period mean <= 2e-5-7e-5 below 1 k_LQC, 1.4e-4 at 0.3-1,
+7e-4 at 3-10, 1.3e-3 at 10-30, 4.4e-3 at 30-100 k_LQC.)
+Above the grid the dressed-metric T is 1 (rho < 1e-12 there); the deformed-algebra ln T
+continues linearly in x with the WKB growth rate 2 k_LQC int sqrt(-Omega) d eta of the
+Euclidean phase (1.5942 per unit x; the exact slope between 60 and 100 k_LQC is 1.5945).
 
 :func:`certificate` draws random backgrounds (quadratic inflaton, mass and phi_B) and random x
 in 0.01-100, integrates the modes exactly and reports the maximum relative error of T, both
@@ -103,16 +123,23 @@ TILT_PHI_B = (0.7, 1.8, 2.5)
 DATA = Path(__file__).with_name("data")
 FIELDS = ("scalar", "tensor")
 CAP_EXPONENT = 600.0
-UV_ANCHOR = 30.0  # deformed algebra: above this x the WKB growth carries T (see _smooth)
+UV_ANCHOR = 100.0  # deformed algebra: above this x the WKB growth carries T (see _smooth)
 
 
-def quadratic_bounce(mass: float, phi_b: float, past_density: float = 1e-11):
-    """Bounce background of V = m^2 phi^2/2 with phi = phi_B at the bounce (phidot > 0)."""
+def quadratic_bounce(mass: float, phi_b: float, past_density: float | None = None):
+    """Bounce background of V = m^2 phi^2/2 with phi = phi_B at the bounce (phidot > 0).
+
+    The contracting branch reaches ``past_density`` (default: far enough for the remote-past
+    state of every x >= X_GRID[0], :func:`.states.remote_past_density`).
+    """
     from ..background.potentials import Quadratic
     from ..units import critical_density
     from .background import integrate_background
+    from .states import remote_past_density
 
     rc = critical_density()
+    if past_density is None:
+        past_density = remote_past_density(float(X_GRID[0]), rc)
     pot = Quadratic(mass=mass)
     return integrate_background(pot, rc, phi_b, math.sqrt(2 * (rc - float(pot.V(phi_b)))),
                                 past_density=past_density)
@@ -146,15 +173,23 @@ class Decomposition:
 
 
 def decompose(tab, x: np.ndarray, field_: str, prescription: str = "dressed_metric",
-              state: str = "remote_past", match_efolds: float = MATCH_EFOLDS) -> Decomposition:
-    """Integrate the modes x k_LQC exactly and split them as in the module docstring."""
+              state: str = "remote_past", match_efolds: float = MATCH_EFOLDS,
+              sign_convention: str | None = None,
+              solver_options: dict | None = None) -> Decomposition:
+    """Integrate the modes x k_LQC exactly and split them as in the module docstring.
+
+    ``sign_convention``: of the dressed-metric scalar potential (None: the default of
+    prescriptions.py); ``solver_options``: keyword arguments of the ModeSolver (step, ...).
+    """
     from .modes import ModeSolver
-    from .prescriptions import mode_system
+    from .prescriptions import DEFAULT_SIGN_CONVENTION, mode_system
     from .states import make_state
 
     x = np.asarray(x, dtype=float)
     k = x * tab.k_lqc
-    sol = ModeSolver(mode_system(tab, field_, prescription))
+    sol = ModeSolver(mode_system(tab, field_, prescription,
+                                 sign_convention or DEFAULT_SIGN_CONVENTION),
+                     **(solver_options or {}))
     ib = tab.bounce_index()
     after = np.nonzero(tab.ln_a[ib:] - tab.ln_a[ib] >= match_efolds)[0]
     if not len(after):
@@ -225,6 +260,7 @@ class TransferTable:
     tilt0: dict | None = None          # field -> (nD,) tilt of the calibration rows
     tilt_coef: dict | None = None      # field -> (nbasis, nx): theta correction per basis term
     tilt_range: dict | None = None     # field -> (lo, hi) tilts of the calibration backgrounds
+    sign_convention: str = "fixed_slow_roll"  # dressed-metric scalar potential it was built with
 
     @property
     def d_range(self) -> tuple[float, float]:
@@ -242,7 +278,7 @@ class TransferTable:
                 tilt: float | None = None):
         """ln|alpha|, ln rho, theta at ln x, interpolated in ln D, and the growth G of ln T.
 
-        Below the grid the edge values are held. Deformed algebra: above UV_ANCHOR (30 k_LQC)
+        Below the grid the edge values are held. Deformed algebra: above UV_ANCHOR (100 k_LQC)
         the values at the anchor are held and ln T grows by G = growth x (x - UV_ANCHOR), the
         WKB exponent (the same for both fields); G is returned apart so that callers can
         subtract a common cap without losing the tensor/scalar ratio. Dressed metric: rho = 0
@@ -256,7 +292,14 @@ class TransferTable:
         def row(a):
             return (1 - w) * np.interp(lxc, lg, a[j]) + w * np.interp(lxc, lg, a[j + 1])
 
-        la, lr, th = row(self.ln_alpha[f]), row(self.ln_rho[f]), row(self.theta[f])
+        if self.growth_per_x:
+            # ln|alpha| ~ growth x / 2 in the ultraviolet: interpolate the rest (linear in ln x
+            # would be off by growth x (d ln x)^2 / 8 ~ 1% at 100 k_LQC on X_GRID)
+            wkb = 0.5 * self.growth_per_x * self.x
+            la = row(self.ln_alpha[f] - wkb) + 0.5 * self.growth_per_x * np.exp(lxc)
+        else:
+            la = row(self.ln_alpha[f])
+        lr, th = row(self.ln_rho[f]), row(self.theta[f])
         if tilt is not None and self.tilt_coef is not None and duration is not None:
             # theta also depends on the tilt at equal D (how the kinetic era turns into
             # inflation): least-squares correction in dt = tilt - tilt0(D), tilt clipped to
@@ -321,8 +364,8 @@ class TransferTable:
 
         Zero for the dressed metric. For the deformed algebra both fields grow with the same
         exponent exp(2 k int sqrt(-Omega) d eta) (the same Omega k^2 term), so the ratio tends
-        to a constant set by the prefactors; the median damps the ~1% accuracy of the exact
-        integration on exponents of 10^2.
+        to a constant set by the prefactors (measured: 0.11 at 10, 0.04 at 30, 0.005 at 100
+        k_LQC; median 0.05).
         """
         sel = (self.x >= 10) & (self.x <= 50)
         m = self.ln_mean_transfer(self.x[sel])
@@ -331,7 +374,7 @@ class TransferTable:
     def save(self, path: Path) -> None:
         np.savez_compressed(
             path, x=self.x, d_grid=self.d_grid, growth=self.growth_per_x,
-            meta=np.array([self.prescription, self.state]),
+            meta=np.array([self.prescription, self.state, self.sign_convention]),
             **{f"{q}_{f}": getattr(self, q)[f] for q in ("ln_alpha", "ln_rho", "theta")
                for f in FIELDS},
             **({} if self.tilt_coef is None else {
@@ -401,8 +444,13 @@ def build_transfer(prescription: str = "dressed_metric", state: str = "remote_pa
 
         tab = quadratic_bounce(CALIBRATION_MASSES[0], CALIBRATION_PHI_B)
         growth = euclidean_growth_rate(tab) * tab.k_lqc
+    from .prescriptions import DEFAULT_SIGN_CONVENTION
+
     return TransferTable(prescription, state, X_GRID.copy(), d_grid, ln_alpha, ln_rho, theta,
-                         growth, *((tilt0, tilt_coef, tilt_range) if tilt_coef else ()))
+                         growth, *((tilt0, tilt_coef, tilt_range) if tilt_coef else
+                                   (None, None, None)),
+                         "classical" if prescription == "deformed_algebra"
+                         else DEFAULT_SIGN_CONVENTION)
 
 
 @functools.lru_cache(maxsize=4)
@@ -413,24 +461,31 @@ def load_transfer(prescription: str = "dressed_metric",
     if path.is_file():
         d = np.load(path)
         if "d_grid" in d:
+            # tables written before the sign convention was recorded used "fixed_slow_roll"
+            meta = [str(v) for v in d["meta"]]
+            tilt = (({f: d[f"tilt0_{f}"] for f in FIELDS},
+                     {f: d[f"tilt_coef_{f}"] for f in FIELDS},
+                     {f: tuple(d[f"tilt_range_{f}"]) for f in FIELDS})
+                    if "tilt_coef_scalar" in d else (None, None, None))
             return TransferTable(prescription, state, d["x"], d["d_grid"],
                                  {f: d[f"ln_alpha_{f}"] for f in FIELDS},
                                  {f: d[f"ln_rho_{f}"] for f in FIELDS},
                                  {f: d[f"theta_{f}"] for f in FIELDS}, float(d["growth"]),
-                                 *(({f: d[f"tilt0_{f}"] for f in FIELDS},
-                                    {f: d[f"tilt_coef_{f}"] for f in FIELDS},
-                                    {f: tuple(d[f"tilt_range_{f}"]) for f in FIELDS})
-                                   if "tilt_coef_scalar" in d else ()))
+                                 *tilt, meta[2] if len(meta) > 2 else "fixed_slow_roll")
     return build_transfer(prescription, state)
 
 
 # k/k_LQC intervals where the period-averaged transfer met 1% in ``bouncelike transfer-check
-# --backgrounds 6 --seed 11`` (measured; the dressed metric, remote past, meets 1% pointwise
-# too: max 0.45%, and 0.9% with --seed 5)
+# --backgrounds 6 --seed 11`` (measured; both dressed-metric states meet 1% pointwise too: max
+# 0.50%). Infrared edge 0.01 k_LQC: there every inflaton mass up to 6.5e-6 reaches the
+# remote-past tolerance rate/W <= 0.05 in its kinetic contracting era (states.py); the state is
+# the adiabatic vacuum of that era, not of any earlier contracting history. The fourth-order
+# adiabatic state exists at the bounce only above ~3.8 k_LQC; below, that name gives the
+# remote-past state (states.py), certified alike.
 CERTIFIED_RANGES = {
     ("dressed_metric", "remote_past"): ((0.01, math.inf),),
-    ("deformed_algebra", "remote_past"): ((0.01, 1.0),),
-    ("dressed_metric", "bounce_adiabatic4"): ((0.01, 1.0), (10.0, math.inf)),
+    ("deformed_algebra", "remote_past"): ((0.01, 100.0),),
+    ("dressed_metric", "bounce_adiabatic4"): ((0.01, math.inf),),
 }
 
 
@@ -450,9 +505,8 @@ class BounceSpectraModel:
     ``certified`` (the window 1e-4-0.2 Mpc^-1 lies within the tabulated 0.01-100 k_LQC or
     above it, and D within the calibrated range) and ``x_window_min``. Certified accuracy
     (``bouncelike transfer-check``, dressed metric, remote-past state): <= 0.1% for window
-    points above 0.1 k_LQC, <= 1% pointwise (max 0.45% with --seed 11, 0.9% with --seed 5) in
-    the deepest troughs between 0.01 and 0.1 k_LQC, for tilts within the calibrated range
-    (others are clipped to it).
+    points above 0.1 k_LQC, <= 1% pointwise (max 0.50% with --seed 11) in the deepest troughs
+    between 0.01 and 0.1 k_LQC, for tilts within the calibrated range (others are clipped).
     """
 
     parameter_names = ("ln_1e10_As", "n_s", "r", "log10_k_lqc", "log10_conformal_duration")
@@ -469,7 +523,6 @@ class BounceSpectraModel:
     def spectra(self, params: dict):
         from ..spectra.tabulated import TabulatedSpectra
 
-        a_s = math.exp(params["ln_1e10_As"]) * 1e-10
         r = params.get("r", 0.0)
         x = self.k / 10 ** params["log10_k_lqc"]
         if params.get("log10_conformal_duration") is None:
@@ -480,6 +533,31 @@ class BounceSpectraModel:
                                         average_below=2 * self._dlnk
                                         if self.average_unresolved else None, split=True)
         lk = np.log(self.k / self.pivot)
+        ps, pt, capped = self._powers(params, lt, lk)
+        notes = () if self.derived(params)["certified"] else (
+            "bounce transfer used outside its certified range (CERTIFIED_RANGES of "
+            "k/k_LQC over the observable window, or conformal duration outside the "
+            "calibrated range)",)
+        if np.any(capped):
+            notes = (*notes, "deformed algebra: transfer above e^600 capped by a common factor "
+                     "(a lower bound; P_t/P_s kept)")
+        # period means and the period pi/(x D) of the features in ln k, for consumers that
+        # cannot resolve them (protocol of bouncelike.spectra.oscillations); without D the
+        # spectra above are already period means
+        period_mean, period = (ps, pt), None
+        if params.get("log10_conformal_duration") is not None:
+            d = 10 ** params["log10_conformal_duration"]
+            period_mean = self._powers(params, self.table.ln_mean_transfer(x, d, split=True),
+                                       lk)[:2]
+            period = math.pi / (x * d)
+        return TabulatedSpectra(self.k, ps, pt, notes=notes, label="bounce transfer model",
+                                period_mean=period_mean, oscillation_period=period)
+
+    @staticmethod
+    def _powers(params: dict, lt: dict, lk: np.ndarray):
+        """P_s, P_t (and where capped) of the power law times the transfer ``lt``."""
+        a_s = math.exp(params["ln_1e10_As"]) * 1e-10
+        r = params.get("r", 0.0)
         # deformed algebra far above k_LQC: a common cap e^600 on the transfer keeps P_t/P_s
         # (both grow with the same exponent G; see forward.py)
         top = np.maximum(lt["scalar"], lt["tensor"])
@@ -488,14 +566,7 @@ class BounceSpectraModel:
         ltt = np.where(capped, lt["tensor"] - top + CAP_EXPONENT, lt["tensor"] + lt["growth"])
         ps = a_s * np.exp((params["n_s"] - 1) * lk + ls)
         pt = r * a_s * np.exp(-r / 8 * lk + ltt) if r > 0 else np.zeros_like(ps)
-        notes = () if self.derived(params)["certified"] else (
-            "bounce transfer used outside its certified range (CERTIFIED_RANGES of "
-            "k/k_LQC over the observable window, or conformal duration outside the "
-            "calibrated range)",)
-        if np.any(capped):
-            notes = (*notes, "deformed algebra: transfer above e^600 capped by a common factor "
-                     "(a lower bound; P_t/P_s kept)")
-        return TabulatedSpectra(self.k, ps, pt, notes=notes, label="bounce transfer model")
+        return ps, pt, capped
 
     def derived(self, params: dict) -> dict:
         xmin = 1e-4 / 10 ** params["log10_k_lqc"]
@@ -592,7 +663,8 @@ def certificate(n_backgrounds: int = 3, n_x: int = 40, seed: int = 0,
         exact, tilts = {}, {}
         try:
             for f in FIELDS:
-                dec = decompose(tab, x, f, prescription, state)
+                dec = decompose(tab, x, f, prescription, state,
+                                sign_convention=tab_c.sign_convention)
                 exact[f] = dec
                 tilts[f] = _tilt(x, dec.ln_standard)
         except NumericalFailure as exc:

@@ -1,18 +1,11 @@
-"""The report of a posterior run: verdicts, marginal tables, triangle plot and figure pack.
+"""The report of a posterior run: all numbers first (:func:`compute_report`), then the files
+(:func:`bouncelike.reporting.outputs.write_report`) into ``RUN/report/``.
 
-``[report]`` section of the run configuration (all optional)::
-
-    [report]
-    exclusion_map = ["n_s", "r"]   # two sampled parameters for the exclusion map
-    grid = 36                       # grid points per axis of the map
-    prior_draws = 1000              # prior draws for the allowed prior fraction
-    rescore_samples = 200           # thinned posterior samples rescored per constraint set
-    band_samples = 200              # posterior samples for the spectra bands
-    evidence_draws = 4000           # importance-sampling draws for ln Z
-    compare = []                    # other run folders (discrete settings) to compare with
-    seed = 0
-
-Everything is computed first; then the files are written (atomically) into ``RUN/report/``.
+The ``[report]`` section of the run configuration is described in :mod:`.settings`. The
+statistics live in their own modules: marginals (:mod:`.marginals`), goodness of fit and the
+p-value rules (:mod:`.goodness`), fractions of prior and posterior draws (:mod:`.proportions`),
+Bayes factors (:mod:`.evidence`), the exclusion map (:mod:`.exclusion`) and the n_s - r plane
+(:mod:`.nsr`).
 """
 
 from __future__ import annotations
@@ -23,58 +16,25 @@ from typing import Any
 
 import numpy as np
 
-from ..config import Table
 from ..errors import InputError
-from ..io import json_safe, write_json_atomic, write_text_atomic
+from ..likelihood.gaussian import VERDICT_RULE
 from ..sampling import chains
-from ..sampling import verdicts as V
 from ..sampling.setup import rebuild_from_manifest
-from . import figures, tables
+from . import evidence as E
+from . import exclusion, goodness, nsr, proportions, refusals
+from .marginals import INTERVAL_DEFINITION, marginal_statistics
+from .settings import report_settings
 
-REPORT_KEYS = ("exclusion_map", "grid", "prior_draws", "rescore_samples", "band_samples",
-               "evidence_draws", "compare", "seed")
 EFOLD_PARAMETERS = ("N_star", "N_inflation", "N_B_star")
-
-
-def report_settings(config: dict[str, Any], sampled: tuple[str, ...]) -> dict[str, Any]:
-    t = Table(config.get("report", {}), "report", REPORT_KEYS)
-    emap = t.strings("exclusion_map", list(sampled[:2]))
-    if len(emap) != 2 or len(set(emap)) != 2 or not all(n in sampled for n in emap):
-        raise InputError(f"'report.exclusion_map' = {emap} must name two different sampled "
-                         f"parameters; allowed: {', '.join(sampled)}")
-    return {
-        "exclusion_map": emap,
-        "grid": t.integer("grid", 36, minimum=4, maximum=400),
-        "prior_draws": t.integer("prior_draws", 1000, minimum=10),
-        "rescore_samples": t.integer("rescore_samples", 200, minimum=1),
-        "band_samples": t.integer("band_samples", 200, minimum=10),
-        "evidence_draws": t.integer("evidence_draws", 4000, minimum=100),
-        "compare": t.strings("compare", []),
-        "seed": t.integer("seed", 0, minimum=0),
-    }
-
-
-def load_samples(folder: Path, manifest: dict[str, Any]) -> Any:
-    """Posterior samples of a run: samples.csv, or chain.csv past burn-in while running."""
-    import pandas as pd
-
-    path = folder / chains.SAMPLES
-    if path.is_file():
-        return pd.read_csv(path)
-    chain = folder / chains.CHAIN
-    if not chain.is_file():
-        raise InputError(f"run folder '{folder}' has no chain yet ({chains.CHAIN} missing)")
-    frame = pd.read_csv(chain)
-    burn = int(manifest.get("run", {}).get("burn_in", 0))
-    return frame[frame["step"] > burn]
 
 
 def compute_report(folder: str | Path) -> dict[str, Any]:
     """All numbers and figure data of a run's report (nothing is written)."""
     folder = Path(folder)
-    manifest = chains.read_manifest(folder)
+    manifest = chains.read_manifest(folder, chains.MANIFEST_NEEDS)
     prior, model, likelihood, posterior = rebuild_from_manifest(manifest)
-    frame = load_samples(folder, manifest)
+    frame, loading_notes = chains.load_samples(
+        folder, manifest, (*prior.sampled_names, "log_likelihood", "log_posterior"))
     frame = frame[np.isfinite(frame["log_posterior"])]
     if len(frame) < 10:
         raise InputError(f"run folder '{folder}' has fewer than 10 posterior samples")
@@ -88,7 +48,7 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
     upper = [prior.get(n).upper if n in sampled else math.inf for n in params_all]
     if "r" in derived:
         lower[params_all.index("r")] = 0.0  # r >= 0 by construction of every model
-    marg = V.marginal_statistics(frame[params_all].to_numpy(), params_all, lower, upper)
+    marg = marginal_statistics(frame[params_all].to_numpy(), params_all, lower, upper)
 
     def params_of(theta: np.ndarray) -> dict[str, float]:
         return prior.full_parameters(theta)
@@ -98,56 +58,123 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
     best_params = params_of(best_theta)
     best_spectra = model.spectra(best_params)
     best_score = likelihood.score(best_spectra)
+    fit = goodness.best_fit_goodness(
+        best_score.chi2, best_score.dof,
+        goodness.model_dimensionality(frame["log_likelihood"].to_numpy()), sampled,
+        goodness.constrained_parameters(x, prior.draw(rng, 4000), sampled),
+        bound=bool(getattr(best_score, "bound", False)))
     subset_idx = rng.choice(len(x), size=min(rs["rescore_samples"], len(x)), replace=False)
     subset = [params_of(x[i]) for i in subset_idx]
-    from ..likelihood.sets import available_sets
-
-    by_set = V.rescore_by_set(model.spectra, best_params, subset, available_sets())
+    by_set = goodness.rescore_by_set(model.spectra, best_params, subset,
+                                     _all_sets(likelihood))
     prior_points = [params_of(t) for t in prior.draw(rng, rs["prior_draws"])]
-    allowed_prior = V.allowed_fraction(model.spectra, likelihood, prior_points)
-    allowed_post = V.allowed_fraction(model.spectra, likelihood, subset)
+    prior_outcomes = proportions.classify_points(model.spectra, likelihood, prior_points)
+    allowed_prior = proportions.outcome_fractions(prior_outcomes)
+    allowed_post = proportions.outcome_fractions(
+        proportions.classify_points(model.spectra, likelihood, subset))
     sd = {}
     for p in prior.sampled:
         if p.nested_value is not None:
-            sd[p.name] = V.savage_dickey(frame[p.name].to_numpy(), p.nested_value,
+            sd[p.name] = E.savage_dickey(frame[p.name].to_numpy(), p.nested_value,
                                          p.log_density, p.lower, p.upper)
 
     def log_like(theta: np.ndarray) -> float:
         out = posterior(theta)
         return out[1] if math.isfinite(out[0]) else -math.inf
 
-    evidence = V.log_evidence(log_like, prior, x, n=rs["evidence_draws"], seed=rs["seed"])
+    ev = E.log_evidence(log_like, prior, x, n=rs["evidence_draws"], seed=rs["seed"])
     sets = [s.as_dict() for s in likelihood.sets]
-    from ..likelihood.gaussian import VERDICT_RULE
-
+    low_ell = getattr(likelihood, "low_ell", None)
+    if low_ell is not None:  # the large-scale temperature set of a combined likelihood
+        sets.append(low_ell.data.as_dict())
     verdict = {
         "run_name": manifest.get("run_name", folder.name), "model": manifest["model"],
+        "model_title": prior.title or manifest["model"],
         "run_folder": str(folder),
         "constraint_sets": [s["name"] for s in sets],
         "constraint_set_citations": sets,
         "samples_used": int(len(frame)),
         "run": manifest.get("run", {}),
         "marginals": marg,
-        "best_fit": {"parameters": best_params, **_score_dict(best_score)},
+        "best_fit": {"parameters": best_params, **_score_dict(best_score), **fit},
         "allowed_prior_fraction": allowed_prior,
         "allowed_posterior_fraction": allowed_post,
         "savage_dickey": sd,
-        "evidence": evidence,
+        "evidence": ev,
         "by_set": by_set,
         "verdict_rule": VERDICT_RULE,
+        "p_value_rules": goodness.P_VALUE_RULES,
         "failures": manifest.get("run", {}).get("failures", {}),
+        "failure_summary": manifest.get("run", {}).get("failure_summary", {}),
+        "loading_notes": loading_notes,
+        "not_evaluable": {
+            "prior_fraction": proportions.binomial_fraction(
+                sum(o in refusals.REFUSED for o in prior_outcomes), len(prior_outcomes)),
+            "coincidences": refusals.coincidences(
+                marg, {p.name: (p.lower, p.upper) for p in prior.sampled},
+                _prober(model, likelihood, x, frame["log_likelihood"].to_numpy(), sampled,
+                        params_of, rs["seed"])),
+            "rule": refusals.RULE,
+            "run_reasons": refusals.survey_rows(
+                manifest.get("run", {}).get("failure_summary", {}) or {})},
         "methods": {
-            "intervals": "equal-tailed quantiles of the posterior samples; one-sided 95% "
-                         "limit when the marginal does not separate from a prior bound "
-                         f"(density in the {V.ONE_SIDED_EDGE:.0%} of the range next to it "
-                         f"above {V.ONE_SIDED_DENSITY:.0%} of the peak)",
-            "allowed_fraction": "Monte Carlo over prior draws: fraction not excluded at 95% "
-                                "by the combined constraint sets",
+            "intervals": INTERVAL_DEFINITION,
+            "allowed_fraction": "Monte Carlo over prior draws, each draw one configuration "
+                                "scored against the combined constraint sets; "
+                                + proportions.FRACTION_RULE + "; points the model cannot "
+                                "evaluate are counted as not evaluable, never as excluded",
             "nested": "Savage-Dickey density ratio at the prior file's nested_value",
-            "evidence": evidence["method"],
+            "evidence": ev["method"] + "; " + E.RELIABILITY_RULE,
+            "p_values": goodness.P_VALUE_RULES,
         },
     }
-    comparisons = []
+    verdict["comparisons"] = _comparisons(verdict, rs, manifest)
+    fig_data = _figure_data(folder, prior, model, likelihood, frame, x, best_spectra, rs, rng,
+                            params_of, best_theta)
+    return {"verdicts": verdict, "figures": fig_data, "settings": rs, "prior": prior,
+            "frame": frame, "sampled": sampled, "derived": derived, "manifest": manifest,
+            "constraint_sets": likelihood.sets, "best_params": best_params,
+            "best_row": {n: float(frame[n].iloc[i_best]) for n in params_all}}
+
+
+def _prober(model: Any, likelihood: Any, x: np.ndarray, log_like: np.ndarray,
+            sampled: list[str], params_of: Any, seed: int) -> Any:
+    """probe(name, a, b): outcomes of posterior samples with ``name`` redrawn in [a, b], and
+    the mean likelihood of the evaluable ones relative to that of the samples moved."""
+    def probe(name: str, a: float, b: float) -> tuple[list[str], float]:
+        rng = np.random.default_rng(seed)
+        i = sampled.index(name)
+        idx = rng.choice(len(x), size=min(refusals.PROBES, len(x)), replace=False)
+        rows = x[idx].copy()
+        rows[:, i] = rng.uniform(a, b, len(rows))
+        outcomes, moved, orig = [], [], []
+        for t, ll in zip(rows, log_like[idx], strict=True):
+            outcome, _, score = proportions.evaluate_point(model.spectra, likelihood,
+                                                           params_of(t))
+            outcomes.append(outcome)
+            if outcome not in refusals.REFUSED and score is not None:
+                moved.append(score.log_likelihood)
+                orig.append(ll)
+        if not moved:
+            return outcomes, math.nan
+        c = max(orig)
+        ratio = float(np.mean(np.exp(np.array(moved) - c)) / np.mean(np.exp(np.array(orig) - c)))
+        return outcomes, ratio
+    return probe
+
+
+def _all_sets(likelihood: Any) -> list[Any]:
+    """Every shipped set, plus the run's own set files (rescored one by one)."""
+    from ..likelihood.sets import available_sets, load_constraint_set
+
+    shipped = [load_constraint_set(n) for n in available_sets()]
+    names = {s.name for s in shipped}
+    return shipped + [s for s in likelihood.sets if s.name not in names]
+
+
+def _comparisons(verdict: dict[str, Any], rs: dict[str, Any], manifest: dict[str, Any]
+                 ) -> list[dict[str, Any]]:
+    out = []
     for other in rs["compare"]:
         path = Path(other)
         if not path.is_absolute():
@@ -161,12 +188,8 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
                 f"{', '.join(other_v['constraint_sets'])}, this run "
                 f"{', '.join(verdict['constraint_sets'])}; chi-square and evidence compare only "
                 "on the same sets")
-        comparisons.append(V.compare_evidence(verdict, other_v))
-    verdict["comparisons"] = comparisons
-    fig_data = _figure_data(prior, model, likelihood, frame, x, best_spectra, rs, rng,
-                            params_of, best_theta)
-    return {"verdicts": verdict, "figures": fig_data, "settings": rs, "prior": prior,
-            "frame": frame, "sampled": sampled, "derived": derived, "manifest": manifest}
+        out.append(E.compare_evidence(verdict, other_v))
+    return out
 
 
 def compute_report_verdicts_only(folder: Path) -> dict[str, Any]:
@@ -183,153 +206,89 @@ def compute_report_verdicts_only(folder: Path) -> dict[str, Any]:
 
 def _score_dict(score: Any) -> dict[str, Any]:
     d = score.as_dict()
-    return {k: d[k] for k in ("chi2", "dof", "p_value", "verdict", "excluded_at", "terms",
-                              "notes")}
+    out = {k: d[k] for k in ("chi2", "terms", "notes")}
+    out["bound"] = bool(d.get("bound", False))
+    out["cap"] = d.get("cap")
+    return out
 
 
-def _figure_data(prior: Any, model: Any, likelihood: Any, frame: Any, x: np.ndarray,
+def _figure_data(folder: Path, prior: Any, model: Any, likelihood: Any, frame: Any,
+                 x: np.ndarray,
                  best_spectra: Any, rs: dict[str, Any], rng: np.random.Generator,
                  params_of: Any, best_theta: np.ndarray) -> dict[str, Any]:
+    from ..likelihood.gaussian import GaussianLikelihood
+    from ..spectra.summary import summarize
+
     k = np.logspace(-5, 0, 160)
     idx = rng.choice(len(x), size=min(rs["band_samples"], len(x)), replace=False)
-    scal, tens = [], []
+    scal, tens, ns_r = [], [], []
     for i in idx:
-        try:
-            s = model.spectra(params_of(x[i]))
-            scal.append(s.scalar(k))
-            tens.append(s.tensor(k))
-        except Exception:  # noqa: BLE001 - a failed sample is left out of the band
-            continue
+        outcome, s, sc = proportions.evaluate_point(model.spectra, likelihood,
+                                                    params_of(x[i]))
+        if s is None:
+            continue  # a failed sample is left out of the bands
+        scal.append(s.scalar(k))
+        tens.append(s.tensor(k))
+        summ = next((m for m in sc.summaries if m.pivot == nsr.PIVOT), None)
+        if summ is None:
+            summ = summarize(s, nsr.PIVOT)
+        if summ.fit_ok:
+            ns_r.append((summ.n_s, summ.r))
     tens_arr = np.array(tens)
     has_tensor = bool(tens_arr.size and np.any(tens_arr > 0))
+    best_summary = summarize(best_spectra, nsr.PIVOT)
     # exclusion map over two sampled parameters, the others at the best fit
     names = list(prior.sampled_names)
     ia, ib = (names.index(n) for n in rs["exclusion_map"])
     pa, pb = prior.sampled[ia], prior.sampled[ib]
 
-    def axis(i: int, p: Any) -> np.ndarray:
+    def axis(i: int, p: Any) -> tuple[float, float]:
         lo, hi = np.quantile(x[:, i], [0.001, 0.999])
         span = hi - lo
-        lo, hi = max(p.lower, lo - 0.6 * span), min(p.upper, hi + 0.6 * span)
-        return np.linspace(lo, hi, rs["grid"])
+        return max(p.lower, lo - 0.6 * span), min(p.upper, hi + 0.6 * span)
 
-    ga, gb = axis(ia, pa), axis(ib, pb)
-    from ..likelihood.gaussian import GaussianLikelihood
+    singles = [GaussianLikelihood([s]) for s in likelihood.sets]
 
-    singles = {s.name: GaussianLikelihood.from_names([s.name]) for s in likelihood.sets}
-    level = np.full((gb.size, ga.size), np.nan)
-    per_set = {n: np.zeros((gb.size, ga.size), bool) for n in singles}
-    for j, vb in enumerate(gb):
-        for i, va in enumerate(ga):
-            theta = best_theta.copy()
-            theta[ia], theta[ib] = va, vb
-            try:
-                spec = model.spectra(params_of(theta))
-                sc = likelihood.score(spec)
-            except Exception:  # noqa: BLE001 - unscorable grid point stays blank
-                continue
-            level[j, i] = 0 if sc.verdict == "allowed" else (2 if sc.excluded_at and
-                                                               sc.excluded_at > 0.99 else 1)
-            for n, lk in singles.items():
-                per_set[n][j, i] = lk.score(spec).verdict == "excluded"
-    efold = None
+    def status(va: float, vb: float) -> np.ndarray:
+        theta = best_theta.copy()
+        theta[ia], theta[ib] = va, vb
+        return exclusion.point_status(model.spectra, likelihood, singles, params_of(theta))
+
+    emap = exclusion.refined_map(status, axis(ia, pa), axis(ib, pb), rs["grid"],
+                                 rs["refine"], exclusion.HEAD + len(singles))
+    others = {n: float(best_theta[i]) for i, n in enumerate(names) if i not in (ia, ib)}
+    recorded = refusals.recorded_refusals(folder, names)
+    refused = {k: v[:, [ia, ib]] for k, v in recorded.items()}
+    return {"k": k, "scalar": np.array(scal), "tensor": tens_arr if has_tensor else None,
+            "best": best_spectra, "map": emap, "map_samples": x[:, [ia, ib]][:2000],
+            "map_axes": ((pa.name, pa.label), (pb.name, pb.label)),
+            "map_best": (float(best_theta[ia]), float(best_theta[ib])), "map_fixed": others,
+            "map_refused": refused, "recorded_refusals": recorded,
+            "ns_r_points": np.array(ns_r).reshape(-1, 2),
+            "ns_r_best": ((best_summary.n_s, best_summary.r) if best_summary.fit_ok
+                          else None),
+            "efold": _efold_data(prior, model, frame, names, rng, params_of)}
+
+
+def _efold_data(prior: Any, model: Any, frame: Any, names: list[str],
+                rng: np.random.Generator, params_of: Any) -> dict[str, Any] | None:
     for n in EFOLD_PARAMETERS:
         if n in frame.columns and n in prior.sampled_names:
             i = names.index(n)
-            efold = {"name": n, "posterior": x[:, i],
-                     "prior": prior.draw(rng, 4000)[:, i], "label": prior.get(n).label}
-            break
+            return {"name": n, "posterior": frame[n].to_numpy(),
+                    "prior": prior.draw(rng, 4000)[:, i], "label": prior.get(n).label}
         if n in frame.columns and n in prior.derived_names:
             # a derived e-fold number: its prior is the image of prior draws
             draws = []
             for t in prior.draw(rng, 2000):
                 try:
                     draws.append(model.derived(params_of(t))[n])
-                except Exception:  # noqa: BLE001 - a failed draw has no image
-                    continue
+                except (ArithmeticError, ValueError, RuntimeError):
+                    continue  # a draw the model cannot evaluate has no image
             post = frame[n].to_numpy()
-            draws = np.asarray(draws, dtype=float)
-            draws = draws[np.isfinite(draws)]
-            if draws.size and np.all(np.isfinite(post)):
-                efold = {"name": n, "posterior": post, "prior": draws,
-                         "label": prior.get(n).label}
-                break
-    return {"k": k, "scalar": np.array(scal), "tensor": tens_arr if has_tensor else None,
-            "best": best_spectra, "map": (ga, gb, level, per_set,
-                                          x[:, [ia, ib]][: 2000]),
-            "map_labels": (pa.label, pb.label), "efold": efold}
-
-
-def write_report(folder: str | Path, data: dict[str, Any],
-                 output: str | Path | None = None) -> list[Path]:
-    """Write the report files computed by :func:`compute_report` into RUN/report/ (or
-    ``output``)."""
-    folder = Path(folder)
-    out = Path(output) if output is not None else folder / "report"
-    v = data["verdicts"]
-    prior = data["prior"]
-    labels = prior.labels()
-    roles = {p.name: p.role for p in prior.parameters}
-    names = data["sampled"] + data["derived"]
-    sets_meta = v["constraint_set_citations"]
-    cite = figures.citations_text(sets_meta)
-    written = [
-        write_json_atomic(out / "verdicts.json", json_safe(v)),
-        write_text_atomic(out / "verdicts.md", tables.verdicts_markdown(v)),
-        write_text_atomic(out / "marginals.md", tables.marginal_markdown(v["marginals"], labels,
-                                                                          roles)),
-        write_text_atomic(out / "marginals.tex", tables.marginal_latex(
-            v["marginals"], labels, f"Marginal posterior constraints, run {v['run_name']} "
-            f"({v['model']}) against {', '.join(v['constraint_sets'])}.")),
-    ]
-    frame = data["frame"]
-    # derived parameters that are exact linear functions of another (e.g. n_t = -r/8) add
-    # nothing to the triangle plot; neither do indicators (e.g. "certified") or numbers
-    # spanning many decades
-    values = frame[names].to_numpy()
-    with np.errstate(invalid="ignore", divide="ignore"):  # constant columns give NaN rows
-        corr = np.corrcoef(values.T) if len(frame) > 2 else np.eye(len(names))
-    n_sampled = len(data["sampled"])
-
-    def plottable(i: int) -> bool:
-        if i < n_sampled:
-            return True
-        v = values[:, i]
-        if np.any(np.abs(corr[i, :i]) > 0.9999) or np.unique(v).size < 20:
-            return False
-        return not (np.min(v) > 0 and np.max(v) / np.min(v) > 1e3)
-
-    names = [n for i, n in enumerate(names) if plottable(i)]
-    fig = figures.triangle_figure(frame[names].to_numpy(), names, [labels[n] for n in names],
-                                  {p.name: (p.lower, p.upper) for p in prior.sampled},
-                                  v["run_name"])
-    written += figures.save_with_caption(
-        fig, out / "triangle", f"Marginal posteriors (68% and 95% regions) of run "
-        f"{v['run_name']}, model {v['model']}, {v['samples_used']} samples after burn-in.\n"
-        + cite)
-    fd = data["figures"]
-    from ..likelihood.sets import load_constraint_set
-
-    set_objs = [load_constraint_set(s["name"]) for s in sets_meta]
-    fig = figures.spectra_figure(fd["k"], fd["best"], fd["scalar"], fd["tensor"], set_objs,
-                                 f"{v['run_name']}: best fit and posterior bands")
-    written += figures.save_with_caption(
-        fig, out / "spectra", "Primordial scalar (and tensor) power spectra: best fit (red), "
-        "68% and 95% posterior bands, the observable window 1e-4 to 0.2 Mpc^-1 (grey, common "
-        "practice) and the 68% bands of amplitude and tilt / 95% upper limits on r of the "
-        "constraint sets (tensor limits drawn at A_s = 2.1e-9).\n" + cite)
-    ga, gb, level, per_set, pts = fd["map"]
-    fig = figures.exclusion_map_figure(ga, gb, level, per_set, pts, fd["map_labels"],
-                                       f"{v['run_name']}: exclusion map")
-    a, b = data["settings"]["exclusion_map"]
-    written += figures.save_with_caption(
-        fig, out / "exclusion_map", f"Exclusion map over {a} and {b} (other parameters at the "
-        "best fit): combined verdict of the run's constraint sets (p < 0.05 and p < 0.003), "
-        "95% boundary of each set alone, posterior samples.\n" + cite)
-    if fd["efold"] is not None:
-        e = fd["efold"]
-        fig = figures.efolds_figure(e["posterior"], e["prior"], e["label"],
-                                    f"{v['run_name']}: e-folds {e['name']}")
-        written += figures.save_with_caption(
-            fig, out / "efolds", f"Prior and posterior distribution of {e['name']}.\n" + cite)
-    return written
+            arr = np.asarray(draws, dtype=float)
+            arr = arr[np.isfinite(arr)]
+            if arr.size and np.all(np.isfinite(post)):
+                return {"name": n, "posterior": post, "prior": arr,
+                        "label": prior.get(n).label}
+    return None

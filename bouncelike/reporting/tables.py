@@ -1,4 +1,9 @@
-"""Marginal tables (Markdown and LaTeX) and the verdicts text of a posterior run."""
+"""Marginal tables (Markdown and LaTeX) and the verdicts text of a posterior run.
+
+Every number comes from the statistics modules (:mod:`.marginals`, :mod:`.goodness`,
+:mod:`.proportions`, :mod:`.evidence`) through their own text functions, and every rule those
+numbers follow is stated in the text.
+"""
 
 from __future__ import annotations
 
@@ -6,54 +11,27 @@ import math
 from collections.abc import Sequence
 from typing import Any
 
+from . import evidence as E
+from . import goodness, proportions
+from .marginals import INTERVAL_DEFINITION, cells, interval_text
 
-def _num(x: float, digits: int = 4) -> str:
+
+def _num(x: float | None, digits: int = 4) -> str:
     if x is None or not math.isfinite(x):
         return "--"
     return f"{x:.{digits}g}"
 
 
-def _latex_scale(x: float) -> tuple[float, str]:
-    """Common power of ten for very small or large numbers: (10^e, r"\times 10^{e}")."""
-    if x is None or not math.isfinite(x) or x == 0:
-        return 1.0, ""
-    e = int(math.floor(math.log10(abs(x))))
-    if -3 <= e <= 4:
-        return 1.0, ""
-    return 10.0**e, f" \\times 10^{{{e}}}"
-
-
-def _cell(e: dict[str, Any], latex: bool) -> tuple[str, str]:
-    if e["kind"] == "indicator":
-        return f"fraction {_num(e['mean'], 3)}", "--"
-    if e["kind"] in ("upper_limit", "lower_limit"):
-        op = ("<" if e["kind"] == "upper_limit" else ">")
-        if latex:
-            scale, tail = _latex_scale(e["limit95"])
-            return f"${op} {_num(e['limit95'] / scale)}{tail}$", "95% limit"
-        return f"{op} {_num(e['limit95'])}", "95% limit"
-    m = e["mean"]
-    up, lo = e["upper68"] - m, m - e["lower68"]
-    if latex:
-        scale, tail = _latex_scale(m)
-        return (f"${_num(m / scale)}^{{+{_num(up / scale, 2)}}}_{{-{_num(lo / scale, 2)}}}"
-                f"{tail}$", f"$[{_num(e['lower95'] / scale)}, {_num(e['upper95'] / scale)}]"
-                f"{tail}$")
-    return f"{_num(m)} +{_num(up, 2)} -{_num(lo, 2)}", (
-        f"[{_num(e['lower95'])}, {_num(e['upper95'])}]")
-
-
 def marginal_markdown(stats: Sequence[dict[str, Any]], labels: dict[str, str],
                       roles: dict[str, str]) -> str:
-    lines = ["| parameter | role | mean ± 68% | 95% interval or limit | median | std |",
-             "|---|---|---|---|---|---|"]
+    lines = ["| parameter | role | median and 68% interval | 95% interval or limit | mean "
+             "| std |", "|---|---|---|---|---|---|"]
     for e in stats:
-        c68, c95 = _cell(e, latex=False)
-        if e["kind"] in ("upper_limit", "lower_limit"):
-            c68, c95 = "--", c68 + " (95%)"
+        c68, c95 = cells(e, latex=False)
         lines.append(f"| {e['name']} (${labels.get(e['name'], e['name'])}$) | "
-                     f"{roles.get(e['name'], '')} | {c68} | {c95} | {_num(e['median'])} | "
-                     f"{_num(e['std'], 3)} |")
+                     f"{roles.get(e['name'], '')} | {c68} | {c95} | {_num(e.get('mean'))} | "
+                     f"{_num(e.get('std'), 3)} |")
+    lines += ["", f"Intervals: {INTERVAL_DEFINITION}."]
     return "\n".join(lines) + "\n"
 
 
@@ -61,16 +39,14 @@ def marginal_latex(stats: Sequence[dict[str, Any]], labels: dict[str, str],
                    caption: str) -> str:
     rows = []
     for e in stats:
-        c68, c95 = _cell(e, latex=True)
-        if e["kind"] in ("upper_limit", "lower_limit"):
-            c68, c95 = "--", c68
+        c68, c95 = cells(e, latex=True)
         rows.append(f"${labels.get(e['name'], e['name'])}$ & {c68} & {c95} \\\\")
     body = "\n".join(rows)
     return (
         "\\begin{table}\n\\centering\n"
         f"\\caption{{{_latex_escape(caption)}}}\n"
         "\\begin{tabular}{lcc}\n\\hline\n"
-        "Parameter & Mean and 68\\% & 95\\% interval or limit \\\\\n\\hline\n"
+        "Parameter & Median and 68\\% & 95\\% interval or limit \\\\\n\\hline\n"
         f"{body}\n\\hline\n\\end{{tabular}}\n\\end{{table}}\n")
 
 
@@ -81,11 +57,26 @@ def _latex_escape(text: str) -> str:
     return text
 
 
+def outcome_text(f: dict[str, Any], what: str) -> str:
+    """The allowed fraction with its interval, then the other outcomes that occurred."""
+    fr = f["fractions"]
+    parts = [proportions.fraction_text(fr["allowed"], what)]
+    for o, name in (("excluded", "excluded"), ("undetermined", "undetermined (capped)"),
+                    ("not_evaluable", "not evaluable"),
+                    ("numerical_failure", "numerical failures"),
+                    ("model_error", "model errors")):
+        if f["counts"].get(o):
+            parts.append(f"{name}: {proportions.fraction_text(fr[o], what)}")
+    return "; ".join(parts)
+
+
 def verdicts_markdown(v: dict[str, Any]) -> str:
     """Human-readable verdicts of a run."""
     bf = v["best_fit"]
-    out = [f"# Verdicts: {v['run_name']} ({v['model']})", ""]
-    out.append(f"Constraint sets: {', '.join(v['constraint_sets'])}.")
+    out = [f"# Verdicts: {v['run_name']} ({v.get('model_title', v['model'])})", ""]
+    out.append(f"Model: {v['model']}. Constraint sets: "
+               + ", ".join(f"{s.get('label', s['name'])} ({s['name']})"
+                           for s in v["constraint_set_citations"]) + ".")
     run = v.get("run") or {}
     if run:
         tau = ", ".join(f"{k} {t:.1f}" for k, t in run.get("tau", {}).items())
@@ -99,28 +90,33 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
                    + ("" if run.get("tau_reliable", True) else
                       " (chain shorter than the chosen multiple of tau: estimates unreliable)")
                    + ".")
-    out.append("")
-    out.append(f"**Best fit** (highest likelihood among {v['samples_used']} posterior samples): "
-               f"chi2 = {_num(bf['chi2'])} for {bf['dof']} data points, p = "
-               f"{_num(bf['p_value'], 3)}, verdict **{bf['verdict']}**"
-               + (f" at {bf['excluded_at']:.1%}" if bf.get("excluded_at") else "") + ".")
-    out.append("")
-    pf = v["allowed_prior_fraction"]
-    out.append(f"**Prior volume allowed** (not excluded at 95% by the combined sets): "
-               f"{_num(pf['fraction_allowed'], 3)} of {pf['points']} prior draws"
-               + (f" ({pf['failed']} failed)" if pf["failed"] else "") + ".")
-    po = v["allowed_posterior_fraction"]
-    out.append(f"**Posterior samples allowed**: {_num(po['fraction_allowed'], 3)} of "
-               f"{po['points']}.")
-    out.append("")
-    out.append("## Marginal constraints")
-    for e in v["marginals"]:
-        from ..sampling.verdicts import format_interval
-
-        out.append(f"- {e['name']}: {format_interval(e)}")
-    if v.get("savage_dickey"):
+    for note in v.get("loading_notes", []):  # what reading the run folder had to drop
         out.append("")
-        out.append("## Nested settings (Savage-Dickey density ratio)")
+        out.append(f"Note: {note}.")
+    out += ["", "## Best fit", ""]
+    verdict = f"**{bf['verdict']}**" + (f" at {bf['excluded_at']:.1%}"
+                                        if bf.get("excluded_at") else "")
+    out.append(f"Highest likelihood among {v['samples_used']} posterior samples: "
+               f"{goodness.goodness_text(bf)}; verdict {verdict}.")
+    if bf.get("bound"):
+        out.append(f"The best-fit spectra are capped ({bf.get('cap')}): chi2 is a lower bound "
+                   "and p an upper bound.")
+    out += ["", "## How much of the model survives", ""]
+    out.append("**Prior volume allowed** (each prior draw one configuration, not excluded at "
+               "95% by the combined sets): "
+               + outcome_text(v["allowed_prior_fraction"], "prior draws") + ".")
+    out.append("")
+    out.append("**Posterior samples allowed**: "
+               + outcome_text(v["allowed_posterior_fraction"], "posterior samples") + ".")
+    ne = v.get("not_evaluable") or {}
+    edge = {(c["parameter"]) for c in ne.get("coincidences", []) if c["coincides"]}
+    out += ["", "## Marginal constraints", ""]
+    out.extend(f"- {e['name']}: {interval_text(e)}"
+               + (" -- coincides with a region where the model is not evaluable (below); "
+                  "not a data bound" if e["name"] in edge else "") for e in v["marginals"])
+    out += ["", f"Intervals: {INTERVAL_DEFINITION}."]
+    if v.get("savage_dickey"):
+        out += ["", "## Nested settings (Savage-Dickey density ratio)", ""]
         for name, sd in v["savage_dickey"].items():
             if sd.get("resolved", True) or "B01_upper_bound" not in sd:
                 out.append(f"- {name} = {sd['value']:g}: B01 = {_num(sd['B01'], 3)} (ln B01 = "
@@ -129,38 +125,71 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
                 out.append(f"- {name} = {sd['value']:g}: B01 < {_num(sd['B01_upper_bound'], 3)}"
                            " (the nested value lies beyond the posterior samples; the nested "
                            "model is disfavoured at least this strongly)")
+    if ne:
+        out += ["", "## Where the model is not evaluable", ""]
+        out.append("Prior volume where the model has no prediction the likelihood can score "
+                   "(outside its domain, spectra the pivot summary does not represent, numerical "
+                   "failures): " + proportions.fraction_text(ne["prior_fraction"], "prior draws")
+                   + ". These points are reported as not evaluable, never as excluded.")
+        rows = [c for c in ne.get("coincidences", []) if c["not_evaluable"]]
+        if rows:
+            out += ["", "| bound | posterior samples moved beyond it | not evaluable there | "
+                        "likelihood of the evaluable ones (relative) | coincides with the "
+                        "not-evaluable edge |", "|---|---|---|---|---|"]
+            out.extend(f"| {c['bound']} | {c['probes']} | "
+                       f"{proportions.fraction_text(c['fraction'], 'moved')} | "
+                       f"{_num(c.get('likelihood_ratio'), 2)} | "
+                       f"{'yes: not a data bound' if c['coincides'] else 'no'} |" for c in rows)
+            out.append("")
+        if ne.get("run_reasons"):
+            out.append("Evaluations the run could not use (failures.csv), with the prior "
+                       "fraction each reason covers in the run's prior survey:")
+            out.append("")
+            out.extend(f"- [{r['kind'].replace('_', ' ')}] {r['reason']}: {r['count']} during "
+                       f"the run; prior fraction "
+                       f"{proportions.fraction_text(r['prior_fraction'], 'survey draws')}"
+                       for r in ne["run_reasons"])
+            out.append("")
+        if not any(c["coincides"] for c in ne.get("coincidences", [])):
+            out.append("No bound of a sampled parameter coincides with a not-evaluable region.")
+        out.append(f"Rule: {ne['rule']}.")
     ev = v.get("evidence")
     if ev:
-        out.append("")
-        out.append(f"ln Z = {_num(ev['ln_Z'], 5)} ± {_num(ev['ln_Z_error'], 2)} "
-                   f"({ev['method']}; likelihood normalised as -chi2/2)")
+        out += ["", "## Evidence", ""]
+        out.append(f"{E.evidence_text(ev)}; {ev['method']}; likelihood normalised as "
+                   f"-chi2/2. Rule: {E.RELIABILITY_RULE}.")
     if v.get("comparisons"):
-        out.append("")
-        out.append("## Discrete settings (other runs)")
-        for c in v["comparisons"]:
-            out.append(f"- {c['run']} vs {c['against']}: delta chi2_min = "
-                       f"{_num(c['delta_chi2_min'], 3)}, ln(Z1/Z2) = "
-                       f"{_num(c['ln_evidence_ratio'], 3)} ± "
-                       f"{_num(c['ln_evidence_ratio_error'], 2)} ({c['interpretation']})")
-    out.append("")
-    out.append("## Which constraint set excludes it")
-    out.append("")
-    out.append("| set | forecast | best-fit chi2 | best-fit verdict | posterior fraction "
-               "excluded (95%) | source |")
+        out += ["", "## Discrete settings (other runs)", ""]
+        out.extend(f"- {E.comparison_text(c)}" for c in v["comparisons"])
+    out += ["", "## Which constraint set excludes it", ""]
+    out.append("| set | forecast | best-fit chi2 (dof) | best-fit verdict | posterior samples "
+               "excluded at 95% | source |")
     out.append("|---|---|---|---|---|---|")
     for r in v["by_set"]:
         verdict = r["best_fit_verdict"] + (f" ({r['best_fit_excluded_at']:.1%})"
                                            if r.get("best_fit_excluded_at") else "")
-        out.append(f"| {r['set']} | {'yes' if r['forecast'] else 'no'} | "
-                   f"{_num(r['best_fit_chi2'], 3)} | {verdict} | "
-                   f"{_num(r['posterior_fraction_excluded_95'], 3)} | arXiv:{r['arxiv']} |")
-    out.append("")
-    out.append(v["verdict_rule"])
-    out.append("")
-    out.append("Upper limits are treated as half-Gaussians in r >= 0 whose 95% point is the "
-               "published limit (an approximation; see each set's file).")
-    if v.get("failures"):
-        out.append("")
-        out.append("Failed forward-model evaluations during the run (log-likelihood -inf):")
+        chi2 = ("> " if r.get("best_fit_bound") else "") + _num(r["best_fit_chi2"], 3)
+        excl = r.get("posterior_excluded")
+        frac = (proportions.fraction_text(excl, "scored") if excl
+                else _num(r["posterior_fraction_excluded_95"], 3))
+        if r.get("samples_not_scored"):
+            frac += f"; {r['samples_not_scored']} not evaluable"
+        out.append(f"| {r.get('label', r['set'])} ({r['set']}) | "
+                   f"{'yes' if r['forecast'] else 'no'} | {chi2} ({r.get('best_fit_dof', '')}) "
+                   f"| {verdict} | {frac} | arXiv:{r['arxiv']} |")
+    out += ["", "## Rules", ""]
+    out.append(f"- {v['verdict_rule']}.")
+    for name, rule in v.get("p_value_rules", goodness.P_VALUE_RULES).items():
+        out.append(f"- p-value, {name.replace('_', ' ')}: {rule}. The table above scores the "
+                   "best fit against each set alone as one configuration."
+                   if name == "one_configuration" else
+                   f"- p-value, {name.replace('_', ' ')}: {rule}.")
+    out.append(f"- Fractions: {proportions.FRACTION_RULE}; a point the model cannot evaluate "
+               "is counted as not evaluable, never as excluded.")
+    out.append("- Upper limits on r are treated as half-Gaussians in r >= 0 whose 95% point is "
+               "the published limit (an approximation; see each set's file).")
+    if v.get("failures") and not ne.get("run_reasons"):
+        out += ["", "Evaluations the run could not use (log-likelihood -inf, no posterior "
+                "weight):"]
         out.extend(f"- {n} x {t}" for t, n in v["failures"].items())
     return "\n".join(out) + "\n"

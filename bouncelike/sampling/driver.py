@@ -1,150 +1,60 @@
-"""Posterior sampling with emcee: start, checkpoint, resume, converge, report.
+"""The sampling loop: start or resume a posterior run, advance emcee, checkpoint, stop.
 
-The driver only loops: it places walkers inside the prior support, advances emcee's ensemble
-sampler in chunks of ``checkpoint_every`` steps, and after each chunk writes a checkpoint
-(:mod:`bouncelike.sampling.chains`) and checks convergence by the integrated autocorrelation
-time tau:
-
-* converged when the chain is longer than ``tau_multiple`` x tau for every parameter and tau
-  changed by less than ``tau_tolerance`` (relative) since the previous check (the criterion of
-  the emcee documentation, "Autocorrelation analysis & convergence"; common practice);
-* burn-in = 2 max(tau) steps, thinning = max(1, min(tau) / 2) (common practice, same source);
-* effective sample size per parameter = walkers x (steps - burn-in) / tau.
+The loop only loops. It places walkers inside the prior support, advances emcee's ensemble
+sampler in chunks of ``checkpoint_every`` steps into a :class:`~bouncelike.sampling.storage.
+RunBackend` (which appends to the run folder's files at each checkpoint), and checks
+convergence (:mod:`bouncelike.sampling.convergence`) every ``checkpoint_every`` steps.
 
 Reproducibility: walkers start from a ``numpy.random.Generator`` seeded with ``seed``; emcee's
-own ``RandomState`` is seeded from it and its full state is stored at every checkpoint together
-with the walkers' positions, log-probabilities and blobs. A resumed run (after any
-interruption, SIGKILL included) therefore continues with exactly the numbers an uninterrupted
-run would have drawn, and ends bit-identical to it. The convergence test runs at the same
-steps in both, so they stop at the same step.
+own ``RandomState`` is seeded from it and stored with every checkpoint, so a resumed run
+(after any interruption, SIGKILL included) ends bit-identical to an uninterrupted one.
 
-The likelihood is evaluated through any pool with an ordered ``map``
-(:func:`bouncelike.parallel.make_pool`): serial, local processes or MPI ranks; results do not
-depend on the pool. A forward model that fails numerically gives log-likelihood -inf; the
-reason is counted (every evaluation, accepted or not) and reported.
+Before placing the walkers a new run evaluates ``prior_survey_draws`` draws from the prior
+(their own random stream, so the chain does not depend on them): the failures among them give
+the prior fraction each failure reason covers (:mod:`bouncelike.sampling.failures`).
+
+Ctrl-C (SIGINT) during the loop finishes the current step, writes a checkpoint and stops with
+:class:`~bouncelike.errors.RunInterrupted` (resume with ``--resume``); a second Ctrl-C stops
+at once (the last checkpoint stays valid). The likelihood runs through any pool with an ordered
+``map`` (:func:`bouncelike.parallel.make_pool`); results do not depend on the pool.
 """
 
 from __future__ import annotations
 
+import contextlib
 import math
-import re
+import signal
+import threading
 import time
-import zlib
-from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
-from ..errors import InputError, NumericalFailure
-from ..io import write_text_atomic
+from ..errors import InputError, RunInterrupted
+from ..io import clean_orphans
 from ..progress import progress
 from . import chains
-from .priors import Prior
+from .convergence import (
+    RunResult,
+    autocorrelation_time,
+    burn_in_and_thinning,
+    converged,
+    result_summary,
+)
+from .failures import NOT_REPRESENTED, FailureTally, RecordingPool, load_failures
+from .lock import RunLock
+from .posterior import Posterior, pool_target
+from .storage import RunBackend, has_checkpoint
 
-#: Exceptions of a forward model that count as a failed evaluation (log-likelihood -inf).
-FAILURES = (NumericalFailure, ArithmeticError, ValueError)
-_NUMBER = re.compile(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?")
-
-
-def failure_text(exc: BaseException) -> str:
-    """A reason that groups failures of one kind: the message with numbers replaced by #."""
-    return _NUMBER.sub("#", f"{type(exc).__name__}: {exc}")[:200]
-
-
-def failure_code(text: str) -> float:
-    """A stable non-zero integer (exact in a float64 blob) identifying a failure reason."""
-    return float((zlib.crc32(text.encode()) & 0x7FFFFFFF) or 1)
-
-
-NONFINITE = "non-finite log-likelihood"
-NOT_REPRESENTED = ("spectrum not represented by the pivot summary (the cubic in ln k fitted "
-                   "around a pivot misses ln P by more than the likelihood's tolerance): not "
-                   "scored")
-
-
-class Posterior:
-    """log posterior = log prior + log likelihood of a parameter dict, with derived numbers.
-
-    Parameters
-    ----------
-    prior : :class:`~bouncelike.sampling.priors.Prior`
-    log_likelihood : callable(params: dict) -> float (picklable: module-level or an object)
-    derived : callable(params: dict) -> dict, optional; the entries named by the prior's
-        derived parameters are stored with the samples.
-
-    Calling it with a point ``theta`` of the sampled parameters returns the tuple emcee wants:
-    ``(log_posterior, log_likelihood, *derived, failure_code)``; the blobs are floats.
-    """
-
-    def __init__(self, prior: Prior, log_likelihood: Callable[[dict], float],
-                 derived: Callable[[dict], dict] | None = None):
-        self.prior = prior
-        self.log_likelihood = log_likelihood
-        self.derived = derived
-        self.derived_names = prior.derived_names
-
-    @property
-    def blob_names(self) -> tuple[str, ...]:
-        return ("log_likelihood", *self.derived_names, "failure")
-
-    def evaluate(self, params: dict[str, float]) -> tuple[float, dict[str, float]]:
-        ll = float(self.log_likelihood(params))
-        der = self.derived(params) if (self.derived and self.derived_names) else {}
-        return ll, der
-
-    def __call__(self, theta: np.ndarray) -> tuple[float, ...]:
-        nan_derived = (math.nan,) * len(self.derived_names)
-        lp = self.prior.log_prior(theta)
-        if not math.isfinite(lp):
-            return (-math.inf, math.nan, *nan_derived, 0.0)
-        try:
-            ll, der = self.evaluate(self.prior.full_parameters(theta))
-        except FAILURES as exc:
-            return (-math.inf, math.nan, *nan_derived, failure_code(failure_text(exc)))
-        if not math.isfinite(ll):
-            if ll == -math.inf:
-                return (-math.inf, ll, *nan_derived, failure_code(NONFINITE))
-            return (-math.inf, math.nan, *nan_derived, failure_code(NONFINITE))
-        return (lp + ll, ll, *(float(der.get(n, math.nan)) for n in self.derived_names), 0.0)
-
-    def failure_reason(self, theta: np.ndarray) -> str:
-        """Re-evaluate a failed point to recover the text of its failure."""
-        try:
-            ll, _ = self.evaluate(self.prior.full_parameters(theta))
-        except FAILURES as exc:
-            return failure_text(exc)
-        return NONFINITE if not math.isfinite(ll) else "failure not reproduced"
-
-
-class ModelPosterior(Posterior):
-    """Posterior of a parametric model (:mod:`bouncelike.sampling.parametric`) scored by a
-    likelihood object with ``.log_likelihood(spectra)`` (:mod:`bouncelike.likelihood`).
-
-    ``require_summary_fit``: the Gaussian likelihood scores the amplitude, tilt, running and r
-    of a cubic in ln k fitted around each pivot. A featured spectrum (bounce features in the
-    window) that this cubic does not represent within the likelihood's tolerance cannot be
-    scored faithfully; with this flag such a point gets log-likelihood -inf and its reason is
-    counted ("not represented by the pivot summary"), instead of a verdict computed from
-    numbers that do not describe it. Spectra with an exact re-expansion (power laws) always
-    pass.
-    """
-
-    def __init__(self, prior: Prior, model: Any, likelihood: Any,
-                 require_summary_fit: bool = True):
-        self.model = model
-        self.likelihood = likelihood
-        self.require_summary_fit = require_summary_fit
-        super().__init__(prior, self._log_likelihood, model.derived)
-
-    def _log_likelihood(self, params: dict[str, float]) -> float:
-        spectra = self.model.spectra(params)
-        if self.require_summary_fit and not hasattr(spectra, "summary_at"):
-            for s in self.likelihood.summaries(spectra):
-                if not s.fit_ok:
-                    raise NumericalFailure(NOT_REPRESENTED)
-        return self.likelihood.log_likelihood(spectra)
+#: Upper bounds of the sampler's sizes (the memory of the chain held while running and the
+#: size of chain.csv grow with walkers x steps).
+MAX_WALKERS = 4096
+MAX_STEPS = 1_000_000
+MAX_CHAIN_ROWS = 50_000_000
+MAX_SURVEY_DRAWS = 100_000
+_META = ("tau_history", "tau_steps", "fingerprint", "finished", "evaluations", "survey_draws")
 
 
 @dataclass(frozen=True)
@@ -158,6 +68,22 @@ class SamplerSettings:
     tau_tolerance: float = 0.05
     checkpoint_every: int = 100
     seed: int = 0
+    prior_survey_draws: int = 200
+
+    def __post_init__(self) -> None:
+        for key, value, lo, hi in (("walkers", self.walkers, 2, MAX_WALKERS),
+                                   ("max_steps", self.max_steps, 1, MAX_STEPS),
+                                   ("checkpoint_every", self.checkpoint_every, 1, MAX_STEPS),
+                                   ("prior_survey_draws", self.prior_survey_draws, 0,
+                                    MAX_SURVEY_DRAWS)):
+            if not lo <= value <= hi:
+                raise InputError(f"'sampling.{key}' = {value} is out of range; allowed: "
+                                 f">= {lo} and <= {hi}")
+        if self.walkers * self.max_steps > MAX_CHAIN_ROWS:
+            raise InputError(
+                f"'sampling.walkers' x 'sampling.max_steps' = {self.walkers} x "
+                f"{self.max_steps} is out of range; allowed: at most {MAX_CHAIN_ROWS:.0e} "
+                "chain rows (the chain is held in memory while running)")
 
     def fingerprint_items(self) -> dict[str, Any]:
         """Settings that change the chain (max_steps is excluded: a run may be extended)."""
@@ -166,317 +92,222 @@ class SamplerSettings:
                 "checkpoint_every": self.checkpoint_every, "seed": self.seed}
 
 
-@dataclass
-class RunResult:
-    folder: Path
-    status: str
-    steps: int
-    converged: bool
-    tau: np.ndarray
-    burn_in: int
-    thin: int
-    ess: np.ndarray
-    acceptance: float
-    failures: dict[str, int]
-    names: tuple[str, ...]
-    blob_names: tuple[str, ...]
-    wall_time: float
-    evaluations: int = 0
-    summary: dict[str, Any] = field(default_factory=dict)
+class InterruptRequest:
+    """Ctrl-C as a request: the loop finishes its step and checkpoints; twice stops at once."""
 
+    def __init__(self) -> None:
+        self.requested = False
+        self._previous: Any = None
 
-_INSTALLED: list[Posterior] = []
+    def _handle(self, signum: int, frame: Any) -> None:
+        if self.requested:
+            raise KeyboardInterrupt
+        self.requested = True
 
+    def __enter__(self) -> InterruptRequest:
+        if threading.current_thread() is threading.main_thread():
+            self._previous = signal.signal(signal.SIGINT, self._handle)
+        return self
 
-def install_posterior(posterior: Posterior) -> None:
-    """Make ``posterior`` the process-wide target before worker processes or MPI ranks start.
-
-    Forked workers (and MPI ranks, which run the same program) then hold it already, and each
-    task sends only the point, not the pickled posterior: this is what makes a process pool
-    pay off for millisecond likelihoods. Call it before :func:`bouncelike.parallel.make_pool`.
-    """
-    _INSTALLED[:] = [posterior]
-
-
-def _installed_log_posterior(theta: np.ndarray) -> tuple[float, ...]:
-    if not _INSTALLED:
-        raise RuntimeError("install_posterior() must run before the worker pool is created")
-    return _INSTALLED[0](theta)
-
-
-class CountingPool:
-    """Wraps a pool's ``map`` to count failure reasons of every evaluation (accepted or not)."""
-
-    def __init__(self, pool: Any, posterior: Posterior, codes: dict[float, int],
-                 texts: dict[float, str]):
-        self.pool = pool
-        self.posterior = posterior
-        self.codes = codes
-        self.texts = texts
-        self.evaluations = 0
-
-    def map(self, func: Callable, tasks: Any) -> list:
-        tasks = list(tasks)
-        results = list(self.pool.map(func, tasks)) if self.pool is not None else [
-            func(t) for t in tasks]
-        self.evaluations += len(tasks)
-        for theta, res in zip(tasks, results, strict=False):
-            code = float(res[-1])
-            if code != 0.0:
-                self.codes[code] = self.codes.get(code, 0) + 1
-                if code not in self.texts:
-                    self.texts[code] = self.posterior.failure_reason(np.asarray(theta))
-        return results
-
-
-def _target(posterior: Posterior) -> Any:
-    """The function handed to the pool: the installed one when ``posterior`` is installed."""
-    return _installed_log_posterior if _INSTALLED and _INSTALLED[0] is posterior else posterior
-
-
-def _evaluate(pool: CountingPool, posterior: Posterior, points: np.ndarray
-              ) -> tuple[np.ndarray, np.ndarray]:
-    results = pool.map(_target(posterior), [np.array(p) for p in points])
-    lp = np.array([r[0] for r in results], dtype=float)
-    blobs = np.array([r[1:] for r in results], dtype=float)
-    return lp, blobs
-
-
-def autocorrelation_time(coords: np.ndarray) -> np.ndarray:
-    """Integrated autocorrelation time per parameter of a (steps, walkers, ndim) chain
-    (emcee's estimator, window constant c = 5)."""
-    import emcee
-
-    return np.asarray(emcee.autocorr.integrated_time(coords, c=5, tol=0, quiet=True))
+    def __exit__(self, *exc: object) -> None:
+        if self._previous is not None:
+            signal.signal(signal.SIGINT, self._previous)
 
 
 def run_sampler(posterior: Posterior, settings: SamplerSettings, folder: str | Path, *,
                 pool: Any = None, resume: bool = False, manifest: dict[str, Any] | None = None,
                 fingerprint: str = "", show_progress: bool = True,
-                stop_after: int | None = None) -> RunResult:
+                stop_after: int | None = None, elsewhere: str = "choose another run folder"
+                ) -> RunResult:
     """Run (or resume) a posterior run writing into ``folder``.
 
     ``stop_after``: stop (as if interrupted) once this many steps exist in the chain; for
-    tests of resumption. Raises :class:`InputError` when the folder is locked by a live run,
-    holds a chain and ``resume`` is False, or holds a chain of another configuration.
+    tests of resumption. ``elsewhere`` ends refusals with the way to run somewhere else.
+    Raises :class:`InputError` when the folder is locked by a live run, holds a chain and
+    ``resume`` is False, or holds a chain of another configuration; a refused run leaves no
+    folder behind.
     """
+    folder = Path(folder)
+    if settings.walkers < 2 * posterior.prior.ndim:
+        raise InputError(f"'sampling.walkers' = {settings.walkers} is too small; allowed: >= "
+                         f"2 x (number of sampled parameters) = {2 * posterior.prior.ndim}")
+    created = [p for p in (folder, *folder.parents) if not p.exists()]
+    try:
+        with RunLock(folder, elsewhere), InterruptRequest() as interrupt:
+            return _run_locked(posterior, settings, folder, pool, resume, dict(manifest or {}),
+                               fingerprint, show_progress, stop_after, elsewhere, interrupt)
+    except BaseException:
+        for p in created:  # deepest first; only folders left empty (a refused start)
+            with contextlib.suppress(OSError):
+                p.rmdir()
+        raise
+
+
+def _run_locked(posterior: Posterior, settings: SamplerSettings, folder: Path, pool: Any,
+                resume: bool, manifest: dict[str, Any], fingerprint: str, show_progress: bool,
+                stop_after: int | None, elsewhere: str, interrupt: InterruptRequest
+                ) -> RunResult:
     import emcee
 
-    folder = Path(folder)
-    prior = posterior.prior
-    ndim = prior.ndim
-    if settings.walkers < 2 * ndim:
-        raise InputError(f"'sampling.walkers' = {settings.walkers} is too small; allowed: >= "
-                         f"2 x (number of sampled parameters) = {2 * ndim}")
-    manifest = dict(manifest or {})
     t0 = time.perf_counter()
-    with chains.RunLock(folder):
-        codes: dict[float, int] = {}
-        texts: dict[float, str] = {}
-        ckpt = chains.Checkpoint.load(folder) if chains.has_checkpoint(folder) else None
-        if ckpt is not None and not resume:
+    names, bnames = posterior.prior.sampled_names, posterior.blob_names
+    clean_orphans(folder)  # temporary files of a writer killed mid-write
+    tally = FailureTally()
+    if has_checkpoint(folder):
+        if not resume:
             raise InputError(f"run folder '{folder}' already holds a chain; pass --resume to "
-                             "continue it or choose another sampling.run_name")
-        if ckpt is not None and fingerprint and ckpt.fingerprint != fingerprint:
+                             f"continue it, or {elsewhere}")
+        backend = RunBackend.open(folder, names, bnames, _META, elsewhere)
+        if fingerprint and str(backend.meta["fingerprint"]) != fingerprint:
             raise InputError(f"run folder '{folder}' holds a chain of a different "
                              "configuration; --resume needs the same prior, model, likelihood "
-                             "and sampling settings (max_steps and workers may change)")
-        if ckpt is not None:
-            for c, n, t in zip(ckpt.failure_codes, ckpt.failure_counts, ckpt.failure_texts,
-                               strict=True):
-                codes[float(c)] = int(n)
-                texts[float(c)] = str(t)
-        cpool = CountingPool(pool, posterior, codes, texts)
-        sampler = emcee.EnsembleSampler(settings.walkers, ndim, _target(posterior), pool=cpool)
-        if ckpt is None:
-            ckpt = _fresh_start(posterior, settings, cpool, sampler, fingerprint)
-        state = emcee.State(ckpt.state_coords.copy(), log_prob=ckpt.state_log_prob.copy(),
-                            blobs=ckpt.state_blobs.copy(), random_state=ckpt.random_state)
-        coords_parts = [ckpt.coords]
-        lp_parts = [ckpt.log_prob]
-        blob_parts = [ckpt.blobs]
-        steps = ckpt.steps
-        accepted = ckpt.accepted.copy()
-        tau_hist = list(ckpt.tau_history)
-        tau_steps = list(ckpt.tau_steps)
-        converged = _converged(steps, tau_hist, settings) if tau_hist else False
-        limit = settings.max_steps if stop_after is None else min(settings.max_steps, stop_after)
-        bar = progress(total=settings.max_steps, desc=f"sampling {folder}",
-                       enabled=show_progress)
-        bar.update(steps)
-        text = _ChainText(prior.sampled_names, posterior.blob_names)
-        wrote = False
-        try:
-            while steps < limit and not converged:
-                wrote = True
-                n = min(settings.checkpoint_every - steps % settings.checkpoint_every,
-                        limit - steps)
-                c_new = np.empty((n, settings.walkers, ndim))
-                lp_new = np.empty((n, settings.walkers))
-                b_new = np.empty((n, settings.walkers, len(posterior.blob_names)))
-                prev = state.coords.copy()
-                for i, st in enumerate(sampler.sample(state, iterations=n, store=False,
-                                                      skip_initial_state_check=True)):
-                    c_new[i], lp_new[i], b_new[i] = st.coords, st.log_prob, st.blobs
-                    accepted += np.any(st.coords != prev, axis=1)
-                    prev = st.coords.copy()
-                    bar.update(1)
-                state = st
-                coords_parts.append(c_new)
-                lp_parts.append(lp_new)
-                blob_parts.append(b_new)
-                steps += n
-                if steps % settings.checkpoint_every == 0 or steps == settings.max_steps:
-                    coords_all = np.concatenate(coords_parts)
-                    coords_parts = [coords_all]
-                    tau_hist.append(autocorrelation_time(coords_all))
-                    tau_steps.append(steps)
-                    converged = _converged(steps, tau_hist, settings)
-                lp_all, b_all = np.concatenate(lp_parts), np.concatenate(blob_parts)
-                coords_all = np.concatenate(coords_parts)
-                coords_parts, lp_parts, blob_parts = [coords_all], [lp_all], [b_all]
-                finished = converged or steps >= settings.max_steps
-                ckpt = chains.Checkpoint(
-                    coords=coords_all, log_prob=lp_all, blobs=b_all,
-                    state_coords=state.coords, state_log_prob=state.log_prob,
-                    state_blobs=np.asarray(state.blobs, dtype=float),
-                    random_state=sampler.random_state, accepted=accepted,
-                    failure_codes=np.array(list(codes), dtype=np.int64),
-                    failure_counts=np.array(list(codes.values()), dtype=np.int64),
-                    failure_texts=np.array([texts[c] for c in codes], dtype=str),
-                    tau_history=np.array(tau_hist).reshape(-1, ndim),
-                    tau_steps=np.array(tau_steps, dtype=np.int64),
-                    fingerprint=fingerprint, finished=finished)
-                result = _result(folder, ckpt, posterior, settings, converged, t0,
-                                 cpool.evaluations)
-                _write(folder, ckpt, posterior, result, settings, manifest, final=finished,
-                       text=text)
-        finally:
-            bar.close()
-        if ckpt.steps == 0:
-            raise InputError("'sampling.max_steps' must be > 0")
-        result = _result(folder, ckpt, posterior, settings, converged, t0, cpool.evaluations)
-        if not wrote:  # nothing to add: refresh the manifest (e.g. a new [report] section)
-            _write(folder, ckpt, posterior, result, settings, manifest,
-                   final=converged or steps >= settings.max_steps, text=text)
-        return result
+                             f"and sampling settings (max_steps and workers may change), or "
+                             f"{elsewhere}")
+        tally.add_frame(load_failures(folder))
+        recorder = RecordingPool(pool, int(backend.meta["evaluations"]))
+    else:
+        recorder = RecordingPool(pool)
+        backend = _fresh_start(posterior, settings, folder, recorder, pool, fingerprint, tally)
+    target = pool_target(pool, posterior)
+    meta = backend.meta
+    tau_hist = [np.asarray(t) for t in meta["tau_history"]]
+    tau_steps = [int(s) for s in meta["tau_steps"]]
+    steps = backend.iteration
+    done = bool(tau_hist) and converged(steps, tau_hist, settings.min_steps,
+                                        settings.tau_multiple, settings.tau_tolerance)
+    limit = settings.max_steps if stop_after is None else min(settings.max_steps, stop_after)
+    sampler = emcee.EnsembleSampler(settings.walkers, posterior.prior.ndim, target,
+                                    pool=recorder, backend=backend)
+    bar = progress(total=settings.max_steps, desc=f"sampling {folder}", enabled=show_progress)
+    bar.update(steps)
+    wrote = False
+    try:
+        while steps < limit and not done and not interrupt.requested:
+            wrote = True
+            n = min(settings.checkpoint_every - steps % settings.checkpoint_every,
+                    limit - steps)
+            recorder.stage, recorder.step = "sampling", steps + 1
+            for _ in sampler.sample(backend.initial_state(), iterations=n,
+                                    skip_initial_state_check=True):
+                steps += 1
+                recorder.step = steps + 1
+                bar.update(1)
+                if interrupt.requested:
+                    break
+            if steps % settings.checkpoint_every == 0 or steps == settings.max_steps:
+                tau_hist.append(autocorrelation_time(backend.get_chain()))
+                tau_steps.append(steps)
+                done = converged(steps, tau_hist, settings.min_steps, settings.tau_multiple,
+                                 settings.tau_tolerance)
+            rows = recorder.take()
+            tally.add(rows)
+            meta = _meta(tau_hist, tau_steps, fingerprint, done or steps >= settings.max_steps,
+                         recorder.evaluations, int(meta["survey_draws"]), posterior.prior.ndim)
+            backend.checkpoint(rows, meta)
+            result = _result(folder, backend, posterior, settings, done, t0, recorder, tally)
+            _write_outputs(folder, backend, result, manifest, bool(meta["finished"]))
+    finally:
+        bar.close()
+    result = _result(folder, backend, posterior, settings, done, t0, recorder, tally)
+    if not wrote:  # nothing to add: refresh the manifest (e.g. a new [report] section)
+        _write_outputs(folder, backend, result, manifest, bool(meta["finished"]))
+    if interrupt.requested and not bool(meta["finished"]):
+        raise RunInterrupted(f"stopped after step {steps} with a checkpoint in '{folder}'; "
+                             "continue the run with --resume")
+    return result
 
 
-def _fresh_start(posterior: Posterior, settings: SamplerSettings, cpool: CountingPool,
-                 sampler: Any, fingerprint: str) -> chains.Checkpoint:
+def _meta(tau_hist: list, tau_steps: list, fingerprint: str, finished: bool, evaluations: int,
+          survey_draws: int, ndim: int) -> dict[str, Any]:
+    return {"tau_history": np.array(tau_hist, dtype=float).reshape(-1, ndim),
+            "tau_steps": np.array(tau_steps, dtype=np.int64),
+            "fingerprint": np.array(fingerprint), "finished": np.array(finished),
+            "evaluations": np.array(evaluations, dtype=np.int64),
+            "survey_draws": np.array(survey_draws, dtype=np.int64)}
+
+
+def _fresh_start(posterior: Posterior, settings: SamplerSettings, folder: Path,
+                 recorder: RecordingPool, pool: Any, fingerprint: str,
+                 tally: FailureTally) -> RunBackend:
+    """Survey the prior, place the walkers where the posterior is non-zero, first checkpoint."""
     prior = posterior.prior
+    target = pool_target(pool, posterior)
+    n_survey = settings.prior_survey_draws
+    if n_survey:
+        recorder.stage, recorder.step = "prior_survey", 0
+        recorder.map(target, list(prior.draw(np.random.default_rng([settings.seed, 1]),
+                                             n_survey)))
+    recorder.stage = "placement"
     rng = np.random.default_rng(settings.seed)
     p0 = prior.initial_walkers(rng, settings.walkers)
-    lp, blobs = _evaluate(cpool, posterior, p0)
+    lp, blobs = _evaluate(recorder, target, p0)
     for _ in range(50):
         bad = ~np.isfinite(lp)
         if not bad.any():
             break
         p0[bad] = prior.draw(rng, int(bad.sum()))
-        lp[bad], blobs[bad] = _evaluate(cpool, posterior, p0[bad])
+        lp[bad], blobs[bad] = _evaluate(recorder, target, p0[bad])
     if not np.all(np.isfinite(lp)):
-        reasons = "; ".join(sorted(set(cpool.texts.values()))) or "zero posterior density"
+        reasons = sorted({f"{r.failure.reason} ({r.failure.kind})" for r in recorder.pending()
+                          if r.stage == "placement"})
+        text = "; ".join(reasons) or "zero posterior density"
         hint = (" or set sampling.require_summary_fit = false to score featured spectra by "
-                "their pivot summary anyway" if NOT_REPRESENTED in reasons else "")
+                "their pivot summary anyway" if NOT_REPRESENTED in text else "")
         raise InputError(f"could not place {int((~np.isfinite(lp)).sum())} walkers where the "
-                         f"posterior is non-zero after 50 draws from the prior ({reasons}); "
+                         f"posterior is non-zero after 50 draws from the prior ({text}); "
                          f"check the prior ranges{hint}")
     seed32 = int(rng.integers(0, 2**32 - 1))
-    ndim, nb = prior.ndim, len(posterior.blob_names)
-    return chains.Checkpoint(
-        coords=np.empty((0, settings.walkers, ndim)), log_prob=np.empty((0, settings.walkers)),
-        blobs=np.empty((0, settings.walkers, nb)), state_coords=p0, state_log_prob=lp,
-        state_blobs=blobs, random_state=np.random.RandomState(seed32).get_state(),
-        accepted=np.zeros(settings.walkers, dtype=np.int64),
-        failure_codes=np.zeros(0, np.int64), failure_counts=np.zeros(0, np.int64),
-        failure_texts=np.zeros(0, str), tau_history=np.empty((0, ndim)),
-        tau_steps=np.zeros(0, np.int64), fingerprint=fingerprint)
+    rows = recorder.take()
+    tally.add(rows)
+    meta = _meta([], [], fingerprint, False, recorder.evaluations, n_survey, prior.ndim)
+    return RunBackend.create(folder, prior.sampled_names, posterior.blob_names, p0, lp, blobs,
+                             np.random.RandomState(seed32).get_state(), rows, meta)
 
 
-def _converged(steps: int, tau_hist: list, s: SamplerSettings) -> bool:
-    if steps < s.min_steps or len(tau_hist) < 2:
-        return False
-    tau, prev = np.asarray(tau_hist[-1]), np.asarray(tau_hist[-2])
-    if not np.all(np.isfinite(tau)):
-        return False
-    return bool(np.all(steps > s.tau_multiple * tau)
-                and np.all(np.abs(tau - prev) / tau < s.tau_tolerance))
+def _evaluate(recorder: RecordingPool, target: Any, points: np.ndarray
+              ) -> tuple[np.ndarray, np.ndarray]:
+    results = recorder.map(target, [np.array(p) for p in points])
+    return (np.array([r[0] for r in results], dtype=float),
+            np.array([r[1:] for r in results], dtype=float))
 
 
-def _result(folder: Path, ckpt: chains.Checkpoint, posterior: Posterior, s: SamplerSettings,
-            converged: bool, t0: float, evaluations: int) -> RunResult:
-    steps = ckpt.steps
-    tau = ckpt.tau_history[-1] if len(ckpt.tau_history) else np.full(posterior.prior.ndim,
-                                                                       np.nan)
-    if np.all(np.isfinite(tau)) and tau.size:
-        burn = int(min(math.ceil(2 * np.max(tau)), steps // 2))
-        thin = max(1, int(0.5 * np.min(tau)))
-        ess = s.walkers * (steps - burn) / tau
-    else:
-        burn, thin, ess = steps // 2, 1, np.full_like(tau, np.nan)
-    acceptance = float(np.mean(ckpt.accepted) / steps) if steps else math.nan
-    status = "converged" if converged else (
+def _result(folder: Path, backend: RunBackend, posterior: Posterior, s: SamplerSettings,
+            done: bool, t0: float, recorder: RecordingPool, tally: FailureTally) -> RunResult:
+    steps = backend.iteration
+    hist = backend.meta["tau_history"]
+    tau = np.asarray(hist[-1]) if len(hist) else np.full(posterior.prior.ndim, np.nan)
+    burn, thin, ess = burn_in_and_thinning(tau, steps, s.walkers)
+    acceptance = float(np.mean(backend.accepted) / steps) if steps else math.nan
+    status = "converged" if done else (
         "max_steps_reached" if steps >= s.max_steps else "running")
-    failures = {str(t): int(n)
-                for t, n in zip(ckpt.failure_texts, ckpt.failure_counts, strict=True)}
-    return RunResult(folder=folder, status=status, steps=steps, converged=converged, tau=tau,
-                     burn_in=burn, thin=thin, ess=ess, acceptance=acceptance,
-                     failures=failures, names=posterior.prior.sampled_names,
-                     blob_names=posterior.blob_names, wall_time=time.perf_counter() - t0,
-                     evaluations=evaluations)
+    return RunResult(folder=folder, status=status, steps=steps, walkers=s.walkers,
+                     converged=done, tau=tau, burn_in=burn, thin=thin, ess=ess,
+                     acceptance=acceptance, failures=tally.by_reason(),
+                     names=posterior.prior.sampled_names, blob_names=posterior.blob_names,
+                     wall_time=time.perf_counter() - t0, evaluations=recorder.evaluations,
+                     tau_multiple=s.tau_multiple,
+                     failure_summary=tally.summary(int(backend.meta["survey_draws"])))
 
 
-def result_summary(r: RunResult, s: SamplerSettings) -> dict[str, Any]:
-    """The convergence figures stored in the manifest and printed by the commands."""
-    reliable = bool(np.all(np.isfinite(r.tau)) and r.steps > s.tau_multiple * np.max(r.tau))
-    return {
-        "status": r.status, "steps": r.steps, "walkers": s.walkers,
-        "converged": r.converged, "burn_in": r.burn_in, "thin": r.thin,
-        "tau": dict(zip(r.names, map(float, r.tau), strict=False)),
-        "tau_reliable": reliable,
-        "effective_sample_size": dict(zip(r.names, map(float, r.ess), strict=False)),
-        "acceptance_fraction": r.acceptance,
-        "failures": r.failures,
-        "failed_evaluations": int(sum(r.failures.values())),
-    }
+def _write_outputs(folder: Path, backend: RunBackend, result: RunResult,
+                   manifest: dict[str, Any], final: bool) -> None:
+    """The manifest (and, when the run is over, samples.csv) after a checkpoint."""
+    from ..io import write_text_atomic
 
-
-class _ChainText:
-    """chain.csv text kept in memory: each checkpoint formats only its new rows."""
-
-    def __init__(self, names: tuple[str, ...], blob_names: tuple[str, ...]):
-        self.header = chains.csv_header(names, blob_names)
-        self.parts: list[str] = []
-        self.steps = 0
-
-    def update(self, ckpt: chains.Checkpoint) -> str:
-        n = ckpt.steps
-        if n > self.steps:
-            s = slice(self.steps, n)
-            self.parts.append(chains.csv_rows(ckpt.coords[s], ckpt.log_prob[s], ckpt.blobs[s],
-                                              np.arange(self.steps + 1, n + 1)))
-            self.steps = n
-        return self.header + "".join(self.parts)
-
-
-def _write(folder: Path, ckpt: chains.Checkpoint, posterior: Posterior, result: RunResult,
-           settings: SamplerSettings, manifest: dict[str, Any], final: bool,
-           text: _ChainText) -> None:
-    names, bnames = posterior.prior.sampled_names, posterior.blob_names
-    ckpt.save(folder)
-    write_text_atomic(folder / chains.CHAIN, text.update(ckpt))
+    header = chains.csv_header(backend.names, backend.blob_names)
     m = dict(manifest)
-    m["sampled_parameters"] = list(names)
-    m["blob_columns"] = list(bnames)
-    m["columns"] = text.header.strip().split(",")
-    m["run"] = result_summary(result, settings)
-    m["failure_codes"] = {str(int(c)): str(t) for c, t in zip(ckpt.failure_codes,
-                                                               ckpt.failure_texts, strict=True)}
+    m["sampled_parameters"] = list(backend.names)
+    m["blob_columns"] = list(backend.blob_names)
+    m["columns"] = header.strip().split(",")
+    m["run"] = result_summary(result)
+    m["run"]["likelihood_evaluations"] = result.evaluations
     if final:
         b, t = result.burn_in, result.thin
-        steps = np.arange(b + 1, ckpt.steps + 1)[::t]
-        rows = chains.csv_rows(ckpt.coords[b::t], ckpt.log_prob[b::t], ckpt.blobs[b::t], steps)
-        write_text_atomic(folder / chains.SAMPLES, text.header + rows)
+        coords, lp, blobs = backend.arrays()
+        steps = np.arange(b + 1, backend.iteration + 1)[::t]
+        rows = chains.csv_rows(coords[b::t], lp[b::t], blobs[b::t], steps)
+        write_text_atomic(folder / chains.SAMPLES, header + rows)
         m["samples_file"] = chains.SAMPLES
     m["chain_file"] = chains.CHAIN
+    m["failures_file"] = chains.FAILURES
     chains.write_manifest(folder, m)

@@ -13,8 +13,9 @@ parameter of the parametric model (see :mod:`bouncelike.sampling.parametric`)::
     min = 0.85
     max = 1.10
     label = 'n_s'                     # LaTeX, without dollar signs
-    start = 0.965                     # optional: centre of the walkers' starting ball
-    start_width = 0.01                # optional: its width (clipped to the support)
+    walkers_centre = 0.965            # optional: centre of the ball the walkers start in
+    walkers_spread = 0.01             # optional: its standard deviation (reflected at the
+                                      # support's bounds); default 1% of the range
     nested_value = 1.0                # optional: value of the nested model (Savage-Dickey)
 
     [parameters.r]
@@ -44,6 +45,7 @@ from __future__ import annotations
 import importlib
 import math
 from dataclasses import dataclass, field
+from importlib import resources
 from pathlib import Path
 from typing import Any
 
@@ -56,13 +58,15 @@ ROLES = ("sampled", "fixed", "derived")
 DISTRIBUTIONS = ("uniform", "log_uniform", "gaussian", "efolds_from_phase")
 PARAMETER_KEYS = (
     "role", "distribution", "min", "max", "mean", "sigma", "value", "label",
-    "start", "start_width", "nested_value", "phase",
+    "walkers_centre", "walkers_spread", "nested_value", "phase",
 )
+#: Keys of earlier prior files and the keys that replaced them.
+RENAMED_KEYS = {"start": "walkers_centre", "start_width": "walkers_spread"}
 PHASE_KEYS = ("potential", "mass", "dynamics", "critical_density", "density",
               "density_decades", "n_samples", "seed")
 
-#: Folder of the prior files shipped with the project (``priors/`` at the top of the tree).
-SHIPPED_PRIORS = Path(__file__).resolve().parents[2] / "priors"
+#: Folder of the prior files shipped with the package (package data, installed with it).
+SHIPPED_PRIORS = Path(str(resources.files("bouncelike") / "priors"))
 
 
 @dataclass(frozen=True)
@@ -78,8 +82,8 @@ class ParameterPrior:
     mean: float | None = None
     sigma: float | None = None
     value: float | None = None
-    start: float | None = None
-    start_width: float | None = None
+    walkers_centre: float | None = None
+    walkers_spread: float | None = None
     nested_value: float | None = None
     kde_points: tuple[float, ...] = ()
     kde_bandwidth: float | None = None
@@ -142,7 +146,7 @@ class ParameterPrior:
             "min": self.lower if math.isfinite(self.lower) else None,
             "max": self.upper if math.isfinite(self.upper) else None,
             "mean": self.mean, "sigma": self.sigma, "value": self.value,
-            "start": self.start, "start_width": self.start_width,
+            "walkers_centre": self.walkers_centre, "walkers_spread": self.walkers_spread,
             "nested_value": self.nested_value,
         }
         return {k: v for k, v in d.items() if v is not None}
@@ -212,16 +216,16 @@ class Prior:
             np.empty((n, 0)))
 
     def initial_walkers(self, rng: np.random.Generator, n: int) -> np.ndarray:
-        """Starting points inside the support: a ball around ``start`` where given, else
-        prior draws."""
+        """Starting points inside the support: a ball around ``walkers_centre`` where given,
+        else prior draws."""
         cols = []
         for p in self.sampled:
-            if p.start is None:
+            if p.walkers_centre is None:
                 cols.append(p.draw(rng, n))
                 continue
-            width = p.start_width if p.start_width is not None else (
+            width = p.walkers_spread if p.walkers_spread is not None else (
                 0.01 * (p.upper - p.lower) if math.isfinite(p.upper - p.lower) else 1e-3)
-            x = p.start + width * rng.standard_normal(n)
+            x = p.walkers_centre + width * rng.standard_normal(n)
             # reflect at the bounds (no two walkers piled up on an edge), then clip what a
             # ball wider than the support still leaves outside
             if math.isfinite(p.lower):
@@ -283,7 +287,8 @@ def load_prior(path: str | Path, model_parameters: tuple[str, ...] | None = None
 
 
 def prior_from_text(text: str, source: str = "<text>", **kw: Any) -> Prior:
-    """A prior from the text of a prior file (as stored in a run's manifest)."""
+    """A prior from the text of a prior file (as stored in a run's manifest; pass
+    ``renamed_keys_allowed=True`` to read the keys of earlier prior files)."""
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -294,7 +299,8 @@ def prior_from_text(text: str, source: str = "<text>", **kw: Any) -> Prior:
 def parse_prior(data: dict[str, Any], source: str, text: str = "",
                 model_parameters: tuple[str, ...] | None = None,
                 derived_parameters: tuple[str, ...] | None = None,
-                optional_parameters: tuple[str, ...] = ()) -> Prior:
+                optional_parameters: tuple[str, ...] = (),
+                renamed_keys_allowed: bool = False) -> Prior:
     """Validate the parsed contents of a prior file."""
     path = source
     top = Table(data, "", ("prior", "parameters"))
@@ -311,7 +317,8 @@ def parse_prior(data: dict[str, Any], source: str, text: str = "",
         raise InputError(f"prior file '{path}': [parameters] is empty; give one table per "
                          "parameter")
     params_tab = top.table("parameters", names, required=True)
-    params = tuple(_parameter(params_tab.table(n, PARAMETER_KEYS), n) for n in names)
+    params = tuple(_parameter(_renamed(params_tab, n, renamed_keys_allowed), n)
+                   for n in names)
     if not any(p.role == "sampled" for p in params):
         raise InputError(f"prior file '{path}': no parameter has role = 'sampled'")
     if model_parameters is not None:
@@ -332,6 +339,22 @@ def parse_prior(data: dict[str, Any], source: str, text: str = "",
                     f"'parameters.{p.name}.role' = 'derived' but model '{model}' derives only: "
                     f"{', '.join(derived_parameters) or 'nothing'}")
     return Prior(model=model, title=title, parameters=params, source=str(path), text=text)
+
+
+def _renamed(params: Table, name: str, allowed: bool) -> Table:
+    """The table of one parameter; keys of earlier prior files are refused with the new name
+    (or, reading a stored prior text, taken under it)."""
+    raw = params.raw(name)
+    if isinstance(raw, dict):
+        for old, new in RENAMED_KEYS.items():
+            if old in raw and not allowed:
+                raise InputError(f"'parameters.{name}.{old}' is no longer a prior key: "
+                                 f"write '{new}' instead (keys now: walkers_centre, "
+                                 "walkers_spread for the walkers' starting ball)")
+        if allowed and any(k in raw for k in RENAMED_KEYS):
+            data = {RENAMED_KEYS.get(k, k): v for k, v in raw.items()}
+            return Table(data, params.key(name), PARAMETER_KEYS)
+    return params.table(name, PARAMETER_KEYS)
 
 
 def _parameter(t: Table, name: str) -> ParameterPrior:
@@ -368,11 +391,11 @@ def _parameter(t: Table, name: str) -> ParameterPrior:
         for k in ("mean", "sigma"):
             if k in t:
                 raise InputError(f"'{t.key(k)}' is only allowed for a gaussian prior")
-    start = t.number("start", None)
-    if start is not None and not lower <= start <= upper:
-        raise InputError(f"'{t.key('start')}' = {start:g} lies outside [min, max] = "
+    centre = t.number("walkers_centre", None)
+    if centre is not None and not lower <= centre <= upper:
+        raise InputError(f"'{t.key('walkers_centre')}' = {centre:g} lies outside [min, max] = "
                          f"[{lower:g}, {upper:g}]")
-    start_width = t.positive("start_width", None)
+    spread = t.positive("walkers_spread", None)
     nested = t.number("nested_value", None)
     if nested is not None and not lower <= nested <= upper:
         raise InputError(f"'{t.key('nested_value')}' = {nested:g} lies outside [min, max]")
@@ -382,8 +405,8 @@ def _parameter(t: Table, name: str) -> ParameterPrior:
     elif "phase" in t:
         raise InputError(f"'{t.key('phase')}' is only allowed for an efolds_from_phase prior")
     return ParameterPrior(name=name, role=role, label=label, distribution=dist, lower=lower,
-                          upper=upper, mean=mean, sigma=sigma, start=start,
-                          start_width=start_width, nested_value=nested, **kde)
+                          upper=upper, mean=mean, sigma=sigma, walkers_centre=centre,
+                          walkers_spread=spread, nested_value=nested, **kde)
 
 
 def _required(t: Table, key: str) -> Any:

@@ -19,11 +19,19 @@ The ``[sampling]`` section::
                                  # '..'); write elsewhere with --output DIR
     workers = 1                  # local worker processes (MPI ranks under mpiexec)
     progress = true
-    require_summary_fit = true   # featured spectra the pivot summary cannot represent get
-                                 # log-likelihood -inf (counted), see ModelPosterior
+    require_summary_fit = true   # featured spectra the pivot summary cannot represent are
+                                 # not evaluable (recorded), see ModelPosterior
+    prior_survey_draws = 200     # prior draws evaluated first: the prior fraction each
+                                 # failure reason covers (0: none)
+
+Sizes: walkers from 2 x the sampled parameters to 4096, max_steps and checkpoint_every up to
+10^6, walkers x max_steps at most 5 x 10^7 chain rows, prior_survey_draws up to 10^5.
 
 The likelihood comes from ``[likelihood]`` (:func:`bouncelike.likelihood.gaussian.
-likelihood_from_config`). ``[report]`` is read by :mod:`bouncelike.reporting.report`.
+likelihood_from_config`). The manifest keeps the text, resolved path and SHA-256 of every
+constraint-set file the run used, and :func:`rebuild_from_manifest` rebuilds the likelihood
+from that text, wherever the report is made. ``[report]`` is described in
+:mod:`bouncelike.reporting.settings`.
 """
 
 from __future__ import annotations
@@ -36,15 +44,18 @@ from pathlib import Path
 from typing import Any
 
 from .. import __version__
-from ..config import Table, load_run_config, read_toml
+from ..config import Table, load_run_config, read_toml, tomllib
 from ..errors import InputError
-from .driver import ModelPosterior, SamplerSettings
+from ..reporting.settings import report_settings
+from .driver import MAX_STEPS, MAX_SURVEY_DRAWS, MAX_WALKERS, SamplerSettings
 from .parametric import PARAMETRIC_MODELS, check_model_prior, model_prior, parametric_model
+from .posterior import ModelPosterior
 from .priors import Prior, prior_from_text, resolve_prior_path
 
 SAMPLING_KEYS = ("prior", "model", "walkers", "max_steps", "min_steps", "tau_multiple",
                  "tau_tolerance", "checkpoint_every", "seed", "run_name", "chains_dir",
-                 "workers", "progress", "require_summary_fit")
+                 "workers", "progress", "require_summary_fit", "prior_survey_draws")
+MAX_WORKERS = 1024
 
 
 @dataclass
@@ -60,19 +71,23 @@ class RunSetup:
     show_progress: bool
     fingerprint: str
     manifest: dict[str, Any]
+    elsewhere: str = "choose another run folder"
 
 
 def sampler_settings(t: Table) -> SamplerSettings:
-    walkers = t.integer("walkers", 32, minimum=2)
-    max_steps = t.integer("max_steps", 5000, minimum=1)
-    checkpoint = t.integer("checkpoint_every", 100, minimum=1)
+    """``[sampling]`` sizes and convergence settings, each checked against its allowed range."""
+    walkers = t.integer("walkers", 32, minimum=2, maximum=MAX_WALKERS)
+    max_steps = t.integer("max_steps", 5000, minimum=1, maximum=MAX_STEPS)
+    checkpoint = t.integer("checkpoint_every", 100, minimum=1, maximum=MAX_STEPS)
     return SamplerSettings(
         walkers=walkers, max_steps=max_steps,
-        min_steps=t.integer("min_steps", min(200, max_steps), minimum=0),
-        tau_multiple=t.number("tau_multiple", 50.0, minimum=1.0),
+        min_steps=t.integer("min_steps", min(200, max_steps), minimum=0, maximum=MAX_STEPS),
+        tau_multiple=t.number("tau_multiple", 50.0, minimum=1.0, maximum=1000.0),
         tau_tolerance=t.number("tau_tolerance", 0.05, minimum=0.0, exclusive_minimum=True,
                                maximum=1.0),
-        checkpoint_every=checkpoint, seed=t.integer("seed", 0, minimum=0))
+        checkpoint_every=checkpoint, seed=t.integer("seed", 0, minimum=0, maximum=2**63 - 1),
+        prior_survey_draws=t.integer("prior_survey_draws", 200, minimum=0,
+                                     maximum=MAX_SURVEY_DRAWS))
 
 
 def chains_folder(value: str, output_given: bool) -> Path:
@@ -121,7 +136,8 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
     if not run_name or "/" in run_name or run_name.startswith("."):
         raise InputError(f"'sampling.run_name' = '{run_name}' must be a plain folder name")
     chains_dir = chains_folder(t.string("chains_dir", "chains"), output is not None)
-    n_workers = t.integer("workers", 1, minimum=1) if workers is None else workers
+    n_workers = (t.integer("workers", 1, minimum=1, maximum=MAX_WORKERS) if workers is None
+                 else workers)
     show = t.boolean("progress", True) and not quiet
     # the prior file names its model; [sampling] model may restate it
     head = Table(read_toml(prior_path, "prior file"), "", ("prior", "parameters"))
@@ -136,13 +152,13 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
     if settings.walkers < 2 * prior.ndim:
         raise InputError(f"'sampling.walkers' = {settings.walkers} is too small; allowed: >= "
                          f"{2 * prior.ndim} (2 x the {prior.ndim} sampled parameters)")
-    from ..reporting.report import report_settings
-
     report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
     likelihood = likelihood_of(config, base)
     require_fit = t.boolean("require_summary_fit", True)
     posterior = ModelPosterior(prior, model, likelihood, require_fit)
     folder = Path(output) if output is not None else chains_dir / run_name
+    elsewhere = ("give another --output folder" if output is not None else
+                 "choose another sampling.run_name (or give --output DIR)")
     fingerprint = _fingerprint(prior.text, model_name,
                                {"likelihood": config.data.get("likelihood", {}),
                                 "require_summary_fit": require_fit}, settings)
@@ -167,6 +183,10 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
             "likelihood_fit_tolerance": getattr(likelihood, "tolerance", None),
         },
         "constraint_sets": [s.as_dict() for s in likelihood.sets],
+        "likelihood_sources": likelihood_sources(likelihood),
+        "likelihood_settings": {"allow_overlap": likelihood.allow_overlap,
+                                "fit_tolerance": likelihood.tolerance,
+                                "fit_half_width": likelihood.half_width},
         "fingerprint": fingerprint,
         "loading": "pandas.read_csv('<run>/samples.csv') (burn-in removed, thinned) or "
                    "chain.csv (every step; drop step <= run.burn_in)",
@@ -174,7 +194,52 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
     return RunSetup(config=config, prior=prior, model=model, likelihood=likelihood,
                     posterior=posterior, settings=settings, folder=folder,
                     workers=n_workers, show_progress=show, fingerprint=fingerprint,
-                    manifest=manifest)
+                    manifest=manifest, elsewhere=elsewhere)
+
+
+def likelihood_sources(likelihood: Any) -> list[dict[str, Any]]:
+    """What the likelihood was built from: per constraint set the resolved path of its file,
+    whether it is a shipped set, its SHA-256 and its text."""
+    from importlib import resources
+
+    data_dir = Path(str(resources.files("bouncelike.likelihood") / "data")).resolve()
+    out = []
+    for s in likelihood.sets:
+        path = Path(s.path).resolve()
+        data = path.read_bytes()
+        out.append({"name": s.name, "path": str(path), "shipped": path.parent == data_dir,
+                    "sha256": hashlib.sha256(data).hexdigest(),
+                    "text": data.decode("utf-8")})
+    return out
+
+
+def likelihood_from_manifest(manifest: dict[str, Any]) -> Any:
+    """The likelihood a run used, from the set texts its manifest keeps (older manifests
+    without them: from the configuration, with set files relative to its folder)."""
+    sources = manifest.get("likelihood_sources")
+    if sources is None:
+        config = Table(manifest["config"], "", tuple(manifest["config"]))
+        return likelihood_of(config, Path(manifest.get("config_file", ".")).parent)
+    from ..likelihood.gaussian import GaussianLikelihood
+    from ..likelihood.sets import parse_constraint_set
+
+    where = "run manifest"
+    try:
+        sets = []
+        for src in sources:
+            text = str(src["text"])
+            if hashlib.sha256(text.encode("utf-8")).hexdigest() != src["sha256"]:
+                raise InputError(f"{where}: the stored text of constraint set "
+                                 f"'{src['name']}' does not match its SHA-256 (damaged)")
+            sets.append(parse_constraint_set(tomllib.loads(text), str(src["path"])))
+        opts = manifest["likelihood_settings"]
+        return GaussianLikelihood(sets, bool(opts["allow_overlap"]),
+                                  tolerance=float(opts["fit_tolerance"]),
+                                  half_width=float(opts["fit_half_width"]))
+    except (KeyError, TypeError, tomllib.TOMLDecodeError) as exc:
+        raise InputError(f"{where}: the record of the constraint sets is damaged "
+                         f"({type(exc).__name__}: {exc}); rewrite it with 'bouncelike sample "
+                         "CONFIG --resume' (the run's configuration)") from None
 
 
 def rebuild_from_manifest(manifest: dict[str, Any]) -> tuple[Prior, Any, Any, ModelPosterior]:
@@ -184,13 +249,11 @@ def rebuild_from_manifest(manifest: dict[str, Any]) -> tuple[Prior, Any, Any, Mo
     prior = prior_from_text(manifest["prior_file_text"], manifest["prior"].get("source", ""),
                             model_parameters=model.parameter_names,
                             derived_parameters=model.derived_names,
-                            optional_parameters=getattr(model, "optional_parameter_names", ()))
+                            optional_parameters=getattr(model, "optional_parameter_names", ()),
+                            renamed_keys_allowed=True)
     check_model_prior(model, prior)
-    base = Path(manifest.get("config_file", ".")).parent
-    from ..reporting.report import report_settings
-
     report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
-    likelihood = likelihood_of(config, base)
+    likelihood = likelihood_from_manifest(manifest)
     require_fit = bool(manifest.get("require_summary_fit", True))
     return prior, model, likelihood, ModelPosterior(prior, model, likelihood, require_fit)
 

@@ -17,7 +17,10 @@ pivot k_* (0.05 or 0.002 Mpc^-1). :func:`summarize` returns these as a :class:`P
   3. fit ln P_t the same way (when tensors are present): r = exp(c0_t - c0_s), n_t = c1_t;
   4. fit quality ``fit_rms`` = the weighted root-mean-square residual of ln P (the larger of
      scalar and tensor), i.e. the typical fractional mismatch between the spectrum and the
-     polynomial near the pivot. ``fit_ok`` is ``fit_rms <= tolerance``.
+     polynomial near the pivot. ``fit_ok`` is ``fit_rms <= tolerance``. The scalar residual
+     alone (``rms_scalar``) and that of the fit of ln(P_t/P_s) (``rms_ratio``; its constant
+     term is ln r exactly, the fit being linear) are kept too: a spectrum whose two fields carry
+     the same features has a smooth ratio even where each field is not a cubic.
 
   The default tolerance is 0.01 (1 % in P). It is chosen below the 68 % error of the best
   measured amplitude, sigma(ln 1e10 A_s) = 0.014 (Planck 2018 VI, arXiv:1807.06209, Table 2):
@@ -70,6 +73,8 @@ class PivotSummary:
     window: tuple[float, float] | None
     n_t: float = math.nan
     method: str = "fit"
+    rms_scalar: float = 0.0
+    rms_ratio: float = 0.0
 
     def value(self, quantity: str) -> float:
         """One of ``ln_1e10_As``, ``n_s``, ``running``, ``running_of_running``, ``r``."""
@@ -137,6 +142,7 @@ def fit_summary(
         raise NumericalFailure(
             f"tensor spectrum is negative or not finite in the window around k = {pivot:g}"
         )
+    rms_ratio = 0.0
     if np.all(pt == 0):
         r, n_t, rms_t = 0.0, math.nan, 0.0
     elif np.any(pt == 0):
@@ -147,6 +153,7 @@ def fit_summary(
         c_t, rms_t = _weighted_cubic(x, np.log(pt), w)
         r = float(math.exp(c_t[0] - c_s[0]))
         n_t = float(c_t[1])
+        rms_ratio = _weighted_cubic(x, np.log(pt) - np.log(ps), w)[1]
     fit_rms = max(rms_s, rms_t)
     return PivotSummary(
         pivot=float(pivot),
@@ -161,6 +168,8 @@ def fit_summary(
         window=(float(k[0]), float(k[-1])),
         n_t=n_t,
         method="fit",
+        rms_scalar=rms_s,
+        rms_ratio=rms_ratio,
     )
 
 

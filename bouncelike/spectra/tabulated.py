@@ -4,10 +4,16 @@ A forward model (for example the bounce) produces P_s and P_t on a grid of comov
 in Mpc^-1. :class:`TabulatedSpectra` interpolates ln P linearly in ln k. Outside the table it
 refuses (``InputError`` naming the table range) unless constructed with ``extrapolate=True``,
 in which case the end segments are continued as power laws and a note says so.
+
+Oscillations the table cannot resolve are handled by the period-mean protocol of
+:mod:`.oscillations` (:meth:`TabulatedSpectra.averaged_power`): a table may carry its period
+means and the local period of its oscillations (``period_mean``, ``oscillation_period``);
+otherwise rows where ln P zigzags are replaced by a running mean.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -46,6 +52,11 @@ class TabulatedSpectra:
         Short description of the model that produced the table.
     extrapolate : bool
         Continue the end segments as power laws outside the table instead of refusing.
+    period_mean : (array, array) or None
+        P_s and P_t averaged over the local oscillation period, on the same ``k`` (optional).
+    oscillation_period : array or None
+        Local period of the oscillations in ln k on the same ``k`` (inf where there are none);
+        used with ``period_mean``.
     """
 
     k: np.ndarray
@@ -54,6 +65,8 @@ class TabulatedSpectra:
     notes: tuple[str, ...] = field(default=())
     label: str = ""
     extrapolate: bool = False
+    period_mean: tuple[np.ndarray, np.ndarray] | None = None
+    oscillation_period: np.ndarray | None = None
 
     def __init__(
         self,
@@ -63,6 +76,8 @@ class TabulatedSpectra:
         notes: tuple[str, ...] | list[str] = (),
         label: str = "",
         extrapolate: bool = False,
+        period_mean: tuple[Any, Any] | None = None,
+        oscillation_period: Any = None,
     ):
         k_arr = _as_positive_array("k", k, allow_zero=False)
         ps = _as_positive_array("scalar", scalar, allow_zero=False)
@@ -93,6 +108,25 @@ class TabulatedSpectra:
         object.__setattr__(self, "_ln_ps", np.log(ps))
         zero_t = bool(np.all(pt == 0))
         object.__setattr__(self, "_ln_pt", None if zero_t else np.log(pt))
+        mean = None
+        if period_mean is not None:
+            ms = _as_positive_array("period_mean scalar", period_mean[0], allow_zero=False)
+            mt = _as_positive_array("period_mean tensor", period_mean[1], allow_zero=True)
+            if ms.shape != k_arr.shape or mt.shape != k_arr.shape:
+                raise InputError("tabulated 'period_mean' must have the same length as 'k'")
+            for arr in (ms, mt):
+                arr.setflags(write=False)
+            mean = (ms, mt)
+        period = None
+        if oscillation_period is not None:
+            period = np.array(oscillation_period, dtype=float)
+            if period.shape != k_arr.shape or np.any(~(period > 0)):
+                raise InputError("tabulated 'oscillation_period' must be > 0 (inf for none), "
+                                 "one value per 'k'")
+            period.setflags(write=False)
+        object.__setattr__(self, "period_mean", mean)
+        object.__setattr__(self, "oscillation_period", period)
+        object.__setattr__(self, "_smoothed", {})
 
     @property
     def k_min(self) -> float:
@@ -150,6 +184,98 @@ class TabulatedSpectra:
         else:
             out = self._interp(ln_kq, self._ln_pt)
         return out.reshape(np.shape(wavenumber_in_mpc(k)))
+
+    # -- period-mean protocol (see oscillations.py) ----------------------------------------
+    def _log_interp(self, ln_kq: np.ndarray, values: np.ndarray) -> np.ndarray:
+        if np.all(values == 0):
+            return np.zeros_like(ln_kq)
+        return self._interp(ln_kq, np.log(values))
+
+    @property
+    def zigzag_rows(self) -> np.ndarray:
+        """Rows where the table shows unresolved oscillation (plain tables; see oscillations)."""
+        from .oscillations import zigzag_rows
+
+        rows = self.__dict__.get("_zigzag")
+        if rows is None:
+            rows = zigzag_rows(self._ln_ps)
+            if self._ln_pt is not None:
+                rows = rows | zigzag_rows(self._ln_pt)
+            rows.setflags(write=False)
+            object.__setattr__(self, "_zigzag", rows)
+        return rows
+
+    def smoothed_table(self, resolution: float | None) -> tuple[np.ndarray, np.ndarray, float]:
+        """(P_s, P_t, width): the table with its zigzag rows replaced by their running mean."""
+        from .oscillations import running_mean, window_width
+
+        rows = self.zigzag_rows
+        width = window_width(self._ln_k, rows, resolution)
+        key = round(width, 12)
+        if key not in self._smoothed:
+            ps = running_mean(self._ln_k, self.scalar_values, rows, width)
+            pt = running_mean(self._ln_k, self.tensor_values, rows, width)
+            self._smoothed[key] = (ps, pt)
+        ps, pt = self._smoothed[key]
+        return ps, pt, width
+
+    def averaged_power(self, k: Any, resolution: float | None) -> tuple[np.ndarray, np.ndarray]:
+        """(P_s, P_t) at k with oscillations shorter than ``resolution`` (in ln k) averaged.
+
+        With ``period_mean``: the period mean where the local period is shorter than
+        max(resolution, 4 table spacings) (everywhere for ``resolution=None``), the table
+        elsewhere. Without: the zigzag rows replaced by their running mean (see
+        :mod:`.oscillations`).
+        """
+        ln_kq = np.atleast_1d(self._ln_k_query(k)).astype(float)
+        if self.period_mean is None:
+            if not self.zigzag_rows.any():
+                return self._interp(ln_kq, self._ln_ps), self._log_interp(
+                    ln_kq, self.tensor_values)
+            ps, pt, _ = self.smoothed_table(resolution)
+            return self._interp(ln_kq, np.log(ps)), self._log_interp(ln_kq, pt)
+        logs = self._mean_logs()
+        mean_s = self._interp(ln_kq, logs["scalar"])
+        mean_t = (np.zeros_like(ln_kq) if logs["tensor"] is None
+                  else self._interp(ln_kq, logs["tensor"]))
+        if resolution is None or logs["period"] is None:
+            if resolution is None:
+                return mean_s, mean_t
+            return self._interp(ln_kq, self._ln_ps), self._log_interp(ln_kq, self.tensor_values)
+        ln_period = np.interp(ln_kq, self._ln_k, logs["period"])
+        ln_local = np.interp(ln_kq, logs["mid"], logs["spacing"])
+        average = ln_period < np.maximum(math.log(resolution), math.log(4.0) + ln_local)
+        if average.all():
+            return mean_s, mean_t
+        point_s = self._interp(ln_kq, self._ln_ps)
+        point_t = self._log_interp(ln_kq, self.tensor_values)
+        return np.where(average, mean_s, point_s), np.where(average, mean_t, point_t)
+
+    def _mean_logs(self) -> dict:
+        """ln of the period means, of the periods and of the row spacings (computed once)."""
+        logs = self.__dict__.get("_logs")
+        if logs is None:
+            mt = self.period_mean[1]
+            logs = {"scalar": np.log(self.period_mean[0]),
+                    "tensor": None if np.all(mt == 0) else np.log(mt),
+                    "period": (None if self.oscillation_period is None
+                               else np.log(self.oscillation_period)),
+                    "mid": 0.5 * (self._ln_k[1:] + self._ln_k[:-1]),
+                    "spacing": np.log(np.diff(self._ln_k))}
+            object.__setattr__(self, "_logs", logs)
+        return logs
+
+    def oscillation_note(self) -> str:
+        """One line saying where a plain table was found to zigzag ("" when it does not)."""
+        if self.period_mean is not None or not self.zigzag_rows.any():
+            return ""
+        rows = np.nonzero(self.zigzag_rows)[0]
+        _, _, width = self.smoothed_table(None)
+        return (f"the spectra table shows unresolved oscillation (ln P zigzags: fewer than ~4 "
+                f"rows per period) in {len(rows)} of {len(self.k)} rows between k = "
+                f"{self.k[rows[0]]:.3g} and {self.k[rows[-1]]:.3g} Mpc^-1; there P is replaced "
+                f"by its running mean over a triangle {width:.3g} wide in ln k (the table's own "
+                "sampling noise remains)")
 
     def describe(self) -> dict[str, Any]:
         return {

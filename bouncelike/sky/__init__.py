@@ -1,0 +1,1 @@
+"""Large-scale CMB temperature from primordial spectra (multipoles 2-29)."""
