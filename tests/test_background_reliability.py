@@ -157,3 +157,18 @@ def test_numerical_failure_carries_a_physical_reason():
 def test_physical_ranges_are_checked_up_front(make, key):
     with pytest.raises(InputError, match=key):
         make()
+
+
+def test_batch_runs_keep_the_budgets_per_run():
+    # the e-fold distributions run many draws in one compiled loop: a draw that would take
+    # millions of steps ends at its own wall-clock budget, the others are unaffected
+    dyn = IsotropicDynamics()
+    pot = Quadratic(MASS)
+    starts = [ContractingStart(1e-16, 0.3), ContractingStart(1e-40, 0.3),
+              ContractingStart(1e-16, 2.0)]
+    out = dyn.evolve_summaries(pot, starts, IntegrationSettings(max_steps=10**9,
+                                                                max_seconds=0.3))
+    assert [s.status for s in out] == ["inflated", "failed", "inflated"]
+    assert out[1].reason == "wall_budget"
+    single = dyn.evolve_summary(pot, starts[2])
+    assert out[2].inflationary_efolds == single.inflationary_efolds

@@ -150,6 +150,18 @@ class CanonicalDynamics:
         """The run's summary only (no trajectory): what e-fold distributions need."""
         return self.run(potential, initial, settings).summary
 
+    def evolve_summaries(self, potential: Any, initials: list,
+                         settings: IntegrationSettings | None = None) -> list[RunSummary]:
+        """Summaries of many initial data in one compiled loop (e-fold distributions)."""
+        settings = settings or IntegrationSettings()
+        if any(isinstance(ini, ClassicalStart) for ini in initials):
+            return [self.evolve_summary(potential, ini, settings) for ini in initials]
+        starts, system = [], None
+        for ini in initials:
+            system, y0, mode, atol, bounced, has_bounce = self.start(potential, ini, settings)
+            starts.append(engine.Start(y0, mode, bounced, has_bounce, atol))
+        return engine.run_many(system, potential, starts, settings) if starts else []
+
     def evolve(self, potential: Any, initial: Any,
                settings: IntegrationSettings | None = None) -> BackgroundTrajectory:
         settings = settings or IntegrationSettings()

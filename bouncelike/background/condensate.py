@@ -163,6 +163,12 @@ class CondensateDynamics(cn.CanonicalDynamics):
                        settings: IntegrationSettings | None = None) -> RunSummary:
         return self.run(potential, initial, settings).summary
 
+    def evolve_summaries(self, potential: Any, initials: list,
+                         settings: IntegrationSettings | None = None) -> list[RunSummary]:
+        if self.uses_isotropic_engine:
+            return self._isotropic().evolve_summaries(potential, initials, settings)
+        return super().evolve_summaries(potential, initials, settings)
+
     def evolve(
         self, potential: Any, initial: Any, settings: IntegrationSettings | None = None
     ) -> BackgroundTrajectory:

@@ -237,8 +237,7 @@ def evolve_records(task: tuple) -> np.ndarray:
     """Evolve a chunk of initial data; one record row per datum (module-level: picklable)."""
     dynamics, potential, settings, initials = task
     out = np.full((len(initials), N_COLUMNS), np.nan)
-    for row, initial in enumerate(initials):
-        s = dynamics.evolve_summary(potential, initial, settings)
+    for row, s in enumerate(dynamics.evolve_summaries(potential, initials, settings)):
         e = s.events
         out[row] = (s.status_index, s.inflationary_efolds,
                     e.ln_a_inflation_start - e.ln_a_bounce, s.efolds_bounce_to_stop,

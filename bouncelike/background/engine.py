@@ -53,6 +53,11 @@ class System:
     code: int
     parameters: tuple[float, float, float, float]
 
+    def __post_init__(self) -> None:
+        p = tuple(float(x) for x in self.parameters)
+        object.__setattr__(self, "code", int(self.code))
+        object.__setattr__(self, "parameters", p + (0.0,) * (4 - len(p)))
+
 
 _KERNELS: dict[int, tuple[Any, tuple]] = {}
 
@@ -79,7 +84,8 @@ class _Functions:
     """The entry points of the engine: compiled, or their uncompiled copies for a potential."""
 
     def __init__(self, potential: Any | None):
-        entries = {"advance": solver.advance, "stop": solver.stop,
+        entries = {"advance": solver.advance, "advance_many": solver.advance_many,
+                   "stop": solver.stop,
                    "observe_many": systems.observe_many, "residual_many": systems.residual_many,
                    "anisotropy_many": systems.anisotropy_many}
         if potential is None:
@@ -174,6 +180,20 @@ class DenseSolution:
         return out
 
 
+_ATOLS: dict[float, np.ndarray] = {}
+
+
+def _scalar_atol(atol: float) -> np.ndarray:
+    """The (3, 6) tolerance array of a scalar ``atol`` (kept per value; never written)."""
+    arr = _ATOLS.get(atol)
+    if arr is None:
+        arr = np.full((3, solver.N), atol)
+        if len(_ATOLS) > 64:
+            _ATOLS.clear()
+        _ATOLS[atol] = arr
+    return arr
+
+
 @dataclass(frozen=True)
 class EngineRun:
     """One integration: its summary and (with ``store``) its continuous extension."""
@@ -230,20 +250,19 @@ def run(system: System, potential: Any, y0: Any, mode: int, settings: Integratio
     ``has_bounce``: the start is the bounce itself. ``atol``: absolute tolerances, a scalar or
     an array (3 modes x n components); default ``settings.atol``. Goals: see :mod:`.problem`.
     """
-    y0 = np.asarray(y0, dtype=float)
     n = len(y0)
     y = np.zeros(solver.N)
     y[:n] = y0
     if atol is None:
         atol = settings.atol
     if np.ndim(atol) == 0:
-        atol_full = np.full((3, solver.N), float(atol))
+        atol_full = _scalar_atol(float(atol))
     else:
         atol_full = np.ones((3, solver.N))
         atol_full[:, :n] = np.broadcast_to(np.asarray(atol, dtype=float), (3, n))
     kind, pp, compiled = _kernel(potential)
     fn = _COMPILED if compiled else _Functions(potential)
-    code, prm = int(system.code), tuple(float(x) for x in system.parameters)
+    code, prm = system.code, system.parameters
     state = np.zeros(1, dtype=solver.STATE)
     state["mode"] = int(mode)
     book = problem.new_book(bool(bounced), bool(has_bounce))
@@ -255,27 +274,36 @@ def run(system: System, potential: Any, y0: Any, mode: int, settings: Integratio
     g_cur = np.empty(problem.N_EVENTS)
     rec = np.empty((256 if store else 1, solver.ROW))
     deadline = time.monotonic() + float(settings.max_seconds)
-    done = state["done"]
+    done = False
     try:
-        while not done[0]:
-            rec = fn.advance(code, prm, kind, pp, float(settings.rtol), atol_full,
-                             float(settings.max_time), int(settings.max_steps), CHUNK_STEPS,
-                             bool(store), y, k, g_cur, state, book, cfg, rec)
-            if not done[0] and time.monotonic() > deadline:
+        while not done:
+            rec, done = fn.advance(code, prm, kind, pp, float(settings.rtol), atol_full,
+                                   float(settings.max_time), int(settings.max_steps), CHUNK_STEPS,
+                                   bool(store), y, k, g_cur, state, book, cfg, rec)
+            if not done and time.monotonic() > deadline:
                 fn.stop(code, prm, kind, pp, solver.R_WALL_BUDGET, y, state, book)
+                done = True
     except (ZeroDivisionError, OverflowError, ValueError):
         # the uncompiled path raises where the compiled one gives inf or NaN: the same failure
         state["done"], state["reason"] = True, solver.R_NONFINITE
         book["status"] = problem.ST_FAILED
         book["t_final"] = state["t"][0]
-    s = dict(zip(solver.STATE.names, state[0].tolist(), strict=True))
-    b = dict(zip(problem.BOOK.names, book[0].tolist(), strict=True))
-    reason = REASONS.get(int(s["reason"])) or STOPS[int(b["stop"])]
-    ypt = y.copy()
     dense = None
     if store:
-        dense = DenseSolution(system, potential, rec[:int(s["n_store"])].copy(), float(s["t"]),
-                              ypt, int(s["mode"]))
+        dense = DenseSolution(system, potential, rec[:int(state["n_store"][0])].copy(),
+                              float(state["t"][0]), y.copy(), int(state["mode"][0]))
+    return EngineRun(_summary(state[0], book[0], y, system, fn, kind, pp, compiled, settings,
+                              target_density), dense)
+
+
+def _summary(state: Any, book: Any, y: np.ndarray, system: System, fn: Any, kind: int,
+             pp: tuple, compiled: bool, settings: IntegrationSettings,
+             target_density: float) -> RunSummary:
+    """The typed summary of a finished run from its solver state and bookkeeping records."""
+    s = dict(zip(solver.STATE.names, state.tolist(), strict=True))
+    b = dict(zip(problem.BOOK.names, book.tolist(), strict=True))
+    reason = REASONS.get(int(s["reason"])) or STOPS[int(b["stop"])]
+    ypt = np.array(y, dtype=float)
     cache: dict = {}
 
     def obs() -> dict:
@@ -287,7 +315,7 @@ def run(system: System, potential: Any, y0: Any, mode: int, settings: Integratio
     if not compiled:
         message += "; slow pure-Python integration (the potential is not compiled)"
     lna_final = b["lna_final"] if math.isfinite(b["lna_final"]) else obs()["ln_a"]
-    summary = RunSummary(
+    return RunSummary(
         status=STATUSES[int(b["status"])], reason=reason, message=message,
         events=BackgroundEvents(b["t_bounce"], b["t_si_end"], b["t_inf_start"],
                                 b["t_inf_end"], b["lna_bounce"], b["lna_si_end"],
@@ -300,7 +328,73 @@ def run(system: System, potential: Any, y0: Any, mode: int, settings: Integratio
         rhs_evaluations=int(s["n_rhs"]), t_final=float(s["t"]), ln_a_final=float(lna_final),
         engine="compiled" if compiled else "python",
     )
-    return EngineRun(summary, dense)
+
+
+@dataclass(frozen=True)
+class Start:
+    """One initial state for :func:`run_many`: ``y0`` in ``mode``, the flags of :func:`run`,
+    absolute tolerances (scalar or 3 modes x n) or None for ``settings.atol``."""
+
+    y0: Any
+    mode: int
+    bounced: bool
+    has_bounce: bool
+    atol: Any = None
+
+
+def run_many(system: System, potential: Any, starts: list[Start],
+             settings: IntegrationSettings) -> list[RunSummary]:
+    """Summaries of many runs of one system (goal: the end of inflation), integrated in one
+    compiled loop: what e-fold distributions need. The same solver, budgets and chunks as
+    :func:`run` (Ctrl-C between chunks; ``settings.max_seconds`` per run)."""
+    m = len(starts)
+    if m == 0:
+        return []
+    kind, pp, compiled = _kernel(potential)
+    fn = _COMPILED if compiled else _Functions(potential)
+    code, prm = system.code, system.parameters
+    Y = np.zeros((m, solver.N))
+    atol = np.empty((m, 3, solver.N))
+    states = np.zeros(m, dtype=solver.STATE)
+    books = np.empty(m, dtype=problem.BOOK)
+    for j, st in enumerate(starts):
+        n = len(st.y0)
+        Y[j, :n] = st.y0
+        a = settings.atol if st.atol is None else st.atol
+        if np.ndim(a) == 0:
+            atol[j] = float(a)
+        else:
+            atol[j] = 1.0
+            atol[j, :, :n] = np.broadcast_to(np.asarray(a, dtype=float), (3, n))
+        states[j]["mode"] = int(st.mode)
+        books[j] = problem.new_book(st.bounced, st.has_bounce)[0]
+    cfg = problem.new_config(float(settings.max_inflation_efolds))
+    if not compiled:
+        states, books, cfg = (a.view(np.recarray) for a in (states, books, cfg))
+    K = np.zeros((m, 16, solver.N))
+    G = np.empty((m, problem.N_EVENTS))
+    j = 0
+    current, started_at = -1, time.monotonic()
+    while j < m:
+        try:
+            j_next = fn.advance_many(code, prm, kind, pp, float(settings.rtol), atol,
+                                     float(settings.max_time), int(settings.max_steps),
+                                     CHUNK_STEPS, Y, K, G, states, books, cfg, j)
+        except (ZeroDivisionError, OverflowError, ValueError):
+            # the uncompiled path raises where the compiled one gives inf or NaN
+            states[j]["done"], states[j]["reason"] = True, solver.R_NONFINITE
+            books[j]["status"] = problem.ST_FAILED
+            books[j]["t_final"] = states[j]["t"]
+            j_next = j + 1
+        if j_next != current:
+            current, started_at = j_next, time.monotonic()
+        elif time.monotonic() - started_at > float(settings.max_seconds):
+            fn.stop(code, prm, kind, pp, solver.R_WALL_BUDGET, Y[j_next], states[j_next:j_next + 1],
+                    books[j_next:j_next + 1])
+            j_next += 1
+        j = j_next
+    return [_summary(states[i], books[i], Y[i], system, fn, kind, pp, compiled, settings, 0.0)
+            for i in range(m)]
 
 
 def _final_observables(system: System, y: np.ndarray, mode: int, fn: Any, kind: int,

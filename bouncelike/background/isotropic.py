@@ -111,6 +111,7 @@ class IsotropicDynamics:
         if critical_density is None:
             critical_density = critical_density_from_gamma()
         self.critical_density = check_critical_density(critical_density)
+        self._system = engine.System(SYS_ISOTROPIC, (1.0 / self.critical_density, 0.0, 0.0, 0.0))
 
     @classmethod
     def from_config(cls, table: Any, critical_density: float) -> IsotropicDynamics:
@@ -156,7 +157,7 @@ class IsotropicDynamics:
                                                                   engine.System]:
         """(y0, mode, at/after the bounce, at the bounce, system) for the engine."""
         rho_c = self.critical_density
-        system = engine.System(SYS_ISOTROPIC, (1.0 / rho_c, 0.0, 0.0, 0.0))
+        system = self._system
         if isinstance(initial, BounceStart):
             phi, phidot = self.bounce_state(potential, initial)
             return np.array([0.0, phi, phidot, 0.0]), 1, True, True, system
@@ -203,6 +204,18 @@ class IsotropicDynamics:
                        settings: IntegrationSettings | None = None) -> RunSummary:
         """The run's :class:`~bouncelike.background.result.RunSummary` (no trajectory)."""
         return self.run(potential, initial, settings).summary
+
+    def evolve_summaries(self, potential: Any, initials: list,
+                         settings: IntegrationSettings | None = None) -> list[RunSummary]:
+        """Summaries of many initial data in one compiled loop (e-fold distributions)."""
+        settings = settings or IntegrationSettings()
+        if any(isinstance(ini, ClassicalStart) for ini in initials):
+            return [self.evolve_summary(potential, ini, settings) for ini in initials]
+        starts = []
+        for ini in initials:
+            y0, mode, bounced, has_bounce, _ = self.initial_state(potential, ini)
+            starts.append(engine.Start(y0, mode, bounced, has_bounce))
+        return engine.run_many(self._system, potential, starts, settings)
 
     def evolve(self, potential: Any, initial: Any,
                settings: IntegrationSettings | None = None) -> BackgroundTrajectory:

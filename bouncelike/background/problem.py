@@ -264,7 +264,7 @@ def time_rate(code, prm, kind, pp, y, mode):
             + abs(obs[PHIDOT]) / max(abs(obs[PHI]), 1.0))
 
 
-@jit
+@inline
 def track(code, prm, kind, pp, y, mode, b):
     """Largest constraint residual so far."""
     r = residual(code, prm, kind, pp, y, mode)

@@ -200,7 +200,8 @@ def start(code, prm, kind, pp, y, k, g_arr, state, book, cfg):
 @jit
 def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, y, k, g_arr,
             state, book, cfg, rec):
-    """Take up to ``chunk`` accepted steps; returns the (possibly grown) step store ``rec``.
+    """Take up to ``chunk`` accepted steps; returns the (possibly grown) step store ``rec`` and
+    whether the run has ended.
 
     The first call starts the run (:func:`start`). ``atol[mode, i]``: absolute tolerances per
     mode (read by the system's error scale); ``g_arr``: the event values at ``y`` (kept between
@@ -227,6 +228,8 @@ def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, 
     atol_row = _atol_row(atol, mode)
     g_cur = (g_arr[0], g_arr[1], g_arr[2], g_arr[3], g_arr[4], g_arr[5], g_arr[6], g_arr[7],
              g_arr[8])
+    # active events and their directions: they change only when an event is handled
+    d = event_directions(code, prm, mode, b, c)
     taken = 0
     reason = R_RUNNING
     while True:
@@ -295,7 +298,6 @@ def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, 
         stop_event = -1
         have_dense = False
         for _pass in range(16):
-            d = event_directions(code, prm, mode, b, c)
             best = 2.0
             best_i = -1
             for i in range(N_EVENTS):
@@ -319,6 +321,7 @@ def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, 
             dense_interpolate(y, F, best, ytmp)
             ye = tup(ytmp)
             act = handle_event(code, prm, kind, pp, best_i, t + best * h, ye, mode, b, c)
+            d = event_directions(code, prm, mode, b, c)  # the bookkeeping has changed
             if act != CONTINUE:
                 stop_theta = best
                 action = act
@@ -345,6 +348,7 @@ def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, 
             if action == SWITCH:
                 ye, mode = switch_state(code, prm, kind, pp, stop_event, ye, mode)
                 atol_row = _atol_row(atol, mode)
+                d = event_directions(code, prm, mode, b, c)
                 r, rho, _ = rates(code, prm, kind, pp, ye, mode, False)
                 n_rhs += 1
             for i in range(N):
@@ -385,7 +389,26 @@ def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, 
         failed = (reason == R_STEP_BUDGET or reason == R_STEP_UNDERFLOW
                   or reason == R_NONFINITE)
         finish(code, prm, kind, pp, t, tup(y), mode, b, failed)
-    return rec
+    return rec, reason != R_RUNNING
+
+
+@jit
+def advance_many(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, Y, K, G, states,
+                 books, cfg, j):
+    """Runs ``j``, ``j + 1``, ... (rows of ``Y``, ``K``, ``G``, ``atol``, ``states``,
+    ``books``; summaries only) until about ``chunk`` steps are taken in this call; returns the
+    first run not finished (a run cut by the budget resumes in the next call)."""
+    rec = np.empty((1, ROW))
+    budget = chunk
+    m = Y.shape[0]
+    while j < m and budget > 0:
+        before = states[j].n_steps
+        rec, done = advance(code, prm, kind, pp, rtol, atol[j], max_time, max_steps, budget,
+                            False, Y[j], K[j], G[j], states[j:j + 1], books[j:j + 1], cfg, rec)
+        budget -= max(states[j].n_steps - before, 1)
+        if done:
+            j += 1
+    return j
 
 
 @jit

@@ -75,14 +75,14 @@ def rates(code, prm, kind, pp, y, mode, want_obs):
     return loop_rates(prm, kind, pp, y, mode, want_obs)
 
 
-@jit
+@inline
 def observe(code, prm, kind, pp, y, mode):
     """Observables (ln a, H, Hdot, phi, phidot, phiddot, rho, V) at the state ``y``."""
     _, _, obs = rates(code, prm, kind, pp, y, mode, True)
     return obs
 
 
-@jit
+@inline
 def residual(code, prm, kind, pp, y, mode):
     if code == SYS_ISOTROPIC:
         return iso_residual(prm, kind, pp, y, mode)
