@@ -296,19 +296,28 @@ def run(system: System, potential: Any, y0: Any, mode: int, settings: Integratio
                               target_density), dense)
 
 
+_S = {name: i for i, name in enumerate(solver.STATE.names)}
+_B = {name: i for i, name in enumerate(problem.BOOK.names)}
+_EVENT_FIELDS = tuple(_B[k] for k in ("t_bounce", "t_si_end", "t_inf_start", "t_inf_end",
+                                      "lna_bounce", "lna_si_end", "lna_inf_start",
+                                      "lna_inf_end"))
+
+
 def _summary(state: Any, book: Any, y: np.ndarray, system: System, fn: Any, kind: int,
              pp: tuple, compiled: bool, settings: IntegrationSettings,
              target_density: float) -> RunSummary:
     """The typed summary of a finished run from its solver state and bookkeeping records."""
-    s = dict(zip(solver.STATE.names, state.tolist(), strict=True))
-    b = dict(zip(problem.BOOK.names, book.tolist(), strict=True))
-    reason = REASONS.get(int(s["reason"])) or STOPS[int(b["stop"])]
-    ypt = np.array(y, dtype=float)
+    sv = state.tolist()
+    bv = book.tolist()
+    s = {"t": sv[_S["t"]], "n_steps": sv[_S["n_steps"]], "mode": sv[_S["mode"]]}
+    b = {k: bv[_B[k]] for k in ("status", "lna_final", "lna_inf_end", "lna_inf_start")}
+    reason = REASONS.get(sv[_S["reason"]]) or STOPS[bv[_B["stop"]]]
     cache: dict = {}
 
     def obs() -> dict:
         if not cache:
-            cache.update(_final_observables(system, ypt, int(s["mode"]), fn, kind, pp))
+            cache.update(_final_observables(system, np.array(y, dtype=float), int(s["mode"]),
+                                            fn, kind, pp))
         return cache
 
     message = _message(b, s, reason, obs, settings, target_density)
@@ -316,17 +325,13 @@ def _summary(state: Any, book: Any, y: np.ndarray, system: System, fn: Any, kind
         message += "; slow pure-Python integration (the potential is not compiled)"
     lna_final = b["lna_final"] if math.isfinite(b["lna_final"]) else obs()["ln_a"]
     return RunSummary(
-        status=STATUSES[int(b["status"])], reason=reason, message=message,
-        events=BackgroundEvents(b["t_bounce"], b["t_si_end"], b["t_inf_start"],
-                                b["t_inf_end"], b["lna_bounce"], b["lna_si_end"],
-                                b["lna_inf_start"], b["lna_inf_end"]),
-        phi_bounce=b["phi_bounce"], phidot_bounce=b["phidot_bounce"],
-        potential_fraction_at_bounce=b["vfrac_bounce"], density_at_bounce=b["rho_bounce"],
-        max_constraint_residual=b["max_residual"],
-        accelerated_phases=int(b["n_phases"]) + (1 if b["started"] else 0),
-        steps=int(s["n_steps"]), rejected_steps=int(s["n_rej"]),
-        rhs_evaluations=int(s["n_rhs"]), t_final=float(s["t"]), ln_a_final=float(lna_final),
-        engine="compiled" if compiled else "python",
+        STATUSES[b["status"]], reason, message,
+        BackgroundEvents(*[bv[i] for i in _EVENT_FIELDS]),
+        bv[_B["phi_bounce"]], bv[_B["phidot_bounce"]], bv[_B["vfrac_bounce"]],
+        bv[_B["rho_bounce"]], bv[_B["max_residual"]],
+        bv[_B["n_phases"]] + (1 if bv[_B["started"]] else 0), sv[_S["n_steps"]],
+        sv[_S["n_rej"]], sv[_S["n_rhs"]], float(sv[_S["t"]]), float(lna_final),
+        "compiled" if compiled else "python",
     )
 
 
