@@ -208,7 +208,12 @@ def table_from_runs(forward: engine.EngineRun, past: engine.EngineRun | None, po
     if np.isfinite(t_end):
         t_stop = t_end
         if extra_efolds > 0:
-            t_stop = _stop_time(fdense, t_end, float(s.events.ln_a_inflation_end) + extra_efolds)
+            # "a little beyond the end": extra_efolds, or 3 extra_efolds / H_end Planck times
+            # (about 1.5 e-folds for 2 in the oscillation era), whichever comes first
+            h_end = float(fdense.observables([t_end])["H"][0])
+            t_stop = min(_stop_time(fdense, t_end, float(s.events.ln_a_inflation_end)
+                                    + extra_efolds), t_end + 3.0 * extra_efolds / h_end,
+                         fdense.t_final)
     steps = [fdense.step_starts[fdense.step_starts < t_stop], [t_stop]]
     if past is not None:
         pd = past.dense
@@ -255,11 +260,13 @@ def table_from_state(potential: Any, critical_density: float, phi0: float, phido
     equal rho_c, H = 0, a_B = 1. The contracting branch is added back to rho = ``past_density``
     or to t = -``t_past`` (either may be None; both None: no past), by time reversal. With
     ``critical_density = inf`` the start is classical, expanding, at t = 0, a = 1. The table
-    ends ``extra_efolds`` after the end of inflation, or at ``max_efolds`` inflationary e-folds
-    or ``max_time`` if inflation has not ended by then. ``points_per_unit`` nodes per unit of
-    background clock, 20 times fewer in the slow roll between ln a = ``dense_efolds`` and 100
-    e-folds before the end of inflation. ``settings`` (optional) gives the engine's budgets;
-    ``rtol``, ``max_time`` and ``max_efolds`` override its tolerance and caps.
+    goes a little beyond the end of inflation: ``extra_efolds`` e-folds or 3 ``extra_efolds``
+    / H_end Planck times after it, whichever comes first; it ends at ``max_efolds``
+    inflationary e-folds or ``max_time`` if inflation has not ended by then.
+    ``points_per_unit`` nodes per unit of background clock, 20 times fewer in the slow roll
+    between ln a = ``dense_efolds`` and 100 e-folds before the end of inflation. ``settings``
+    (optional) gives the engine's budgets; ``rtol``, ``max_time`` and ``max_efolds`` override
+    its tolerance and caps.
     """
     rc = float(critical_density)
     base = settings or IntegrationSettings()
