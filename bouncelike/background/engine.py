@@ -306,9 +306,10 @@ _EVENT_FIELDS = tuple(_B[k] for k in ("t_bounce", "t_si_end", "t_inf_start", "t_
 def _summary(state: Any, book: Any, y: np.ndarray, system: System, fn: Any, kind: int,
              pp: tuple, compiled: bool, settings: IntegrationSettings,
              target_density: float) -> RunSummary:
-    """The typed summary of a finished run from its solver state and bookkeeping records."""
-    sv = state.tolist()
-    bv = book.tolist()
+    """The typed summary of a finished run from its solver state and bookkeeping records
+    (records or their ``tolist()`` tuples)."""
+    sv = state if isinstance(state, tuple) else state.tolist()
+    bv = book if isinstance(book, tuple) else book.tolist()
     s = {"t": sv[_S["t"]], "n_steps": sv[_S["n_steps"]], "mode": sv[_S["mode"]]}
     b = {k: bv[_B[k]] for k in ("status", "lna_final", "lna_inf_end", "lna_inf_start")}
     reason = REASONS.get(sv[_S["reason"]]) or STOPS[bv[_B["stop"]]]
@@ -360,19 +361,19 @@ def run_many(system: System, potential: Any, starts: list[Start],
     code, prm = system.code, system.parameters
     Y = np.zeros((m, solver.N))
     atol = np.empty((m, 3, solver.N))
-    states = np.zeros(m, dtype=solver.STATE)
-    books = np.empty(m, dtype=problem.BOOK)
+    scalar = all(st.atol is None or np.ndim(st.atol) == 0 for st in starts)
     for j, st in enumerate(starts):
-        n = len(st.y0)
-        Y[j, :n] = st.y0
-        a = settings.atol if st.atol is None else st.atol
-        if np.ndim(a) == 0:
-            atol[j] = float(a)
+        Y[j, :len(st.y0)] = st.y0
+        if scalar:
+            atol[j] = settings.atol if st.atol is None else float(st.atol)
         else:
+            n = len(st.y0)
             atol[j] = 1.0
-            atol[j, :, :n] = np.broadcast_to(np.asarray(a, dtype=float), (3, n))
-        states[j]["mode"] = int(st.mode)
-        books[j] = problem.new_book(st.bounced, st.has_bounce)[0]
+            atol[j, :, :n] = np.broadcast_to(np.asarray(
+                settings.atol if st.atol is None else st.atol, dtype=float), (3, n))
+    states = np.zeros(m, dtype=solver.STATE)
+    states["mode"] = [st.mode for st in starts]
+    books = problem.new_books([st.bounced for st in starts], [st.has_bounce for st in starts])
     cfg = problem.new_config(float(settings.max_inflation_efolds))
     if not compiled:
         states, books, cfg = (a.view(np.recarray) for a in (states, books, cfg))
@@ -398,8 +399,8 @@ def run_many(system: System, potential: Any, starts: list[Start],
                     books[j_next:j_next + 1])
             j_next += 1
         j = j_next
-    return [_summary(states[i], books[i], Y[i], system, fn, kind, pp, compiled, settings, 0.0)
-            for i in range(m)]
+    return [_summary(sv, bv, Y[i], system, fn, kind, pp, compiled, settings, 0.0)
+            for i, (sv, bv) in enumerate(zip(states.tolist(), books.tolist(), strict=True))]
 
 
 def _final_observables(system: System, y: np.ndarray, mode: int, fn: Any, kind: int,

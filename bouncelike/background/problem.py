@@ -113,6 +113,14 @@ def new_book(bounced: bool, has_bounce: bool) -> np.ndarray:
     return np.frombuffer(bytearray(_BOOKS[bool(bounced), bool(has_bounce)]), dtype=BOOK)
 
 
+def new_books(bounced: list, has_bounce: list) -> np.ndarray:
+    """Fresh bookkeeping records for many runs (flags per run)."""
+    books = np.frombuffer(bytearray(_BOOKS[False, False] * len(bounced)), dtype=BOOK)
+    books["bounced"] = bounced
+    books["has_bounce"] = has_bounce
+    return books
+
+
 def new_config(max_efolds: float, goal: int = GOAL_INFLATION, extra_efolds: float = 0.0,
                target_density: float = 0.0) -> np.ndarray:
     return np.array([(max_efolds, goal, extra_efolds, target_density)], dtype=CONFIG)

@@ -83,9 +83,10 @@ def stage_point(y, k, h, st, ytmp, n):
 
 
 @jit
-def dense_rows(y, ynew, k, h, F):
-    """The 7 coefficient rows F of the continuous extension from stages 0-15."""
-    for i in range(N):
+def dense_rows(y, ynew, k, h, F, n):
+    """The 7 coefficient rows F of the continuous extension from stages 0-15 (first n
+    components; the others stay zero)."""
+    for i in range(n):
         dy = ynew[i] - y[i]
         F[0, i] = dy
         F[1, i] = h * k[0, i] - dy
@@ -98,9 +99,10 @@ def dense_rows(y, ynew, k, h, F):
 
 
 @jit
-def dense_interpolate(y0, F, theta, out):
-    """Continuous extension at theta in [0, 1] of the step from y0 (coefficients F)."""
-    for i in range(N):
+def dense_interpolate(y0, F, theta, out, n):
+    """Continuous extension at theta in [0, 1] of the step from y0 (coefficients F), first n
+    components."""
+    for i in range(n):
         acc = 0.0
         for m in range(7):
             acc += F[6 - m, i]
@@ -124,23 +126,23 @@ def _put(r, k, row):
 
 
 @jit
-def _dense(code, prm, kind, pp, y, ynew, k, h, mode, ytmp, F):
+def _dense(code, prm, kind, pp, y, ynew, k, h, mode, ytmp, F, n):
     """Extra stages 13-15 and the coefficient rows of the continuous extension."""
     for st in range(13, 16):
-        stage_point(y, k, h, st, ytmp, N)
+        stage_point(y, k, h, st, ytmp, n)
         r, _, _ = rates(code, prm, kind, pp, tup(ytmp), mode, False)
         _put(r, k, st)
-    dense_rows(y, ynew, k, h, F)
+    dense_rows(y, ynew, k, h, F, n)
 
 
 @jit
-def _locate(code, prm, kind, pp, y, F, h, mode, b, c, idx, th_lo, g_lo, ytmp):
+def _locate(code, prm, kind, pp, y, F, h, mode, b, c, idx, th_lo, g_lo, ytmp, n):
     """Bisection on the continuous extension for the root of event ``idx`` in (th_lo, 1]."""
     lo, hi = th_lo, 1.0
     sign_lo = g_lo > 0.0
     for _ in range(60):
         mid = 0.5 * (lo + hi)
-        dense_interpolate(y, F, mid, ytmp)
+        dense_interpolate(y, F, mid, ytmp, n)
         g = event_values(code, prm, kind, pp, tup(ytmp), mode, b, c)
         if (g[idx] > 0.0) == sign_lo:
             lo = mid
@@ -308,17 +310,17 @@ def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, 
                 down = g_lo[i] >= 0.0 > g_hi[i]
                 if (di == 1 and up) or (di == -1 and down) or (di == 2 and (up or down)):
                     if not have_dense:
-                        _dense(code, prm, kind, pp, y, ynew, k, h, mode, ytmp, F)
+                        _dense(code, prm, kind, pp, y, ynew, k, h, mode, ytmp, F, n)
                         n_rhs += 3
                         have_dense = True
                     th = _locate(code, prm, kind, pp, y, F, h, mode, b, c, i, th_lo, g_lo[i],
-                                 ytmp)
+                                 ytmp, n)
                     if th < best:
                         best = th
                         best_i = i
             if best_i < 0:
                 break
-            dense_interpolate(y, F, best, ytmp)
+            dense_interpolate(y, F, best, ytmp, n)
             ye = tup(ytmp)
             act = handle_event(code, prm, kind, pp, best_i, t + best * h, ye, mode, b, c)
             d = event_directions(code, prm, mode, b, c)  # the bookkeeping has changed
@@ -332,12 +334,12 @@ def advance(code, prm, kind, pp, rtol, atol, max_time, max_steps, chunk, store, 
             g_lo = event_values(code, prm, kind, pp, ye, mode, b, c)
             g_hi = event_values(code, prm, kind, pp, yn, mode, b, c)
         if store and not have_dense:
-            _dense(code, prm, kind, pp, y, ynew, k, h, mode, ytmp, F)
+            _dense(code, prm, kind, pp, y, ynew, k, h, mode, ytmp, F, n)
             n_rhs += 3
             have_dense = True
         if action != CONTINUE:
             # the step ends at the event: stop there, or change variables and go on
-            dense_interpolate(y, F, stop_theta, ytmp)
+            dense_interpolate(y, F, stop_theta, ytmp, n)
             t_event = t + stop_theta * h
             if store:
                 rec, n_store = _store(rec, n_store, t, t_event, h, mode, y, F)
@@ -437,6 +439,6 @@ def interpolate_states(rec, index, tq, out):
             for i in range(N):
                 out[q, i] = y0[i]
         else:
-            dense_interpolate(y0, F, theta, buf)
+            dense_interpolate(y0, F, theta, buf, N)
             for i in range(N):
                 out[q, i] = buf[i]
