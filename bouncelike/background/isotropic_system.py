@@ -82,8 +82,10 @@ def error_scale(prm, y, ynew, aux0, aux1, mode, rtol, atol, memory):
     s0 = atol + rtol * max(1.0, max(abs(y[0]), abs(ynew[0])))
     s1 = atol * rho_scale + rtol * max(max(abs(y[1]), abs(ynew[1])), memory)
     s2 = atol * rho_scale + rtol * max(max(abs(y[2]), abs(ynew[2])), math.sqrt(2.0 * rho))
+    if mode != BOUNCE:  # H is not evolved: three components
+        return (s0, s1, s2, 1.0, 1.0, 1.0), 3
     s3 = atol + rtol * max(max(abs(y[3]), abs(ynew[3])), math.sqrt(EIGHT_PI_3 * rho))
-    return (s0, s1, s2, s3, 1.0, 1.0), (4 if mode == BOUNCE else 3)
+    return (s0, s1, s2, s3, 1.0, 1.0), 4
 
 
 @inline
