@@ -1,41 +1,62 @@
 """Command-line front end: ``bouncelike <command> ...`` and ``python -m bouncelike``.
 
-Each command lives in its own module under :mod:`bouncelike.commands` and is discovered
-automatically. A command module defines::
+The commands are the modules listed in :data:`COMMANDS` (imported explicitly: nothing is
+imported by a name read at run time). A command module defines::
 
-    NAME = "score"                       # the sub-command
+    NAME = "efolds"                                  # the sub-command
     HELP = "one line shown in --help"
-    def add_arguments(parser): ...       # argparse options
-    def run(args) -> int: ...            # exit code
+    OPTIONS = Options(config="[potential] and [efolds]", output="bouncelike-out/<config stem>/",
+                      workers="[efolds] workers", compiles=True)   # shared options it takes
+    def add_arguments(parser): ...                   # its own options only
+    def run(args, session) -> CommandResult: ...     # compute, write, return the result
 
-Bad input raises :class:`~bouncelike.errors.InputError`; it is printed here as one line,
-``bouncelike: error: <message>``, with exit code 2. Commands compute before they write, and
-write atomically (:mod:`bouncelike.io`), so an error leaves no half-written output.
+and imports its heavy modules inside ``run`` so that ``bouncelike --help`` stays fast. The
+shared options, the :class:`~bouncelike.commands._layer.Session` (configuration, checked output
+folder, workers, notices, provenance, timing) and the result object are in
+:mod:`bouncelike.commands._layer`.
+
+This front end prints the result: its text, or with ``--json`` one JSON object on stdout with
+the ``provenance`` block (:mod:`bouncelike.provenance`) and ``timing``. Notices, progress bars
+and errors go to stderr, so ``--json`` output stays parseable. Errors become one line
+``bouncelike: error: <message>``, never a traceback:
+
+* :class:`~bouncelike.errors.InputError` (bad configuration, data file, option, or an output
+  folder that cannot be written) -- exit code 2, before any computation, nothing written;
+* a file-system error while writing (:class:`OSError` naming a file) -- exit code 2;
+* :class:`~bouncelike.errors.NotEvaluable` and other
+  :class:`~bouncelike.errors.NumericalFailure` -- exit code 1;
+* Ctrl-C -- ``bouncelike: interrupted: ...``, exit code 130.
+
+Commands that compile numba kernels (``Options.compiles``) get a writable kernel cache
+(:func:`bouncelike.kernel_cache.configure`) and, while kernels compile, the notice
+``bouncelike: compiling kernels (first run only; ...)`` on stderr (hidden by ``--quiet``).
 """
 
 from __future__ import annotations
 
 import argparse
-import importlib
-import pkgutil
+import json
 import sys
 from collections.abc import Sequence
 
 from . import __version__
-from .errors import EXIT_INPUT_ERROR, InputError, NumericalFailure
+from .commands import (
+    compare,
+    constraints,
+    demo,
+    efolds,
+    report,
+    sample,
+    score,
+    spectrum,
+    transfer_check,
+)
+from .commands._layer import CommandResult, Session, add_shared_options
+from .errors import EXIT_INPUT_ERROR, InputError, NotEvaluable, NumericalFailure
 
-
-def _command_modules() -> list:
-    from . import commands
-
-    mods = []
-    for info in sorted(pkgutil.iter_modules(commands.__path__), key=lambda m: m.name):
-        if info.name.startswith("_"):
-            continue
-        mod = importlib.import_module(f"{commands.__name__}.{info.name}")
-        if hasattr(mod, "NAME") and hasattr(mod, "run"):
-            mods.append(mod)
-    return mods
+COMMANDS = (compare, constraints, demo, efolds, report, sample, score, spectrum, transfer_check)
+EXIT_NUMERICAL_FAILURE = 1
+EXIT_INTERRUPTED = 130
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -43,46 +64,92 @@ def build_parser() -> argparse.ArgumentParser:
         prog="bouncelike",
         description="Confront quantum-gravity bounce models with CMB constraints on the "
         "primordial spectra.",
+        epilog="exit codes: 0 done; 1 numerical failure or not evaluable; 2 bad input or an "
+        "output that cannot be written (nothing written); 130 interrupted",
     )
     parser.add_argument("--version", action="version", version=f"bouncelike {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    for mod in _command_modules():
+    for mod in COMMANDS:
         p = sub.add_parser(mod.NAME, help=mod.HELP, description=mod.HELP)
         mod.add_arguments(p)
-        p.add_argument("--plugin", action="append", default=[], metavar="FILE.py",
-                       help="run this Python file first (it may register user potentials "
-                       "with bouncelike.background.potentials.register_potential); named in "
-                       "the provenance of the outputs; repeatable")
-        p.set_defaults(_run=mod.run)
+        add_shared_options(p, mod.OPTIONS)
+        p.set_defaults(_command=mod)
     return parser
 
 
 def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
-    if not getattr(args, "_run", None):
+    mod = getattr(args, "_command", None)
+    if mod is None:
         parser.print_help()
         return EXIT_INPUT_ERROR
     try:
-        from .plugins import load_plugin
-
-        for plugin in getattr(args, "plugin", []):
-            load_plugin(plugin)
-        return int(args._run(args) or 0)
+        return _run(mod, args)
     except InputError as exc:
-        print(f"bouncelike: error: {exc}", file=sys.stderr)
-        return EXIT_INPUT_ERROR
-    except NumericalFailure as exc:  # a configuration the model cannot evaluate
-        print(f"bouncelike: numerical failure: {exc}", file=sys.stderr)
-        return 1
+        return _error(str(exc), EXIT_INPUT_ERROR)
+    except NotEvaluable as exc:
+        return _error(f"not evaluable: {exc}", EXIT_NUMERICAL_FAILURE)
+    except NumericalFailure as exc:
+        return _error(f"numerical failure: {exc}", EXIT_NUMERICAL_FAILURE)
     except KeyboardInterrupt as exc:  # RunInterrupted says where it stopped
         print("bouncelike: interrupted" + (f": {exc}" if str(exc) else ""), file=sys.stderr)
-        return 130
+        return EXIT_INTERRUPTED
     except BrokenPipeError:  # output piped into a pager or head that closed early
         import os
 
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 0
+    except OSError as exc:
+        if exc.filename is None:
+            raise
+        return _error(f"cannot write or read '{exc.filename}': {exc.strerror or exc}",
+                      EXIT_INPUT_ERROR)
+
+
+def _error(message: str, code: int) -> int:
+    print(f"bouncelike: error: {' '.join(message.split())}", file=sys.stderr)
+    return code
+
+
+def _run(mod, args: argparse.Namespace) -> int:
+    import contextlib
+
+    from .plugins import load_plugin
+
+    quiet = bool(args.quiet)
+    announce = None if quiet else (lambda text: print(f"bouncelike: {text}", file=sys.stderr,
+                                                      flush=True))
+    with contextlib.ExitStack() as stack:
+        watch = None
+        if mod.OPTIONS.compiles:
+            from .kernel_cache import CompileWatch, configure
+
+            where, notice = configure()
+            if notice and announce is not None:
+                announce(f"note: {notice}")
+            watch = stack.enter_context(CompileWatch(where, announce))
+        session = Session(mod.NAME, mod.OPTIONS, args, watch)
+        for plugin in args.plugin:
+            load_plugin(plugin)
+        result = mod.run(args, session)
+        return emit(result, session)
+
+
+def emit(result: CommandResult, session: Session) -> int:
+    """Print ``result``: one JSON object with --json, else its text; its message on stderr."""
+    from .io import _jsonable, json_safe
+
+    if session.json:
+        payload = {**result.data,
+                   "provenance": dict(result.provenance or session.provenance()),
+                   "timing": session.timing()}
+        print(json.dumps(json_safe(payload), indent=2, default=_jsonable), flush=True)
+    elif result.text:
+        print(result.text, flush=True)
+    if result.message:
+        print(result.message, file=sys.stderr, flush=True)
+    return int(result.exit_code)
 
 
 if __name__ == "__main__":  # pragma: no cover

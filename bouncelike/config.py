@@ -8,7 +8,6 @@ allowed ones.
 
 Top-level sections of a run configuration (each validated by the module that owns it):
 
-``run``           name and output folder
 ``model``         which forward model produces the spectra (``spectra = ...``)
 ``power_law``     a power-law primordial spectrum
 ``slow_roll``     slow-roll prediction of a potential at N_* e-folds
@@ -40,7 +39,6 @@ else:  # pragma: no cover
     import tomli as tomllib
 
 TOP_LEVEL_SECTIONS = (
-    "run",
     "model",
     "power_law",
     "slow_roll",
@@ -246,7 +244,18 @@ def _range_text(lo: Any, hi: Any, xlo: bool, xhi: bool) -> str:
     return " and ".join(parts) if parts else "any value"
 
 
+RETIRED_SECTIONS = {
+    "run": "section [run] is not read by any command (its name was never used); remove it: "
+           "outputs go to bouncelike-out/<configuration file stem>/ or to --output DIR, and a "
+           "posterior run is named by [sampling] run_name",
+}
+
+
 def load_run_config(path: str | Path) -> Table:
-    """Read a run configuration and reject unknown top-level sections."""
+    """Read a run configuration and reject unknown top-level sections (a retired section gets
+    a one-line pointer to what replaced it)."""
     data = read_toml(path)
+    for name, pointer in RETIRED_SECTIONS.items():
+        if name in data:
+            raise InputError(f"'{path}': {pointer}")
     return Table(data, "", TOP_LEVEL_SECTIONS)

@@ -26,7 +26,7 @@ import json
 import os
 import shutil
 import tempfile
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterable, Iterator
 from pathlib import Path
 from typing import Any
 
@@ -197,19 +197,8 @@ class OutputSet:
 
     def commit(self) -> list[Path]:
         """Move the staged files into place; on any error restore what was there before."""
-        from .errors import InputError
-
         for final in self.files:
-            if final.is_dir():
-                blocker, what = final, "a folder"
-            else:
-                blocker = next((p for p in final.parents if p.exists() and not p.is_dir()),
-                               None)
-                what = "a file"
-            if blocker is not None:
-                raise InputError(f"cannot write '{final}': {what} '{blocker}' is in the way; "
-                                 "move it away or choose another output folder (nothing "
-                                 "was written)")
+            _check_not_blocked(final)
         backups = self.staging / ".previous"
         done: list[tuple[Path, Path | None]] = []
         try:
@@ -265,6 +254,57 @@ def output_set(root: str | Path) -> Iterator[OutputSet]:
     except BaseException:
         current.discard()
         raise
+
+
+def _check_not_blocked(final: Path) -> None:
+    """InputError when a folder is where the file ``final`` goes, or a file is where one of
+    its folders goes."""
+    from .errors import InputError
+
+    if final.is_dir():
+        blocker, what = final, "a folder"
+    else:
+        blocker = next((p for p in final.parents if p.exists() and not p.is_dir()), None)
+        what = "a file"
+    if blocker is not None:
+        raise InputError(f"cannot write '{final}': {what} '{blocker}' is in the way; "
+                         "move it away or choose another output folder (nothing "
+                         "was written)")
+
+
+def check_output_folder(folder: str | Path, files: Iterable[str] = (),
+                        option: str = "--output") -> Path:
+    """Check, before any computation, that the outputs can be written into ``folder``.
+
+    Raises :class:`~bouncelike.errors.InputError` (one line, nothing created) when ``folder``
+    is a file, when a file is where one of its parent folders should be, when the nearest
+    existing folder above it is not writable (probed by creating and removing a temporary
+    file), or when one of ``files`` (names relative to ``folder``) is an existing folder.
+    ``option`` names where the folder came from in messages. Returns ``folder``."""
+    from .errors import InputError
+
+    folder = Path(folder)
+    if folder.exists() and not folder.is_dir():
+        raise InputError(f"{option} '{folder}' is a file; allowed: a folder (existing or "
+                         "to be created)")
+    existing = folder
+    while not existing.exists() and existing != existing.parent:
+        existing = existing.parent
+    if not existing.is_dir():
+        raise InputError(f"cannot create the output folder '{folder}': '{existing}' is a "
+                         "file; choose another folder")
+    try:
+        fd, probe = tempfile.mkstemp(prefix=".bouncelike-probe-", dir=existing)
+        os.close(fd)
+        os.unlink(probe)
+    except OSError as exc:
+        where = "" if existing == folder else f" (its nearest existing folder '{existing}')"
+        raise InputError(f"output folder '{folder}'{where} is not writable "
+                         f"({exc.strerror or exc}); choose another with {option} DIR"
+                         ) from None
+    for name in files:
+        _check_not_blocked(folder / name)
+    return folder
 
 
 def clean_orphans(folder: str | Path, temporary_files: bool = True) -> list[Path]:

@@ -28,6 +28,43 @@ import sys
 from collections.abc import Callable, Iterable, Iterator
 from typing import Any
 
+MAX_WORKERS = 256
+"""Upper bound on local worker processes (``--workers`` and every configuration's ``workers``):
+a guard against typos such as 2000; more processes than cores only slow a run down, and runs
+beyond one machine use MPI ranks (``mpiexec -n N``), which this bound does not limit."""
+
+
+def mpi_size() -> int:
+    """Number of MPI ranks this process was started with (1 outside an MPI launcher)."""
+    for var in ("OMPI_COMM_WORLD_SIZE", "PMI_SIZE", "MPI_LOCALNRANKS"):
+        value = os.environ.get(var, "")
+        if value.isdigit() and int(value) > 1:
+            return int(value)
+    return 1
+
+
+def resolve_workers(requested: int | None, table: Any = None, key: str = "workers") -> int:
+    """How many workers a command runs with -- the one place that decides it.
+
+    ``requested`` is ``--workers`` (None when not given); otherwise ``table`` (a
+    :class:`bouncelike.config.Table`, e.g. ``[efolds]``) is asked for ``key``; default 1.
+    Both must lie in 1..:data:`MAX_WORKERS` (else :class:`~bouncelike.errors.InputError`
+    naming the option or key). Under an MPI launcher the MPI ranks are the workers whatever
+    was asked (:func:`make_pool` builds an MPI pool), and their number is returned.
+    """
+    from .errors import InputError
+
+    if requested is not None:
+        if isinstance(requested, bool) or not 1 <= int(requested) <= MAX_WORKERS:
+            raise InputError(f"'--workers' = {requested} is out of range; allowed: >= 1 and "
+                             f"<= {MAX_WORKERS}")
+        workers = int(requested)
+    elif table is not None:
+        workers = table.integer(key, 1, minimum=1, maximum=MAX_WORKERS)
+    else:
+        workers = 1
+    return mpi_size() if running_under_mpi() else workers
+
 
 def running_under_mpi() -> bool:
     """True when the process was started by an MPI launcher with more than one rank."""

@@ -154,9 +154,10 @@ def test_plugin_file_on_the_command_line_registers_and_is_named(tmp_path):
     import hashlib
 
     digest = hashlib.sha256(plugin.read_bytes()).hexdigest()
-    assert out["plugins"] == [{"path": str(plugin.resolve()), "sha256": digest}]
+    plugins = out["provenance"]["plugins"]
+    assert plugins == [{"path": str(plugin.resolve()), "sha256": digest}]
     summary = json.loads((tmp_path / "b" / "efolds_summary.json").read_text())
-    assert summary["plugins"] == out["plugins"]
+    assert summary["provenance"]["plugins"] == plugins
 
 
 def test_broken_plugin_is_one_line(tmp_path):

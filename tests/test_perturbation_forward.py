@@ -7,6 +7,7 @@ import math
 
 import numpy as np
 import pytest
+from cli_helpers import check_provenance
 from perturbations_helpers import bounce_background
 
 from bouncelike.perturbations.forward import PerturbationOptions, run_bounce
@@ -70,6 +71,9 @@ def test_spectrum_command_writes_outputs(tmp_path, monkeypatch, capsys):
     for name in ("spectrum.csv", "spectrum.pdf", "spectrum.png", "spectrum.json"):
         assert (tmp_path / "out" / name).is_file()
     assert out["k_lqc_mpc"] == pytest.approx(run.scales.k_lqc_mpc)
+    check_provenance(out["provenance"], "spectrum", cfg, ())
+    stored = json.loads((tmp_path / "out" / "spectrum.json").read_text())
+    assert stored["provenance"] == out["provenance"]
     # m^2 phi^2 with N_* = 55 at k_* >> k_LQC: slow-roll values (Encyclopaedia Inflationaris)
     assert out["pivot_summary"]["n_s"] == pytest.approx(1 - 2 / 55.5, abs=5e-3)
 

@@ -111,8 +111,16 @@ def test_fast_model_reduces_to_power_law_far_above_bounce():
     k = np.geomspace(1e-4, 0.2, 9)
     np.testing.assert_allclose(s.scalar(k), math.exp(3.044) * 1e-10 * (k / 0.05) ** -0.035,
                                rtol=2e-3)
-    low = {**p, "log10_k_lqc": -1.0}
+    # window below the certified 0.01 k_LQC: evaluated, flagged uncertified (tilts inside the
+    # calibrated range: r = 0.14 gives n_t = -0.0175)
+    low = {**p, "r": 0.14, "log10_k_lqc": -1.0}
     assert not m.derived(low)["certified"] and m.spectra(low).notes
+    # features in the window with a tensor tilt the residual phase was not calibrated for:
+    # not evaluable (no edge values held), one line naming the quantity and the range
+    from bouncelike.errors import NotEvaluable
+
+    with pytest.raises(NotEvaluable, match=r"n_t = -r/8 = -0.00125 is outside the calibrated"):
+        m.spectra({**p, "log10_k_lqc": -1.0})
 
 
 def test_fast_model_matches_exact_transfer_in_the_window():
@@ -149,6 +157,9 @@ def test_transfer_check_command(capsys):
                      "--json"]) == 0
     out = json.loads(capsys.readouterr().out)
     assert out["max_error_above"]["0.1"] <= 0.01
+    from cli_helpers import check_provenance
+
+    check_provenance(out["provenance"], "transfer-check", None, ())
 
 
 def test_dense_figure_spectrum_resolves_the_oscillations():

@@ -6,6 +6,7 @@ import json
 
 import pandas as pd
 import pytest
+from cli_helpers import check_provenance
 
 from bouncelike.cli import main
 
@@ -17,6 +18,8 @@ def test_demo_runs_end_to_end(tmp_path, capsys):
     summary = json.loads(capsys.readouterr().out)
     assert summary["output"] == str(out)
     assert (out / "score.json").is_file()
+    check_provenance(summary["provenance"], "demo", None, ("planck2018_base", "bk18"))
+    assert json.loads((out / "score.json").read_text())["provenance"] == summary["provenance"]
     for name in ("starobinsky", "quadratic"):
         report = out / "chains" / name / "report"
         for f in ("verdicts.md", "marginals.tex", "triangle.png", "spectra.pdf",
@@ -39,6 +42,10 @@ def test_demo_runs_end_to_end(tmp_path, capsys):
     for f in ("efolds.png", "ns_r.png", "not_evaluable.png", "not_evaluable.json"):
         assert (report / f).is_file(), f
     bounce = json.loads((report / "verdicts.json").read_text())
+    manifest = json.loads((out / "chains" / "bounce" / "manifest.json").read_text())
+    check_provenance(manifest["provenance"], "sample", out / "bounce.toml")
+    check_provenance(bounce["provenance"], "demo", out / "chains" / "bounce" / "manifest.json")
+    assert bounce["provenance"]["upstream"] == manifest["provenance"]
     # the lower limit on the bounce potential fraction is where the spectra stop being
     # representable by the pivot summary (features in the window), not a data bound
     edge = {c["parameter"]: c for c in bounce["not_evaluable"]["coincidences"]

@@ -10,6 +10,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from cli_helpers import check_provenance
 
 from bouncelike.cli import main
 from bouncelike.reporting import evidence as V
@@ -75,6 +76,9 @@ def test_power_law_posterior_reproduces_planck_2018(tmp_path, capsys):
     assert main(["sample", str(cfg), "--quiet", "--json"]) == 0
     summary = json.loads(capsys.readouterr().out)
     assert summary["status"] == "converged"
+    check_provenance(summary["provenance"], "sample", cfg, ("planck2018_base",))
+    manifest = json.loads((Path(summary["run_folder"]) / "manifest.json").read_text())
+    assert manifest["provenance"] == summary["provenance"]
     samples = pd.read_csv(Path(summary["run_folder"]) / "samples.csv")
     for name, mean, sigma in (("ln_1e10_As", 3.044, 0.014), ("n_s", 0.9649, 0.0042)):
         mc_error = samples[name].std() / math.sqrt(summary["effective_sample_size"][name])
@@ -106,6 +110,12 @@ def test_quadratic_slow_roll_excluded_by_bk18_and_planck(quadratic_report, capsy
     # arXiv:2110.00483), while its tilt is acceptable to Planck alone.
     assert main(["report", str(quadratic_report), "--json"]) == 0
     v = json.loads(capsys.readouterr().out)
+    check_provenance(v["provenance"], "report", quadratic_report / "manifest.json",
+                     ("planck2018_base", "bk18"))
+    manifest = json.loads((quadratic_report / "manifest.json").read_text())
+    assert v["provenance"]["upstream"] == manifest["provenance"]
+    stored = json.loads((quadratic_report / "report" / "verdicts.json").read_text())
+    assert stored["provenance"] == v["provenance"]
     assert v["best_fit"]["verdict"] == "excluded"
     assert v["best_fit"]["excluded_at"] == pytest.approx(0.997)
     by_set = {r["set"]: r for r in v["by_set"]}

@@ -12,7 +12,7 @@ the dynamics of ``[background]`` is not used: the cases name theirs) and ``[comp
     seed = 0
     threshold = 60.0          # e-folds; the fraction of draws above it is reported
     bins = 40
-    workers = 1               # local processes (MPI ranks under mpiexec)
+    workers = 1               # local processes, 1..256 (MPI ranks under mpiexec)
     prior = "phase"           # prior keys as in [efolds]: phase | bounce_fraction
     density = 1e-16
     density_decades = 2.0
@@ -24,8 +24,9 @@ the dynamics of ``[background]`` is not used: the cases name theirs) and ``[comp
     shear_ratios = [1e-4, 1e-3]   # adds one bianchi_i case per value (a shear scan)
     shear_direction = 0.0         # degrees, for the shear scan
 
-Writes ``compare_table.csv``, ``compare.pdf``, ``compare.png`` and ``compare_summary.json`` to
-``--output`` (default ``bouncelike-out/<config stem>/``), after every case is computed.
+Writes ``compare_table.csv``, ``compare.pdf``, ``compare.png`` and ``compare_summary.json`` (with
+the provenance block) to ``--output`` (default ``bouncelike-out/<config stem>/``, checked before
+any computation), after every case is computed.
 """
 
 from __future__ import annotations
@@ -35,11 +36,15 @@ import math
 import time
 from typing import Any
 
-from ..plugins import loaded_plugins
-from ._common import add_config_output_arguments, output_dir
+from ._layer import CommandResult, Options
 
 NAME = "compare"
 HELP = "e-fold distributions of several bounce dynamics or shear values side by side"
+OPTIONS = Options(config="[potential], [background] and [compare]",
+                  output="bouncelike-out/<config stem>/", workers="[compare] workers",
+                  compiles=True)
+FILES = {"table": "compare_table.csv", "figure_pdf": "compare.pdf",
+         "figure_png": "compare.png", "summary": "compare_summary.json"}
 
 PRIOR_KEYS = ("prior", "density", "density_decades", "fraction_min", "fraction_max",
               "fraction_scale")
@@ -48,9 +53,7 @@ COMPARE_KEYS = ("n_samples", "seed", "threshold", "bins", "workers", "cases", "s
 
 
 def add_arguments(parser: Any) -> None:
-    add_config_output_arguments(parser, "[potential], [background] and [compare]")
-    parser.add_argument("--workers", type=int, default=None, metavar="N",
-                        help="local worker processes (overrides [compare] workers)")
+    """No options of its own: CONFIG, --output, --workers, --json, --quiet are shared."""
 
 
 def cases_from_config(table: Any, critical_density: float) -> list[tuple[str, Any]]:
@@ -144,11 +147,11 @@ def make_figure(results: list[tuple[str, Any]], threshold: float, title: str) ->
     return fig
 
 
-def run(args: Any) -> int:
+def run(args: Any, session: Any) -> CommandResult:
     from ..background.efolds import efolds_distribution, prior_from_config
     from ..background.potentials import potential_from_config
     from ..background.setup import critical_density_from_config, settings_from_config
-    from ..config import Table, load_run_config
+    from ..config import Table
     from ..errors import InputError
     from ..io import (
         json_safe,
@@ -159,7 +162,7 @@ def run(args: Any) -> int:
     )
     from ..parallel import make_pool
 
-    config = load_run_config(args.config)
+    config = session.config()
     raw_bg = config.raw("background", {}) or {}
     if not isinstance(raw_bg, dict):
         raise InputError("[background] must be a table of keys")
@@ -174,15 +177,11 @@ def run(args: Any) -> int:
     seed = table.integer("seed", 0, minimum=0)
     threshold = table.number("threshold", 60.0, minimum=0.0)
     bins = table.integer("bins", 40, minimum=2, maximum=10**4)
-    workers = table.integer("workers", 1, minimum=1, maximum=1024)
-    if args.workers is not None:
-        if args.workers < 1:
-            raise InputError(f"'--workers' = {args.workers} is out of range; allowed: >= 1")
-        workers = args.workers
+    workers = session.workers(table)
     prior = prior_from_config(Table({k: v for k, v in table.data.items() if k in PRIOR_KEYS},
                                     "compare", PRIOR_KEYS))
     cases = cases_from_config(table, rho_c)
-    out_dir = output_dir(args)
+    out_dir = session.output_folder(FILES.values())
 
     from .efolds import warm_up
 
@@ -196,7 +195,7 @@ def run(args: Any) -> int:
             started = time.perf_counter()
             dist = efolds_distribution(dynamics, potential, prior, n_samples, seed, pool=pool,
                                        settings=settings, threshold=threshold, bins=bins,
-                                       convergence_samples=0, progress=not args.quiet)
+                                       convergence_samples=0, progress=session.progress)
             seconds = time.perf_counter() - started
             results.append((label, dist))
             rows.append(_row(label, dynamics, dist, seconds))
@@ -210,12 +209,8 @@ def run(args: Any) -> int:
                     for k, v in potential.parameters.items())
     title = f"{potential.name} ({pot}); {n_samples} draws per case, seed {seed}"
     fig = make_figure(results, threshold, title)
-    files = {
-        "table": out_dir / "compare_table.csv",
-        "figure_pdf": out_dir / "compare.pdf",
-        "figure_png": out_dir / "compare.png",
-        "summary": out_dir / "compare_summary.json",
-    }
+    files = {k: out_dir / v for k, v in FILES.items()}
+    timing = session.timing()
     summary = {
         "potential": {"name": potential.name, **potential.parameters},
         "prior": prior.describe(),
@@ -227,29 +222,30 @@ def run(args: Any) -> int:
         "cases": [{**row, "describe": dyn.describe()}
                   for row, (_, dyn) in zip(rows, cases, strict=True)],
         "files": {k: str(v) for k, v in files.items()},
-        "plugins": loaded_plugins(),
+        "elapsed_seconds": timing["wall_seconds"],
+        "compile_seconds": timing["compile_seconds"],
     }
+    provenance = session.provenance()
     with output_set(out_dir):  # all four files, or none
         write_csv_atomic(files["table"], frame, float_format="%.8g")
         save_figure_atomic(fig, files["figure_pdf"])
         save_figure_atomic(fig, files["figure_png"], dpi=150)
-        write_json_atomic(files["summary"], json_safe(summary))
+        write_json_atomic(files["summary"], json_safe({**summary, "provenance": provenance}))
     import matplotlib.pyplot as plt
 
     plt.close(fig)
-    if args.json:
-        print(json.dumps(json_safe(summary)))
-        return 0
-    print(f"Duration of inflation by dynamics: {title}")
-    head = f"  {'case':<28} {'median':>8} {'5%':>8} {'95%':>8} {f'>{threshold:g}':>7} " \
-           f"{'cap':>4} {'fail':>4} {'residual':>9} {'time':>7}"
-    print(head)
+    lines = [f"Duration of inflation by dynamics: {title}"]
+    lines.append(f"  {'case':<28} {'median':>8} {'5%':>8} {'95%':>8} {f'>{threshold:g}':>7} "
+                 f"{'cap':>4} {'fail':>4} {'residual':>9} {'time':>7}")
     for r in rows:
-        print(f"  {r['label'][:28]:<28} {_f(r['median'])} {_f(r['p5'])} {_f(r['p95'])} "
-              f"{r['fraction_above_threshold']:7.2f} {r['n_efold_cap']:4d} {r['n_failed']:4d} "
-              f"{r['max_constraint_residual']:9.1e} {r['seconds']:6.1f}s")
-    print("\n  wrote " + ", ".join(str(p) for p in files.values()))
-    return 0
+        lines.append(
+            f"  {r['label'][:28]:<28} {_f(r['median'])} {_f(r['p5'])} {_f(r['p95'])} "
+            f"{r['fraction_above_threshold']:7.2f} {r['n_efold_cap']:4d} {r['n_failed']:4d} "
+            f"{r['max_constraint_residual']:9.1e} {r['seconds']:6.1f}s")
+    lines.append(f"\n  time {session.time_text()}; wrote "
+                 + ", ".join(str(p) for p in files.values()))
+    return CommandResult(data=summary, text="\n".join(lines), provenance=provenance,
+                         files=tuple(str(p) for p in files.values()))
 
 
 def _f(x: float) -> str:

@@ -7,25 +7,22 @@ Sets of pivot constraints are listed first, then the large-scale temperature set
 
 from __future__ import annotations
 
-import json
 from typing import Any
 
-from ..io import json_safe
-from ..likelihood.lowell_data import LowEllData, available_low_ell_sets
-from ..likelihood.sets import QUANTITY_LABELS, ConstraintSet, available_sets, load_constraint_set
+from ._layer import CommandResult, Options
 
 NAME = "constraints"
 HELP = "list the shipped constraint sets with their citations (forecasts labelled)"
+OPTIONS = Options()
 
 
 def add_arguments(parser: Any) -> None:
     parser.add_argument(
         "sets", nargs="*", help="set names or set-file paths to show (default: all shipped sets)"
     )
-    parser.add_argument("--json", action="store_true", help="print one JSON object instead")
 
 
-def format_low_ell_set(s: LowEllData) -> str:
+def format_low_ell_set(s: Any) -> str:
     tag = "  [FORECAST, not a measurement]" if s.is_forecast else ""
     ells = [int(e) for e in s.ells]
     m = s.reference_model
@@ -47,7 +44,10 @@ def format_low_ell_set(s: LowEllData) -> str:
     ])
 
 
-def format_set(s: ConstraintSet | LowEllData) -> str:
+def format_set(s: Any) -> str:
+    from ..likelihood.lowell_data import LowEllData
+    from ..likelihood.sets import QUANTITY_LABELS
+
     if isinstance(s, LowEllData):
         return format_low_ell_set(s)
     tag = "  [FORECAST, not a measurement]" if s.is_forecast else ""
@@ -68,11 +68,12 @@ def format_set(s: ConstraintSet | LowEllData) -> str:
     return "\n".join(lines)
 
 
-def run(args: Any) -> int:
+def run(args: Any, session: Any) -> CommandResult:
+    from ..likelihood.lowell_data import available_low_ell_sets
+    from ..likelihood.sets import available_sets, load_constraint_set
+
     names = args.sets or [*available_sets(), *available_low_ell_sets()]
     sets = [load_constraint_set(n) for n in names]
-    if args.json:
-        print(json.dumps(json_safe({"sets": [s.as_dict() for s in sets]}), indent=2))
-    else:
-        print("\n\n".join(format_set(s) for s in sets))
-    return 0
+    return CommandResult(data={"sets": [s.as_dict() for s in sets]},
+                         text="\n\n".join(format_set(s) for s in sets),
+                         provenance=session.provenance(sets))

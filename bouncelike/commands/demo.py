@@ -13,12 +13,15 @@ the evidence ratio of the two potentials (a discrete setting), tables and figure
 from __future__ import annotations
 
 import argparse
-import json
-import sys
 from pathlib import Path
+from typing import Any
+
+from ._layer import CommandResult, Options
 
 NAME = "demo"
 HELP = "run a built-in scenario end to end (score, posterior runs, reports) and show outputs"
+OPTIONS = Options(output="bouncelike-out/demo", compiles=True)
+DEFAULT_OUTPUT = Path("bouncelike-out/demo")
 
 SETS = ("planck2018_base", "bk18")
 # name, prior, seed, runs compared with, exclusion-map axes, tau multiple, module needed
@@ -32,11 +35,7 @@ RUNS = (
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("--output", default="bouncelike-out/demo",
-                        help="folder for the demo's configurations, chains and reports "
-                        "(default: bouncelike-out/demo)")
-    parser.add_argument("--quiet", action="store_true", help="hide the progress bars")
-    parser.add_argument("--json", action="store_true", help="print a JSON summary")
+    """No options of its own: --output, --json, --quiet are shared."""
 
 
 def _available(module: str | None) -> bool:
@@ -77,11 +76,11 @@ refine = 2
 prior_draws = 400
 rescore_samples = 120
 evidence_draws = 2000
-compare = [{comp}]
+compare_runs = [{comp}]
 """
 
 
-def run(args: argparse.Namespace) -> int:
+def run(args: argparse.Namespace, session: Any) -> CommandResult:
     from ..io import json_safe, output_set, write_json_atomic, write_text_atomic
     from ..likelihood.gaussian import GaussianLikelihood
     from ..reporting.evidence import comparison_text, evidence_text
@@ -97,11 +96,12 @@ def run(args: argparse.Namespace) -> int:
     from ..sampling.priors import resolve_prior_path
     from ..sampling.setup import build_run
 
-    out = Path(args.output)
-    say = (lambda *a: None) if args.json else (lambda *a: print(*a, flush=True))
+    out = session.output_folder(("score.json",), default=DEFAULT_OUTPUT)
+    say = session.say
     # 1. score one point of the scenario
     model = parametric_model("slow_roll_starobinsky")
     likelihood = GaussianLikelihood.from_names(SETS)
+    provenance = session.provenance(likelihood.sets)
     point = {"N_star": 55.0, "ln_1e10_As": 3.044}
     score = likelihood.score(model.spectra(point))
     say(f"[1/3] score: Starobinsky slow roll at N_* = 55 against {', '.join(SETS)}: "
@@ -113,7 +113,8 @@ def run(args: argparse.Namespace) -> int:
     runs = [r for r in RUNS if _available(r[6])]
     with output_set(out):  # the score and the runs' configurations, as one set
         write_json_atomic(out / "score.json", json_safe({"point": point, "model": model.name,
-                                                         **score.as_dict()}))
+                                                         **score.as_dict(),
+                                                         "provenance": provenance}))
         for name, prior_name, seed, compare, emap, tau_mult, _ in runs:
             prior_src = resolve_prior_path(prior_name)
             write_text_atomic(out / "priors" / prior_src.name,
@@ -126,8 +127,7 @@ def run(args: argparse.Namespace) -> int:
         if r not in runs:
             say(f"      (run '{r[0]}' skipped: {r[6]} is not part of this build)")
     for i, (name, *_) in enumerate(runs):
-        config_path = out / f"{name}.toml"
-        setup = build_run(config_path, quiet=args.quiet or args.json,
+        setup = build_run(out / f"{name}.toml", quiet=session.quiet or session.json,
                           output=out / "chains" / name)
         say(f"[2/3] posterior run {i + 1}/{len(runs)}: {setup.model.name} "
             f"({setup.settings.walkers} walkers) -> {setup.folder}")
@@ -144,9 +144,12 @@ def run(args: argparse.Namespace) -> int:
     for name, *_ in reversed(runs):
         folder = out / "chains" / name
         data = compute_report(folder)
+        v = data["verdicts"]
+        v["provenance"] = session.provenance(
+            v.get("constraint_set_citations", []), config=folder / "manifest.json",
+            upstream=data["manifest"].get("provenance"))
         with output_set(folder / "report"):
             write_report(folder, data)
-        v = data["verdicts"]
         reports[name] = v
         bf = v["best_fit"]
         excl = [r["set"] for r in v["by_set"] if r["best_fit_verdict"] == "excluded"]
@@ -163,21 +166,16 @@ def run(args: argparse.Namespace) -> int:
             say(f"      note: {note}")
         for c in v.get("comparisons", []):
             say(f"      {comparison_text(c)}")
-    say("")
-    say(f"outputs in {out}/:")
-    say("  score.json                 score of the scenario point")
+    lines = ["", f"outputs in {out}/:",
+             "  score.json                 score of the scenario point"]
     for name, *_ in runs:
-        say(f"  {name + '.toml':26s} configuration of the run (prior file in priors/)")
-        say(f"  {'chains/' + name + '/':26s} chain.csv (pandas.read_csv), samples.csv, "
-            "manifest.json")
-        say(f"  {'chains/' + name + '/report/':26s} verdicts.md, marginals.md/.tex, triangle, "
-            "ns_r, exclusion_map, spectra, efolds, not_evaluable where the model could not be "
-            "evaluated (.pdf/.png, .caption.txt, drawn numbers in .json)")
-    if args.json:
-        print(json.dumps(json_safe({"output": str(out), "score": score.as_dict(),
-                                    "runs": summaries,
-                                    "verdicts": {k: {"best_fit": v["best_fit"],
-                                                     "comparisons": v["comparisons"]}
-                                                 for k, v in reports.items()}}), indent=2))
-    sys.stdout.flush()
-    return 0
+        lines += [f"  {name + '.toml':26s} configuration of the run (prior file in priors/)",
+                  f"  {'chains/' + name + '/':26s} chain.csv (pandas.read_csv), samples.csv, "
+                  "manifest.json",
+                  f"  {'chains/' + name + '/report/':26s} verdicts.md, marginals.md/.tex, "
+                  "triangle, ns_r, exclusion_map, spectra, efolds, not_evaluable where the model "
+                  "could not be evaluated (.pdf/.png, .caption.txt, drawn numbers in .json)"]
+    data = {"output": str(out), "score": score.as_dict(), "runs": summaries,
+            "verdicts": {k: {"best_fit": v["best_fit"], "comparisons": v["comparisons"]}
+                         for k, v in reports.items()}}
+    return CommandResult(data=data, text="\n".join(lines), provenance=provenance)

@@ -13,12 +13,14 @@ Reads ``[potential]``, ``[background]`` (dynamics, critical density, integration
     # fraction_min = 1e-13    # bounce_fraction prior: x = V_B / rho_c range
     # fraction_max = 1e-9
     # fraction_scale = "log"  # log | linear
-    workers = 1               # local processes (MPI ranks when run under mpiexec)
+    workers = 1               # local processes, 1..256 (MPI ranks when run under mpiexec)
     bins = 60                 # histogram bins
     convergence_samples = 100 # re-run this many draws with rho_0 two decades lower
 
-Writes ``efolds_samples.csv``, ``efolds.pdf``, ``efolds.png`` and ``efolds_summary.json`` to
-``--output`` (default ``bouncelike-out/<config stem>/``), after everything is computed. The JSON
+Writes ``efolds_samples.csv``, ``efolds.pdf``, ``efolds.png`` and ``efolds_summary.json`` (with
+the provenance block) to ``--output`` (default ``bouncelike-out/<config stem>/``, checked
+before any computation), after everything is computed; the time reported is the wall time of
+the command, compiling included (said apart on a first run). The JSON
 (key ``dynamics``) and the table (block "dynamics conventions") carry ``describe()`` of the
 dynamics: its parameters and how it reads the initial data (e.g. the shear of Bianchi I, the
 energy-angle start of the asymmetric bounce). The H/omega figure and its warning apply only to
@@ -27,16 +29,18 @@ dynamics whose field oscillates before the bounce.
 
 from __future__ import annotations
 
-import json
 import math
-import time
 from typing import Any
 
-from ..plugins import loaded_plugins
-from ._common import add_config_output_arguments, output_dir
+from ._layer import CommandResult, Options
 
 NAME = "efolds"
 HELP = "distribution of the number of inflationary e-folds after the bounce"
+OPTIONS = Options(config="[potential], [background] and [efolds]",
+                  output="bouncelike-out/<config stem>/", workers="[efolds] workers",
+                  compiles=True)
+FILES = {"samples": "efolds_samples.csv", "figure_pdf": "efolds.pdf",
+         "figure_png": "efolds.png", "summary": "efolds_summary.json"}
 
 EFOLDS_KEYS = ("n_samples", "seed", "threshold", "prior", "density", "density_decades",
                "fraction_min", "fraction_max", "fraction_scale", "workers", "bins",
@@ -44,30 +48,22 @@ EFOLDS_KEYS = ("n_samples", "seed", "threshold", "prior", "density", "density_de
 
 
 def add_arguments(parser: Any) -> None:
-    add_config_output_arguments(parser, "[potential], [background] and [efolds]")
-    parser.add_argument("--workers", type=int, default=None, metavar="N",
-                        help="local worker processes (overrides [efolds] workers)")
+    """No options of its own: CONFIG, --output, --workers, --json, --quiet are shared."""
 
 
-def _options(config: Any, workers_cli: int | None) -> dict[str, Any]:
+def _options(config: Any, session: Any) -> dict[str, Any]:
     from ..background.efolds import prior_from_config
-    from ..errors import InputError
 
     table = config.table("efolds", EFOLDS_KEYS)
-    opts = {
+    return {
         "n_samples": table.integer("n_samples", 1000, minimum=1, maximum=10**7),
         "seed": table.integer("seed", 0, minimum=0),
         "threshold": table.number("threshold", 60.0, minimum=0.0),
-        "workers": table.integer("workers", 1, minimum=1, maximum=1024),
+        "workers": session.workers(table),
         "bins": table.integer("bins", 60, minimum=2, maximum=10**4),
         "convergence_samples": table.integer("convergence_samples", 100, minimum=0),
         "prior": prior_from_config(table),
     }
-    if workers_cli is not None:
-        if workers_cli < 1:
-            raise InputError(f"'--workers' = {workers_cli} is out of range; allowed: >= 1")
-        opts["workers"] = workers_cli
-    return opts
 
 
 def summary_lines(dist: Any, setup: Any) -> list[str]:
@@ -197,10 +193,9 @@ def make_figure(dist: Any, title: str) -> Any:
     return fig
 
 
-def run(args: Any) -> int:
+def run(args: Any, session: Any) -> CommandResult:
     from ..background.efolds import efolds_distribution
     from ..background.setup import background_from_config
-    from ..config import load_run_config
     from ..io import (
         json_safe,
         output_set,
@@ -210,23 +205,21 @@ def run(args: Any) -> int:
     )
     from ..parallel import make_pool
 
-    config = load_run_config(args.config)
+    config = session.config()
     setup = background_from_config(config)
-    opts = _options(config, args.workers)
-    out_dir = output_dir(args)
+    opts = _options(config, session)
+    out_dir = session.output_folder(FILES.values())
 
     warm_up(setup.dynamics, setup.potential, opts["prior"])
-    started = time.perf_counter()
     pool = make_pool(opts["workers"])
     try:
         dist = efolds_distribution(
             setup.dynamics, setup.potential, opts["prior"], opts["n_samples"], opts["seed"],
             pool=pool, settings=setup.settings, threshold=opts["threshold"], bins=opts["bins"],
-            convergence_samples=opts["convergence_samples"], progress=not args.quiet,
+            convergence_samples=opts["convergence_samples"], progress=session.progress,
         )
     finally:
         pool.close()
-    elapsed = time.perf_counter() - started
 
     import pandas as pd
 
@@ -241,30 +234,24 @@ def run(args: Any) -> int:
     frame = pd.DataFrame(columns)
     lines = summary_lines(dist, setup)
     fig = make_figure(dist, lines[0].replace("Duration of inflation: ", ""))
+    timing = session.timing()
     result = dist.as_dict()
-    result["elapsed_seconds"] = elapsed
+    result["elapsed_seconds"] = timing["wall_seconds"]
+    result["compile_seconds"] = timing["compile_seconds"]
     result["workers"] = int(getattr(pool, "workers", 1))
-    result["plugins"] = loaded_plugins()
-    files = {
-        "samples": out_dir / "efolds_samples.csv",
-        "figure_pdf": out_dir / "efolds.pdf",
-        "figure_png": out_dir / "efolds.png",
-        "summary": out_dir / "efolds_summary.json",
-    }
+    files = {k: out_dir / v for k, v in FILES.items()}
     result["files"] = {k: str(v) for k, v in files.items()}
+    provenance = session.provenance()
 
     with output_set(out_dir):  # all four files, or none
         write_csv_atomic(files["samples"], frame, float_format="%.10g")
         save_figure_atomic(fig, files["figure_pdf"])
         save_figure_atomic(fig, files["figure_png"], dpi=150)
-        write_json_atomic(files["summary"], json_safe(result))
+        write_json_atomic(files["summary"], json_safe({**result, "provenance": provenance}))
     import matplotlib.pyplot as plt
 
     plt.close(fig)
-    if args.json:
-        print(json.dumps(json_safe(result)))
-    else:
-        print("\n".join(lines))
-        print(f"\n  time {elapsed:.2f} s on {result['workers']} worker(s); wrote "
-              + ", ".join(str(p) for p in files.values()))
-    return 0
+    text = "\n".join(lines) + (f"\n\n  time {session.time_text()} on {result['workers']} "
+                               "worker(s); wrote " + ", ".join(str(p) for p in files.values()))
+    return CommandResult(data=result, text=text, provenance=provenance,
+                         files=tuple(str(p) for p in files.values()))

@@ -3,49 +3,51 @@
 from __future__ import annotations
 
 import argparse
-import json
+from typing import Any
 
-from ..io import json_safe
+from ._layer import CommandResult, Options
 
 NAME = "report"
 HELP = "write verdicts, tables, triangle plot and figures of a posterior run into RUN/report/"
+OPTIONS = Options(output="RUN_DIR/report", compiles=True)
+JSON_KEYS = ("run_name", "model", "run_folder", "constraint_sets", "marginals", "best_fit",
+             "allowed_prior_fraction", "allowed_posterior_fraction", "savage_dickey",
+             "evidence", "comparisons", "by_set", "failures", "not_evaluable", "p_value_rules",
+             "methods")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("run_dir", help="run folder written by 'bouncelike sample'")
-    parser.add_argument("--json", action="store_true",
-                        help="print the verdicts and marginal statistics as one JSON object")
-    parser.add_argument("--output", default=None,
-                        help="folder for the report files (default: RUN_DIR/report)")
-    parser.add_argument("--quiet", action="store_true", help="print nothing but errors")
 
 
-def run(args: argparse.Namespace) -> int:
-    import sys
+def run(args: argparse.Namespace, session: Any) -> CommandResult:
     from pathlib import Path
 
     from ..io import output_set
     from ..reporting.outputs import write_report
     from ..reporting.report import compute_report
+    from ..sampling import chains
 
-    data = compute_report(args.run_dir)
+    run_dir = Path(args.run_dir)
+    chains.read_manifest(run_dir, chains.MANIFEST_NEEDS)  # a run folder? (before the output)
+    out = session.output_folder(default=run_dir / "report")
+    data = compute_report(run_dir)
     v = data["verdicts"]
     for note in v.get("loading_notes", []):
-        print(f"bouncelike: note: {note}", file=sys.stderr)
-    out = Path(args.output) if args.output is not None else Path(args.run_dir) / "report"
+        session.warn(note)
+    manifest = data["manifest"]
+    sources = {s.get("name"): s for s in manifest.get("likelihood_sources", []) or []}
+    sets = [{**c, **{k: sources.get(c.get("name"), {}).get(k) for k in ("path", "sha256")}}
+            for c in v.get("constraint_set_citations", [])]
+    provenance = session.provenance(sets, config=run_dir / chains.MANIFEST,
+                                    upstream=manifest.get("provenance"))
+    v["provenance"] = provenance
     with output_set(out):  # all report files, or none
         written = write_report(args.run_dir, data, output=args.output)
-    if args.json:
-        out = {k: v[k] for k in ("run_name", "model", "run_folder", "constraint_sets",
-                                 "marginals", "best_fit", "allowed_prior_fraction",
-                                 "allowed_posterior_fraction", "savage_dickey", "evidence",
-                                 "comparisons", "by_set", "failures", "not_evaluable",
-                                 "p_value_rules", "methods")}
-        out["files"] = [str(p) for p in written]
-        print(json.dumps(json_safe(out), indent=2, default=str))
-    elif not args.quiet:
-        print(summary_text(v, written))
-    return 0
+    result = {k: v[k] for k in JSON_KEYS}
+    result["files"] = [str(p) for p in written]
+    return CommandResult(data=result, text=summary_text(v, written), provenance=provenance,
+                         files=tuple(result["files"]))
 
 
 def summary_text(v: dict, written: list) -> str:

@@ -9,40 +9,34 @@ the number of workers.
 from __future__ import annotations
 
 import argparse
-import json
-import sys
+from typing import Any
 
-from ..io import json_safe
+from ._layer import CommandResult, Options
 
 NAME = "sample"
 HELP = "sample the posterior of a parametric model against constraint sets (emcee)"
+OPTIONS = Options(config="a [sampling] section",
+                  output="<chains_dir>/<run_name> from [sampling]",
+                  workers="[sampling] workers", compiles=True)
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("config", help="run configuration (TOML) with a [sampling] section")
     parser.add_argument("--resume", action="store_true",
                         help="continue the run in the run folder from its last checkpoint")
-    parser.add_argument("--workers", type=int, default=None,
-                        help="local worker processes for the likelihood (default: "
-                        "[sampling] workers); under mpiexec the MPI ranks are used")
-    parser.add_argument("--output", default=None,
-                        help="run folder (default: <chains_dir>/<run_name> from [sampling])")
-    parser.add_argument("--quiet", action="store_true", help="hide the progress bar")
-    parser.add_argument("--json", action="store_true", help="print the run summary as JSON")
 
 
-def run(args: argparse.Namespace) -> int:
-    from ..errors import InputError
+def run(args: argparse.Namespace, session: Any) -> CommandResult:
+    from ..io import check_output_folder
     from ..parallel import make_pool
     from ..sampling.convergence import result_summary
     from ..sampling.driver import run_sampler
     from ..sampling.posterior import install_posterior
-    from ..sampling.setup import MAX_WORKERS, build_run
+    from ..sampling.setup import build_run
 
-    if args.workers is not None and not 1 <= args.workers <= MAX_WORKERS:
-        raise InputError(f"'--workers' = {args.workers} is out of range; allowed: >= 1 and "
-                         f"<= {MAX_WORKERS}")
-    setup = build_run(args.config, workers=args.workers, quiet=args.quiet, output=args.output)
+    setup = build_run(args.config, workers=args.workers, quiet=session.quiet,
+                      output=args.output, config=session.config())
+    check_output_folder(setup.folder, option="--output" if args.output else "the run folder")
+    session.check_cores(setup.workers)
     # each worker (process or MPI rank) gets the posterior once, from the pool's initializer
     with make_pool(setup.workers, initializer=install_posterior,
                    initargs=(setup.posterior,)) as pool:
@@ -54,11 +48,8 @@ def run(args: argparse.Namespace) -> int:
     summary["run_folder"] = str(setup.folder)
     summary["wall_time_s"] = result.wall_time
     summary["likelihood_evaluations"] = result.evaluations
-    if args.json:
-        print(json.dumps(json_safe(summary), indent=2))
-    else:
-        print(format_summary(summary), file=sys.stdout)
-    return 0
+    return CommandResult(data=summary, text=format_summary(summary),
+                         provenance=setup.manifest["provenance"])
 
 
 def format_summary(s: dict) -> str:

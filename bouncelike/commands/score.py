@@ -15,27 +15,19 @@ with ``--json`` a JSON object with ``"verdict": "not evaluable"``).
 
 from __future__ import annotations
 
-import json
 import math
-import sys
 from pathlib import Path
 from typing import Any
 
-from ..config import load_run_config
-from ..errors import NotEvaluable, NumericalFailure
-from ..io import json_safe
-from ..likelihood.gaussian import Score, likelihood_from_config
-from ..likelihood.sets import QUANTITY_LABELS
-from ..models import spectra_from_config
-from ..plugins import loaded_plugins
+from ._layer import CommandResult, Options
 
 NAME = "score"
 HELP = "score one configuration against published CMB constraints (table or --json)"
+OPTIONS = Options(config="[model], the model's section and [likelihood]", compiles=True)
 
 
 def add_arguments(parser: Any) -> None:
-    parser.add_argument("config", help="run configuration (TOML)")
-    parser.add_argument("--json", action="store_true", help="print one JSON object instead")
+    """No options of its own: CONFIG, --json, --quiet are shared."""
 
 
 def _num(x: float | None, digits: int = 4) -> str:
@@ -63,7 +55,7 @@ def _published(term: Any) -> str:
     return f"{term.published:g} +- {term.error_or_limit:g}"
 
 
-def format_low_ell(score: Score, largest: int = 5) -> list[str]:
+def format_low_ell(score: Any, largest: int = 5) -> list[str]:
     """Lines of the large-scale temperature block (statistic, largest pulls, anchoring)."""
     low = score.low_ell
     ells = [int(e) for e in low.ells]
@@ -95,8 +87,10 @@ def format_low_ell(score: Score, largest: int = 5) -> list[str]:
     return lines
 
 
-def format_score(score: Score, title: str = "") -> str:
+def format_score(score: Any, title: str = "") -> str:
     """The human-readable score table."""
+    from ..likelihood.sets import QUANTITY_LABELS
+
     header = ("quantity", "k_* [1/Mpc]", "predicted", "published (68% error or limit)", "pull",
               "chi2", "source")
     rows = [
@@ -171,30 +165,27 @@ def format_score(score: Score, title: str = "") -> str:
     return "\n".join(lines)
 
 
-def run(args: Any) -> int:
+def run(args: Any, session: Any) -> CommandResult:
+    from ..errors import NotEvaluable
+    from ..likelihood.gaussian import likelihood_from_config
+    from ..models import spectra_from_config
+    from ..provenance import constraint_sets_of
+
     path = Path(args.config)
-    config = load_run_config(path)
+    config = session.config()
     likelihood = likelihood_from_config(config, base_dir=path.parent)
     spectra = spectra_from_config(config, base_dir=path.parent)
+    provenance = session.provenance(constraint_sets_of(likelihood))
     try:
         score = likelihood.score(spectra)
     except NotEvaluable as exc:
-        if args.json:
-            print(json.dumps({"verdict": "not evaluable", "reason": str(exc),
-                              "config": str(path)}, indent=2))
-        print(f"bouncelike: not evaluable: {exc}", file=sys.stderr)
-        return 1
-    except NumericalFailure as exc:
-        print(f"bouncelike: numerical failure: {exc}", file=sys.stderr)
-        return 1
+        return CommandResult(data={"verdict": "not evaluable", "reason": str(exc),
+                                   "config": str(path)},
+                             provenance=provenance, exit_code=1,
+                             message=f"bouncelike: not evaluable: {exc}")
     label = getattr(spectra, "label", "") or type(spectra).__name__
-    if args.json:
-        out = score.as_dict()
-        out["config"] = str(path)
-        out["plugins"] = loaded_plugins()
-        out["model"] = spectra.describe() if hasattr(spectra, "describe") else {"label": label}
-        print(json.dumps(json_safe(out), indent=2))
-    else:
-        title = f"{label} ({path.name}) against: {', '.join(score.sets)}"
-        print(format_score(score, title))
-    return 0
+    out = score.as_dict()
+    out["config"] = str(path)
+    out["model"] = spectra.describe() if hasattr(spectra, "describe") else {"label": label}
+    title = f"{label} ({path.name}) against: {', '.join(score.sets)}"
+    return CommandResult(data=out, text=format_score(score, title), provenance=provenance)

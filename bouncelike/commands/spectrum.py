@@ -8,27 +8,25 @@ power-law reference of the pivot summary) and ``spectrum.json``; ``--json`` prin
 from __future__ import annotations
 
 import math
+from typing import Any
 
-import numpy as np
-
-from ..plugins import loaded_plugins
-from ._common import output_dir
+from ._layer import CommandResult, Options
 
 NAME = "spectrum"
 HELP = "primordial scalar and tensor spectra of a bounce configuration (table, figure, summary)"
+OPTIONS = Options(config="[model] spectra = 'bounce'", output="bouncelike-out/<config stem>/",
+                  compiles=True)
+FILES = ("spectrum.csv", "spectrum.pdf", "spectrum.png", "spectrum.json")
 
 
-def add_arguments(parser) -> None:
-    parser.add_argument("config", help="run configuration (TOML) with [model] spectra = 'bounce'")
-    parser.add_argument("--output", default=None, help="output folder "
-                        "(default bouncelike-out/<config stem>/)")
-    parser.add_argument("--json", action="store_true", help="print the summary as JSON")
-    parser.add_argument("--quiet", action="store_true", help="no progress bar")
+def add_arguments(parser: Any) -> None:
+    """No options of its own: CONFIG, --output, --json, --quiet are shared."""
 
 
-def pivot_summary(k: np.ndarray, ps: np.ndarray, pt: np.ndarray, pivot: float,
-                  half_width: float = 1.0) -> dict:
+def pivot_summary(k: Any, ps: Any, pt: Any, pivot: float, half_width: float = 1.0) -> dict:
     """Local quadratic fit of ln P_s in ln(k/k_*) over +-half_width: A_s, n_s, running; r."""
+    import numpy as np
+
     x = np.log(k / pivot)
     m = np.abs(x) <= half_width
     if m.sum() < 4:
@@ -45,6 +43,8 @@ def pivot_summary(k: np.ndarray, ps: np.ndarray, pt: np.ndarray, pivot: float,
 
 def _dense(run) -> dict | None:
     """Densely sampled spectra where the features oscillate (None when not applicable)."""
+    import numpy as np
+
     from ..perturbations.transfer import dense_spectrum
 
     sp, tab = run.spectrum, run.table
@@ -65,6 +65,7 @@ def _figure(run, summary: dict):
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
+    import numpy as np
 
     from ..perturbations.mapping import OBSERVABLE_WINDOW
 
@@ -105,10 +106,9 @@ def _figure(run, summary: dict):
     return fig
 
 
-def run(args) -> int:
+def run(args: Any, session: Any) -> CommandResult:
     import pandas as pd
 
-    from ..config import load_run_config
     from ..io import (
         json_safe,
         output_set,
@@ -118,14 +118,15 @@ def run(args) -> int:
     )
     from ..perturbations.forward import run_from_config
 
-    config = load_run_config(args.config)
-    br = run_from_config(config, show_progress=not args.quiet)
+    config = session.config()
+    out = session.output_folder(FILES)
+    br = run_from_config(config, show_progress=session.progress)
     sp = br.spectrum
     summary = pivot_summary(br.k_mpc, sp.scalar, sp.tensor, br.scales.pivot)
-    out = output_dir(args)
     frame = pd.DataFrame({"k_mpc": br.k_mpc, "k_over_k_lqc": sp.k / sp.k_lqc,
                           "P_s": sp.scalar, "P_t": sp.tensor})
     fig = _figure(br, summary)
+    timing = session.timing()
     result = {"pivot_summary": summary, "k_lqc_mpc": br.scales.k_lqc_mpc,
               "log10_k_lqc_mpc": br.scales.ln_k_lqc_mpc / math.log(10),
               "n_star": br.scales.n_star, "n_bounce_to_pivot": br.scales.n_bounce_pivot,
@@ -134,27 +135,27 @@ def run(args) -> int:
               "max_wronskian_error": sp.max_wronskian_error,
               "background": br.table.label, **{f"background_{k}": v for k, v in
                                                br.table.info.items()},
-              "notes": list(br.notes), "plugins": loaded_plugins(),
-              "files": [str(out / n) for n in ("spectrum.csv", "spectrum.pdf", "spectrum.png",
-                                               "spectrum.json")]}
+              "notes": list(br.notes),
+              "elapsed_seconds": timing["wall_seconds"],
+              "compile_seconds": timing["compile_seconds"],
+              "files": [str(out / n) for n in FILES]}
+    provenance = session.provenance()
     with output_set(out):  # all four files, or none
         write_csv_atomic(out / "spectrum.csv", frame, index=False)
         save_figure_atomic(fig, out / "spectrum.pdf")
         save_figure_atomic(fig, out / "spectrum.png", dpi=120)
-        write_json_atomic(out / "spectrum.json", json_safe(result))
-    if args.json:
-        import json
+        write_json_atomic(out / "spectrum.json", json_safe({**result, "provenance": provenance}))
+    import matplotlib.pyplot as plt
 
-        print(json.dumps(json_safe(result)))
-    else:
-        s = summary
-        print(f"k_LQC = 10^{br.scales.ln_k_lqc_mpc / math.log(10):.2f} Mpc^-1; "
-              f"N_* = {br.scales.n_star:.2f}, "
-              f"N_B* = {br.scales.n_bounce_pivot:.2f}")
-        if "n_s" in s:
-            print(f"pivot {s['pivot']:g} Mpc^-1: ln(1e10 A_s) = {s['ln_1e10_As']:.4f}, "
-                  f"n_s = {s['n_s']:.4f}, running = {s['running']:.2e}, r = {s['r']:.3g}")
-        for n in br.notes:
-            print("note:", n)
-        print(f"wrote {out}/spectrum.{{csv,pdf,png,json}}")
-    return 0
+    plt.close(fig)
+    s = summary
+    lines = [f"k_LQC = 10^{br.scales.ln_k_lqc_mpc / math.log(10):.2f} Mpc^-1; "
+             f"N_* = {br.scales.n_star:.2f}, "
+             f"N_B* = {br.scales.n_bounce_pivot:.2f}"]
+    if "n_s" in s:
+        lines.append(f"pivot {s['pivot']:g} Mpc^-1: ln(1e10 A_s) = {s['ln_1e10_As']:.4f}, "
+                     f"n_s = {s['n_s']:.4f}, running = {s['running']:.2e}, r = {s['r']:.3g}")
+    lines.extend(f"note: {n}" for n in br.notes)
+    lines.append(f"time {session.time_text()}; wrote {out}/spectrum.{{csv,pdf,png,json}}")
+    return CommandResult(data=result, text="\n".join(lines), provenance=provenance,
+                         files=tuple(result["files"]))

@@ -4,7 +4,8 @@
 
 =====================  ==========================================================================
 prescription           "dressed_metric" (default) | "deformed_algebra"
-state                  "remote_past" (default) | "bounce_adiabatic4"
+state                  "remote_past" (default) | "bounce_adiabatic4" | "non_oscillating" |
+                       "low_energy" (states.py; the last three dressed metric only)
 sign_convention        "classical" (default, s = sign(phidot H)) | "fixed_slow_roll" (s held at
                        its slow-roll value: the printed s = -1); see prescriptions.py
 k_min, k_max           feature range in units of k_LQC (default 0.01, 100)

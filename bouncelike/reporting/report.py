@@ -38,7 +38,7 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
     frame = frame[np.isfinite(frame["log_posterior"])]
     if len(frame) < 10:
         raise InputError(f"run folder '{folder}' has fewer than 10 posterior samples")
-    rs = report_settings(manifest["config"], prior.sampled_names)
+    rs = report_settings(manifest["config"], prior.sampled_names, stored=True)
     rng = np.random.default_rng(rs["seed"])
     sampled = list(prior.sampled_names)
     derived = [n for n in prior.derived_names if n in frame.columns]
@@ -175,7 +175,7 @@ def _all_sets(likelihood: Any) -> list[Any]:
 def _comparisons(verdict: dict[str, Any], rs: dict[str, Any], manifest: dict[str, Any]
                  ) -> list[dict[str, Any]]:
     out = []
-    for other in rs["compare"]:
+    for other in rs["compare_runs"]:
         path = Path(other)
         if not path.is_absolute():
             path = Path(manifest.get("config_file", ".")).parent / path
@@ -184,7 +184,7 @@ def _comparisons(verdict: dict[str, Any], rs: dict[str, Any], manifest: dict[str
         other_v = compute_report_verdicts_only(path)
         if sorted(other_v["constraint_sets"]) != sorted(verdict["constraint_sets"]):
             raise InputError(
-                f"'report.compare': run '{other}' uses constraint sets "
+                f"'report.compare_runs': run '{other}' uses constraint sets "
                 f"{', '.join(other_v['constraint_sets'])}, this run "
                 f"{', '.join(verdict['constraint_sets'])}; chi-square and evidence compare only "
                 "on the same sets")
@@ -200,7 +200,7 @@ def compute_report_verdicts_only(folder: Path) -> dict[str, Any]:
     if stored.is_file():
         return json.loads(stored.read_text())
     if not (folder / chains.MANIFEST).is_file():
-        raise InputError(f"'report.compare': '{folder}' is not a run folder")
+        raise InputError(f"'report.compare_runs': '{folder}' is not a run folder")
     return compute_report(folder)["verdicts"]
 
 

@@ -70,6 +70,7 @@ _SUPPLIED = ("ln_1e10_As", "n_s", "r", "log10_k_lqc")
 
 class _PhysicalBounce:
     prescription = ""
+    state = "remote_past"
     parameter_names = ("log10_potential_fraction", "N_inflation", "mass", "critical_density",
                        "N_star", "equation_of_state", "log10_reheating_density")
     optional_parameter_names = ("log10_potential_fraction", "N_inflation", "N_star",
@@ -121,7 +122,8 @@ class _PhysicalBounce:
         if self._fast_model is None:
             from ..perturbations.transfer import BounceSpectraModel
 
-            self._fast_model = BounceSpectraModel(prescription=self.prescription, pivot=PIVOT)
+            self._fast_model = BounceSpectraModel(prescription=self.prescription, pivot=PIVOT,
+                                                  state=self.state)
         return self._fast_model
 
     def spectra(self, p: dict[str, float]) -> Any:
@@ -166,7 +168,7 @@ class _PhysicalBounce:
         obs = pivot_observables(tab, sm.ln_a_pivot)
         log10_k = float(sm.ln_k_lqc_mpc) / math.log(10.0)
         fast_params = {"ln_1e10_As": obs["ln_1e10_As"], "n_s": obs["n_s"], "r": obs["r"],
-                       "log10_k_lqc": log10_k}
+                       "log10_k_lqc": log10_k, "log10_potential_fraction": lx}
         extra = [n for n in self._fast().parameter_names if n not in _SUPPLIED]
         log10_d = math.nan
         for name in extra:
@@ -200,6 +202,20 @@ class PhysicalBounceDressedMetric(_PhysicalBounce):
 class PhysicalBounceDeformedAlgebra(_PhysicalBounce):
     name = "bounce_physical_deformed_algebra"
     prescription = "deformed_algebra"
+
+
+class PhysicalBounceNonOscillating(PhysicalBounceDressedMetric):
+    """Non-oscillating vacuum set around the bounce (perturbations/states_window.py)."""
+
+    name = "bounce_physical_dressed_metric_non_oscillating"
+    state = "non_oscillating"
+
+
+class PhysicalBounceLowEnergy(PhysicalBounceDressedMetric):
+    """State of low energy set around the bounce (perturbations/states_window.py)."""
+
+    name = "bounce_physical_dressed_metric_low_energy"
+    state = "low_energy"
 
 
 _DYNAMICS: dict[float, Any] = {}

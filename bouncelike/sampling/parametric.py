@@ -158,6 +158,7 @@ class _BounceTransfer:
     """
 
     prescription = ""
+    state = "remote_past"
     parameter_names = ("ln_1e10_As", "n_s", "r", "log10_k_lqc", "critical_density")
     derived_names = ("N_B_star", "x_window_min", "certified")
     labels = {"ln_1e10_As": r"\ln(10^{10} A_s)", "n_s": "n_s", "r": "r",
@@ -182,7 +183,8 @@ class _BounceTransfer:
                 raise InputError(
                     f"model '{self.name}' needs bouncelike.perturbations.transfer"
                     ".BounceSpectraModel, which this build does not have") from None
-            self._model = BounceSpectraModel(prescription=self.prescription, pivot=PIVOT)
+            self._model = BounceSpectraModel(prescription=self.prescription, pivot=PIVOT,
+                                             state=self.state)
         return self._model
 
     def spectra(self, p: dict[str, float]) -> Any:
@@ -211,6 +213,20 @@ class BounceDeformedAlgebra(_BounceTransfer):
     prescription = "deformed_algebra"
 
 
+class BounceDressedMetricNonOscillating(BounceDressedMetric):
+    """Non-oscillating vacuum set around the bounce (perturbations/states_window.py)."""
+
+    name = "bounce_dressed_metric_non_oscillating"
+    state = "non_oscillating"
+
+
+class BounceDressedMetricLowEnergy(BounceDressedMetric):
+    """State of low energy set around the bounce (perturbations/states_window.py)."""
+
+    name = "bounce_dressed_metric_low_energy"
+    state = "low_energy"
+
+
 #: name -> "module:factory"; factory() returns the model object.
 PARAMETRIC_MODELS: dict[str, str] = {
     "power_law": "bouncelike.sampling.parametric:PowerLawModel",
@@ -218,10 +234,18 @@ PARAMETRIC_MODELS: dict[str, str] = {
     "slow_roll_starobinsky": "bouncelike.sampling.parametric:StarobinskySlowRoll",
     "bounce_dressed_metric": "bouncelike.sampling.parametric:BounceDressedMetric",
     "bounce_deformed_algebra": "bouncelike.sampling.parametric:BounceDeformedAlgebra",
+    "bounce_dressed_metric_non_oscillating":
+        "bouncelike.sampling.parametric:BounceDressedMetricNonOscillating",
+    "bounce_dressed_metric_low_energy":
+        "bouncelike.sampling.parametric:BounceDressedMetricLowEnergy",
     "bounce_physical_dressed_metric":
         "bouncelike.sampling.bounce_physical:PhysicalBounceDressedMetric",
     "bounce_physical_deformed_algebra":
         "bouncelike.sampling.bounce_physical:PhysicalBounceDeformedAlgebra",
+    "bounce_physical_dressed_metric_non_oscillating":
+        "bouncelike.sampling.bounce_physical:PhysicalBounceNonOscillating",
+    "bounce_physical_dressed_metric_low_energy":
+        "bouncelike.sampling.bounce_physical:PhysicalBounceLowEnergy",
 }
 
 

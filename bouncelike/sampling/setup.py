@@ -17,7 +17,7 @@ The ``[sampling]`` section::
     chains_dir = "chains"        # run folder = <chains_dir>/<run_name>, relative to the
                                  # working directory and inside it (no absolute path, no
                                  # '..'); write elsewhere with --output DIR
-    workers = 1                  # local worker processes (MPI ranks under mpiexec)
+    workers = 1                  # local worker processes, 1..256 (MPI ranks under mpiexec)
     progress = true
     require_summary_fit = true   # featured spectra the pivot summary cannot represent are
                                  # not evaluable (recorded), see ModelPosterior
@@ -46,6 +46,8 @@ from typing import Any
 from .. import __version__
 from ..config import Table, load_run_config, read_toml, tomllib
 from ..errors import InputError
+from ..parallel import resolve_workers
+from ..provenance import constraint_sets_of, provenance
 from ..reporting.settings import report_settings
 from .driver import MAX_STEPS, MAX_SURVEY_DRAWS, MAX_WALKERS, SamplerSettings
 from .parametric import PARAMETRIC_MODELS, check_model_prior, model_prior, parametric_model
@@ -55,7 +57,6 @@ from .priors import Prior, prior_from_text, resolve_prior_path
 SAMPLING_KEYS = ("prior", "model", "walkers", "max_steps", "min_steps", "tau_multiple",
                  "tau_tolerance", "checkpoint_every", "seed", "run_name", "chains_dir",
                  "workers", "progress", "require_summary_fit", "prior_survey_draws")
-MAX_WORKERS = 1024
 
 
 @dataclass
@@ -136,8 +137,7 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
     if not run_name or "/" in run_name or run_name.startswith("."):
         raise InputError(f"'sampling.run_name' = '{run_name}' must be a plain folder name")
     chains_dir = chains_folder(t.string("chains_dir", "chains"), output is not None)
-    n_workers = (t.integer("workers", 1, minimum=1, maximum=MAX_WORKERS) if workers is None
-                 else workers)
+    n_workers = resolve_workers(workers, t)
     show = t.boolean("progress", True) and not quiet
     # the prior file names its model; [sampling] model may restate it
     head = Table(read_toml(prior_path, "prior file"), "", ("prior", "parameters"))
@@ -182,6 +182,7 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
             "autocorrelation_window_c": 5,
             "likelihood_fit_tolerance": getattr(likelihood, "tolerance", None),
         },
+        "provenance": provenance(path, constraint_sets_of(likelihood), command="sample"),
         "constraint_sets": [s.as_dict() for s in likelihood.sets],
         "likelihood_sources": likelihood_sources(likelihood),
         "likelihood_settings": {"allow_overlap": likelihood.allow_overlap,
@@ -252,7 +253,7 @@ def rebuild_from_manifest(manifest: dict[str, Any]) -> tuple[Prior, Any, Any, Mo
                             optional_parameters=getattr(model, "optional_parameter_names", ()),
                             renamed_keys_allowed=True)
     check_model_prior(model, prior)
-    report_settings(config.data, prior.sampled_names)  # a bad [report] fails now, not later
+    report_settings(config.data, prior.sampled_names, stored=True)  # a bad [report] fails now
     likelihood = likelihood_from_manifest(manifest)
     require_fit = bool(manifest.get("require_summary_fit", True))
     return prior, model, likelihood, ModelPosterior(prior, model, likelihood, require_fit)
