@@ -143,3 +143,44 @@ def test_classical_start_matches_general_relativity():
         tr = dyn.evolve(POT, start)
         assert tr.status == ref.status == "no_bounce"
         assert tr.efolds.inflation == pytest.approx(ref.efolds.inflation, rel=1e-8)
+
+
+def test_asymmetric_bounce_against_an_independent_integration():
+    """Independent check (plain angle theta = lambda b instead of its logarithm, scipy's DOP853,
+    no change of variables): Hamilton's equations of the asymmetric constraint (derived in
+    bouncelike.background.asymmetric; Li, Singh & Wang, arXiv:1801.07313),
+    thetadot = -4 pi gamma lambda phidot^2, H = sin 2theta [(1+g^2) cos 2theta - g^2] /
+    (2 gamma lambda), from the bounce for 30 Planck times."""
+    from scipy.integrate import solve_ivp
+
+    tr = AsymmetricDynamics(RHO_C, GAMMA).evolve(
+        POT, BounceStart(1e-10, 1), IntegrationSettings(max_time=30.0, dense_points=500))
+    gl = math.sqrt(3 / (8 * math.pi * RHO_C))
+    g2 = GAMMA**2
+    theta_b = math.asin(math.sqrt(1 / (2 * (1 + g2))))
+
+    def rhs(_t, y):
+        theta, _, phi, phidot = y
+        hub = math.sin(2 * theta) * ((1 + g2) * math.cos(2 * theta) - g2) / (2 * gl)
+        return [-4 * math.pi * gl * phidot**2, hub, phidot,
+                -3 * hub * phidot - float(POT.dV(phi))]
+
+    sol = solve_ivp(rhs, (0.0, 30.0), [theta_b, 0.0, tr.phi[0], tr.phidot[0]], method="DOP853",
+                    rtol=1e-12, atol=1e-14, t_eval=tr.t)
+    np.testing.assert_allclose(tr.ln_a, sol.y[1], rtol=0, atol=1e-9)
+    np.testing.assert_allclose(tr.phi, sol.y[2], rtol=0, atol=1e-10)
+    hub = np.sin(2 * sol.y[0]) * ((1 + g2) * np.cos(2 * sol.y[0]) - g2) / (2 * gl)
+    np.testing.assert_allclose(tr.H, hub, rtol=1e-7, atol=1e-9)
+
+
+@pytest.mark.parametrize("dyn, start", [
+    (AsymmetricDynamics(RHO_C, GAMMA), ContractingStart(1e-10, 0.4)),
+    (CondensateDynamics(RHO_C, condensate_term=3e-12), ContractingStart(1e-16, 0.3)),
+])
+def test_efolds_converge_with_the_tolerance(dyn, start):
+    """Tightening rtol tenfold moves the e-folds by far less than the tolerance scale
+    (convergence; common practice)."""
+    a = dyn.evolve_summary(POT, start, IntegrationSettings())
+    b = dyn.evolve_summary(POT, start, IntegrationSettings(rtol=1e-11, atol=1e-14))
+    assert a.status == b.status == "inflated"
+    assert a.inflationary_efolds == pytest.approx(b.inflationary_efolds, rel=1e-8)

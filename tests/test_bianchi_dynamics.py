@@ -9,11 +9,8 @@ import numpy as np
 import pytest
 
 from bouncelike.background import canonical as cn
-from bouncelike.background.bianchi import (
-    BianchiIDynamics,
-    angle_rates,
-    directional_rates,
-)
+from bouncelike.background import systems
+from bouncelike.background.bianchi import BianchiIDynamics
 from bouncelike.background.efolds import PhasePrior, efolds_distribution
 from bouncelike.background.initial import ContractingStart, IntegrationSettings
 from bouncelike.background.isotropic import IsotropicDynamics
@@ -47,11 +44,15 @@ def _constraint(c, p, phi, p_phi, V):
 
 
 def test_hamilton_equations_match_the_constraint_by_finite_differences():
-    """Our closed-form H_i and xdot_i equal Hamilton's equations of C in (c_i, p_i) with
-    {c_i, p_j} = 8 pi gamma delta_ij (Ashtekar & Wilson-Ewing, arXiv:0903.3397), and
-    d/dt (c_i p_i - c_j p_j) = 0."""
+    """The compiled Bianchi I system (directional rates, mean-angle rate, expansion, conserved
+    differences) equals Hamilton's equations of C in (c_i, p_i) with {c_i, p_j} =
+    8 pi gamma delta_ij (Ashtekar & Wilson-Ewing, arXiv:0903.3397), taken by finite
+    differences of the constraint; and d/dt (c_i p_i - c_j p_j) = 0."""
     rng = np.random.default_rng(3)
-    V = lambda x: 0.3 * x**2  # noqa: E731
+    V = lambda x: 0.3 * x**2  # noqa: E731  (compiled: quadratic kernel with m^2 = 0.6)
+    kind, pp = 0, (0.6, 0.0, 0.0, 0.0)
+    gl = GAMMA * math.sqrt(DELTA)
+    prm = (RHO_C, gl, 0.0, 0.0)
     for _ in range(3):
         p = rng.uniform(0.5, 2.0, 3) * 50.0
         c = rng.uniform(0.1, 1.2, 3) / np.array(
@@ -79,14 +80,22 @@ def test_hamilton_equations_match_the_constraint_by_finite_differences():
         mu = np.sqrt(DELTA) * p / v
         x = mu * c
         xdot_fd = mu * cdot - x * H_fd  # mudot_i / mu_i = -H_i
-        gl = GAMMA * math.sqrt(DELTA)
-        sx, cx = np.sin(x), np.cos(x)
-        H = directional_rates(sx, cx, 2 * gl)
-        np.testing.assert_allclose(H, H_fd, rtol=1e-6)
-        phidot = p_phi / v
-        pressure = 0.5 * phidot**2 - V(phi)
-        xdot = angle_rates(sx, cx, x - x.mean(), gl, pressure)
-        np.testing.assert_allclose(xdot, xdot_fd, rtol=1e-5, atol=1e-7 * np.abs(xdot).max())
+        # the engine's state after the bounce: [ln xbar, k12, k23, ln a, phi, phidot], v = a^3
+        xbar = x.mean()
+        y = np.array([math.log(xbar), (x[0] - x[1]) * v, (x[1] - x[2]) * v, math.log(v) / 3,
+                      phi, p_phi / v])
+        rates, obs = np.empty(6), np.empty(systems.N_OBS)
+        systems.evaluate(systems.SYS_BIANCHI, prm, kind, pp, y, cn.POST, rates, obs)
+        aniso = np.empty((1, 4))
+        systems.anisotropy_many(prm, kind, pp, y[None, :], np.array([cn.POST]), aniso)
+        np.testing.assert_allclose(aniso[0, :3], H_fd, rtol=1e-6)
+        assert rates[3] == pytest.approx(H_fd.mean(), rel=1e-6)  # d ln a / dt = mean H
+        assert obs[systems.HUB] == pytest.approx(H_fd.mean(), rel=1e-6)
+        assert rates[0] == pytest.approx(xdot_fd.mean() / xbar, rel=1e-5)  # d ln xbar / dt
+        # k_ij = (x_i - x_j) v is conserved: the compiled rates are round-off of k / (gamma lambda)
+        assert np.all(np.abs(rates[1:3]) <= 1e-12 * np.abs(y[1:3]) / gl)
+        # Klein-Gordon: phiddot = -3 H phidot - V'
+        assert rates[5] == pytest.approx(-3 * H_fd.mean() * p_phi / v - 0.6 * phi, rel=1e-6)
         # c_i p_i - c_j p_j conserved
         d12 = cdot[0] * p[0] + c[0] * pdot[0] - cdot[1] * p[1] - c[1] * pdot[1]
         assert abs(d12) < 1e-5 * abs(cdot[0] * p[0])
@@ -178,16 +187,46 @@ def test_bad_input_is_one_line_error():
         BianchiIDynamics(RHO_C, shear_ratio=-1.0)
     with pytest.raises(InputError, match="contracting"):
         BianchiIDynamics(RHO_C).evolve(POT, cn.ContractingStart(0.1, 0.0))
+    # a shear density beyond 1% of rho_c on the reference surface is not a classical start
+    # (it once hung the compiled integration): refused with the allowed range
+    with pytest.raises(InputError, match=r"shear_ratio.*allowed: >= 0 and < 4\.09e\+13"):
+        BianchiIDynamics(RHO_C, shear_ratio=1e100)
+    with pytest.raises(InputError, match="shear_ratio.*initial density"):
+        BianchiIDynamics(RHO_C, shear_ratio=1e10).evolve(POT, cn.ContractingStart(1e-13, 0.0))
 
 
-def test_unrolled_right_hand_side_matches_array_helpers():
-    """The unrolled inner-loop right-hand side equals the documented array formulas."""
-    dyn = BianchiIDynamics(RHO_C, 1e-3, 40.0)
-    system = dyn.system(POT)
-    y0 = dyn.initial_state(POT, ContractingStart(1e-16, 0.7))
-    for phase, y in ((cn.PRE, y0), (cn.POST, y0 + np.array([0.3, 0, 0, 0, 0, 0])),
-                     (cn.LATE, y0)):
-        a, b = system.rhs(y, phase), system.rhs_reference(y, phase)
-        scale = np.array([abs(b[0]), abs(y[1]) * 1e-3, abs(y[2]) * 1e-3, abs(b[3]), abs(b[4]),
-                          abs(b[5])])
-        assert np.all(np.abs(a - b) <= 1e-12 * scale + 1e-300)
+def test_efolds_converge_with_the_tolerance():
+    """Tightening rtol tenfold moves the e-folds by far less than the tolerance scale
+    (convergence; common practice), with and without shear."""
+    for ratio in (0.0, 1e-3):
+        dyn = BianchiIDynamics(RHO_C, ratio, 30.0)
+        start = ContractingStart(1e-16, 1.0)
+        a = dyn.evolve_summary(POT, start, IntegrationSettings())
+        b = dyn.evolve_summary(POT, start, IntegrationSettings(rtol=1e-11, atol=1e-14))
+        assert a.status == b.status == "inflated"
+        assert a.inflationary_efolds == pytest.approx(b.inflationary_efolds, rel=1e-8)
+        assert a.events.t_bounce == pytest.approx(b.events.t_bounce, rel=1e-9)
+
+
+def test_python_potential_runs_the_same_engine():
+    """A potential registered from Python (no compiled kernel) runs the same solver uncompiled:
+    same e-folds as the compiled quadratic potential."""
+    from bouncelike.background.potentials import CustomPotential
+
+    class Quad:
+        def V(self, phi):
+            return 0.5e-4 * np.asarray(phi) ** 2
+
+        def dV(self, phi):
+            return 1e-4 * np.asarray(phi)
+
+        def d2V(self, phi):
+            return np.full_like(np.asarray(phi, dtype=float), 1e-4)
+
+    dyn = BianchiIDynamics(RHO_C, shear_ratio=1e-14)
+    start = ContractingStart(1e-4, 1.0)
+    fast = dyn.evolve_summary(Quadratic(1e-2), start)
+    slow = dyn.evolve_summary(CustomPotential(Quad(), "test:Quad"), start)
+    assert fast.engine == "compiled" and slow.engine == "python"
+    assert slow.status == fast.status == "inflated"
+    assert slow.inflationary_efolds == pytest.approx(fast.inflationary_efolds, rel=1e-12)

@@ -148,33 +148,6 @@ def test_deformed_scalar_regular_form_matches_q_form_where_both_hold():
     np.testing.assert_allclose(a.scalar, b.scalar, rtol=2e-3)
 
 
-def test_engine_trajectory_provider_agrees_with_own_integration():
-    # The background engine's trajectory (BackgroundTrajectory.state_at) and our own
-    # integration of the same bounce give the same spectra (bounce state, dressed metric).
-    from bouncelike.background.initial import BounceStart, IntegrationSettings
-    from bouncelike.background.isotropic import IsotropicDynamics
-    from bouncelike.background.potentials import Quadratic
-    from bouncelike.perturbations.background import from_trajectory, integrate_background
-    from bouncelike.perturbations.spectra import bounce_spectra
-    from bouncelike.units import critical_density
-
-    rc = critical_density()
-    pot = Quadratic(mass=1.2e-6)
-    xv = float(pot.V(1.0)) / rc
-    tr = IsotropicDynamics(rc).evolve(pot, BounceStart(xv, 1), IntegrationSettings(
-        dense_points=20000))
-    own = integrate_background(pot, rc, 1.0, math.sqrt(2 * (rc - float(pot.V(1.0)))))
-    assert own.info["efolds_to_inflation_end"] == pytest.approx(
-        tr.efolds.bounce_to_inflation_end, abs=1e-6)
-    # the trajectory starts at the bounce: only k where the fourth-order state exists there
-    # (above ~3.8 k_LQC; below it the state is set in the contracting branch, states.py)
-    ks = np.array([4.0, 6.0, 10.0, 20.0]) * own.k_lqc
-    a = bounce_spectra(from_trajectory(tr, pot), ks, state="bounce_adiabatic4")
-    b = bounce_spectra(own, ks, state="bounce_adiabatic4")
-    np.testing.assert_allclose(a.scalar, b.scalar, rtol=1e-4)
-    np.testing.assert_allclose(a.tensor, b.tensor, rtol=1e-4)
-
-
 # -- deformed algebra through the turning points Omega = 0 -------------------------------------
 def _massless_deformed_tensor_mean_transfer(x: float, t0: float = 2.0,
                                             t1: float | None = None) -> float:

@@ -46,7 +46,8 @@ bounce (:class:`~bouncelike.background.initial.BounceStart`, fraction of rho_max
 
 State for integration: [u, ln a, phi, phidot], u = ln(beta_0 - theta) before the bounce (small
 there), ln(theta) after it; far after the bounce theta is solved from the constraint on the
-general-relativity branch (see :mod:`bouncelike.background.canonical`).
+general-relativity branch (see :mod:`bouncelike.background.canonical`). The compiled system is
+:mod:`bouncelike.background.asymmetric_system`.
 """
 
 from __future__ import annotations
@@ -62,9 +63,11 @@ from ..errors import InputError
 from ..units import IMMIRZI_DEFAULT
 from ..units import critical_density as lqc_critical_density
 from . import canonical as cn
+from . import engine
 from .condensate import bounce_field
 from .initial import BounceStart, ClassicalStart, ContractingStart, IntegrationSettings
-from .result import BackgroundTrajectory
+from .limits import check_critical_density
+from .systems import SYS_ASYMMETRIC
 
 
 def maximum_density(critical_density: float, gamma: float) -> float:
@@ -101,94 +104,11 @@ def branch_hubble_squared(rho: Any, critical_density: float, gamma: float, branc
 
 
 @dataclass(frozen=True)
-class AsymmetricSystem:
-    rho_c: float
-    gamma: float
-    potential: Any
-
-    @property
-    def gl(self) -> float:
-        return math.sqrt(3.0 / (8.0 * math.pi * self.rho_c))
-
-    @property
-    def beta0(self) -> float:
-        return math.atan(1.0 / self.gamma)
-
-    def _theta(self, y: np.ndarray, phase: int) -> float:
-        if phase == cn.PRE:
-            return self.beta0 - math.exp(y[0])
-        if phase == cn.LATE:
-            rho = 0.5 * y[3] ** 2 + float(self.potential.V(y[2]))
-            x = rho / self.rho_c
-            g2 = 1.0 + self.gamma**2
-            s2 = 2.0 * x / (1.0 + math.sqrt(max(1.0 - 4.0 * g2 * x, 0.0)))
-            return math.asin(math.sqrt(s2))
-        return math.exp(y[0])
-
-    def _hubble(self, theta: float) -> tuple[float, float]:
-        """H and dH/dtheta."""
-        g2 = self.gamma**2
-        two_gl = 2.0 * self.gl
-        hub = math.sin(2 * theta) * ((1 + g2) * math.cos(2 * theta) - g2) / two_gl
-        dh = 2.0 * ((1 + g2) * math.cos(4 * theta) - g2 * math.cos(2 * theta)) / two_gl
-        return hub, dh
-
-    def rhs(self, y: np.ndarray, phase: int) -> np.ndarray:
-        theta = self._theta(y, phase)
-        hub, _ = self._hubble(theta)
-        phi, phidot = y[2], y[3]
-        thetadot = -4.0 * math.pi * self.gl * phidot * phidot
-        if phase == cn.PRE:
-            udot = -thetadot / math.exp(y[0])
-        elif phase == cn.POST:
-            udot = thetadot / theta
-        else:
-            udot = 0.0
-        phiddot = -3.0 * hub * phidot - float(self.potential.dV(phi))
-        return np.array([udot, hub, phidot, phiddot])
-
-    def observe(self, y: np.ndarray, phase: int) -> np.ndarray:
-        theta = self._theta(y, phase)
-        hub, dh = self._hubble(theta)
-        phi, phidot = y[2], y[3]
-        v = float(self.potential.V(phi))
-        kin = 0.5 * phidot * phidot
-        hdot = dh * (-4.0 * math.pi * self.gl * phidot * phidot)
-        phiddot = -3.0 * hub * phidot - float(self.potential.dV(phi))
-        return np.array([y[1], hub, hdot, phi, phidot, phiddot, kin + v, v])
-
-    def gravitational_density(self, y: np.ndarray, phase: int) -> float:
-        g2 = 1.0 + self.gamma**2
-        if phase == cn.PRE:
-            d = math.exp(y[0])
-            # 1 - (1+g^2) sin^2 theta = (1+g^2) sin(beta0 + theta) sin(beta0 - theta)
-            return (self.rho_c * math.sin(self.beta0 - d) ** 2 * g2
-                    * math.sin(2 * self.beta0 - d) * math.sin(d))
-        s2 = math.sin(self._theta(y, phase)) ** 2
-        return self.rho_c * s2 * (1.0 - g2 * s2)
-
-    def to_post(self, y: np.ndarray) -> np.ndarray:
-        out = np.array(y, float)
-        out[0] = math.log(self.beta0 - math.exp(out[0]))
-        return out
-
-    def to_late(self, y: np.ndarray) -> np.ndarray:
-        out = np.array(y, float)
-        out[0] = math.log(self._theta(out, cn.LATE))
-        return out
-
-    def constraint_residual(self, y: np.ndarray, phase: int) -> float:
-        rho = 0.5 * y[3] ** 2 + float(self.potential.V(y[2]))
-        return abs(self.gravitational_density(y, phase) - rho) / rho
-
-
-@dataclass(frozen=True)
-class AsymmetricDynamics(cn.CompiledCanonicalDynamics):
+class AsymmetricDynamics(cn.CanonicalDynamics):
     """Modified loop-quantised dynamics with an asymmetric bounce (module docstring)."""
 
     critical_density: float = lqc_critical_density()
     gamma: float = IMMIRZI_DEFAULT
-    engine: str = "compiled"  # "scipy": the scipy-stepped reference driver
 
     NAME = "asymmetric"
     CONFIG_KEYS = ("gamma",)
@@ -196,12 +116,7 @@ class AsymmetricDynamics(cn.CompiledCanonicalDynamics):
     FIELD_OSCILLATES_BEFORE_BOUNCE = False
 
     def __post_init__(self) -> None:
-        if not (self.critical_density > 0 and math.isfinite(self.critical_density)):
-            raise InputError(
-                f"'background.critical_density' = {self.critical_density!r}; allowed: > 0"
-            )
-        if self.engine not in ("compiled", "scipy"):
-            raise InputError(f"asymmetric engine = {self.engine!r}; allowed: compiled, scipy")
+        check_critical_density(self.critical_density)
         if not (0 < self.gamma < 10):
             raise InputError(
                 f"'background.asymmetric.gamma' = {self.gamma!r}; allowed: > 0 and < 10"
@@ -216,11 +131,31 @@ class AsymmetricDynamics(cn.CompiledCanonicalDynamics):
     def maximum_density(self) -> float:
         return maximum_density(self.critical_density, self.gamma)
 
-    def system(self, potential: Any) -> AsymmetricSystem:
-        return AsymmetricSystem(self.critical_density, self.gamma, potential)
+    @property
+    def result_density(self) -> float:
+        return self.critical_density
+
+    @property
+    def gamma_lambda(self) -> float:
+        return math.sqrt(3.0 / (8.0 * math.pi * self.critical_density))
+
+    @property
+    def beta0(self) -> float:
+        """theta of the contracting de Sitter limit, arctan(1/gamma)."""
+        return math.atan(1.0 / self.gamma)
+
+    @property
+    def system(self) -> engine.System:
+        return engine.System(SYS_ASYMMETRIC, (self.critical_density, self.gamma,
+                                              self.gamma_lambda, self.beta0))
+
+    def _late_angle(self, rho: float) -> float:
+        """theta on the expanding branch from the constraint rho = rho_c s^2 (1 - (1+g^2) s^2)."""
+        x = rho / self.critical_density
+        s2 = 2.0 * x / (1.0 + math.sqrt(max(1.0 - 4.0 * (1.0 + self.gamma**2) * x, 0.0)))
+        return math.asin(math.sqrt(s2))
 
     def initial_state(self, potential: Any, initial: Any) -> tuple[np.ndarray, int]:
-        system = self.system(potential)
         if isinstance(initial, ContractingStart):
             if not 0.0 < initial.density < 1e-2 * self.maximum_density:
                 raise InputError(
@@ -231,7 +166,7 @@ class AsymmetricDynamics(cn.CompiledCanonicalDynamics):
             phi, phidot = cn.field_from_phase(potential, initial.density, initial.phase)
             rho = 0.5 * phidot**2 + float(potential.V(phi))
             g2 = 1.0 + self.gamma**2
-            b0 = system.beta0
+            b0 = self.beta0
 
             def f(ln_d: float) -> float:
                 d = math.exp(ln_d)
@@ -256,57 +191,21 @@ class AsymmetricDynamics(cn.CompiledCanonicalDynamics):
                     f"classical start density {rho:g} is out of range; allowed: > 0 and < "
                     f"{cn.LATE_FRACTION * self.maximum_density:g}"
                 )
-            y = np.array([0.0, 0.0, phi, phidot])
-            return system.to_late(y), cn.LATE
+            return np.array([math.log(self._late_angle(rho)), 0.0, phi, phidot]), cn.LATE
         raise InputError(
             f"'background.start' = '{type(initial).__name__}' is not available for dynamics "
             "'asymmetric'; allowed: bounce, classical, contracting"
         )
 
+    def start(self, potential: Any, initial: Any, settings: IntegrationSettings) -> tuple:
+        y0, mode = self.initial_state(potential, initial)
+        return (self.system, y0, mode, cn.tolerances(settings, y0), mode != cn.PRE,
+                isinstance(initial, BounceStart))
 
-    def _run_compiled(self, potential: Any, initial: Any, settings: IntegrationSettings,
-                      store: bool) -> tuple[np.ndarray, cn.RawRun | None]:
-        from .canonical_kernels import SYS_ASYMMETRIC
-
-        y0, phase = self.initial_state(potential, initial)
-        system = self.system(potential)
-        atol, atol_post = cn.tolerances(settings, y0)
-        return cn.integrate_compiled(
-            SYS_ASYMMETRIC, np.array([self.critical_density, self.gamma, system.gl,
-                                      system.beta0]),
-            potential, y0, phase, settings, atol, atol_post,
-            late_density=cn.LATE_FRACTION * self.maximum_density,
-            classical=isinstance(initial, ClassicalStart), store=store,
-        )
-
-
-    def evolve(
-        self, potential: Any, initial: Any, settings: IntegrationSettings | None = None
-    ) -> BackgroundTrajectory:
-        settings = settings or IntegrationSettings()
-        y0, phase = self.initial_state(potential, initial)
-        system = self.system(potential)
-        atol, atol_post = cn.tolerances(settings, y0)
-        classical = isinstance(initial, ClassicalStart)
-        if self._compiled(potential):
-            run = self._run_compiled(potential, initial, settings, store=True)[1]
-        else:
-            run = cn.integrate(
-                system, y0, phase, settings, atol=atol, atol_post=atol_post,
-                late_density=cn.LATE_FRACTION * self.maximum_density, classical=classical,
-            )
-        tr = cn.assemble(
-            self.NAME,
-            run,
-            self.critical_density,
-            cn.residuals(system, run),
-            extras={"steps": run.steps, "maximum_density": self.maximum_density,
-                    "emergent_hubble_rate": emergent_hubble_rate(self.critical_density,
-                                                                 self.gamma),
-                    "engine": "compiled" if self._compiled(potential) else "scipy"},
-            settings={**settings.as_dict(), "initial": repr(initial), **self.describe()},
-        )
-        return cn.as_classical(tr) if classical else tr
+    def trajectory_extras(self, result: engine.EngineRun, t: np.ndarray) -> dict[str, Any]:
+        return {"maximum_density": self.maximum_density,
+                "emergent_hubble_rate": emergent_hubble_rate(self.critical_density,
+                                                             self.gamma)}
 
     def describe(self) -> dict[str, Any]:
         return {

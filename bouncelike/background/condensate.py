@@ -28,7 +28,10 @@ Before the bounce the state holds ln(zeta), zeta = pi - theta (small in the cont
 after it ln(theta) (see :mod:`bouncelike.background.canonical`): the angle decays by many orders
 of magnitude on either side of the bounce, and only its logarithm keeps a relative accuracy set
 by the tolerance (an absolute error of 1e-10 left near the bounce would otherwise become an
-order-one error of H once theta ~ 1e-10).
+order-one error of H once theta ~ 1e-10). The compiled system is
+:mod:`bouncelike.background.loop_system`. Without the extra term (q = 0) the dynamics *is* the
+isotropic one with rho_c -> rho_c' and runs as the isotropic system (``canonical = True`` keeps
+the loop system, in its own variables, e.g. for the closed-form checks).
 """
 
 from __future__ import annotations
@@ -41,125 +44,42 @@ import numpy as np
 
 from ..errors import InputError
 from . import canonical as cn
+from . import engine
 from .initial import BounceStart, ContractingStart, IntegrationSettings
-from .result import BackgroundTrajectory
+from .isotropic import IsotropicDynamics
+from .limits import check_critical_density, check_potential_fraction
+from .result import BackgroundTrajectory, RunSummary
+from .systems import SYS_LOOP
 
 
 def bounce_field(potential: Any, density: float, fraction: float, sign: int) -> tuple[float, float]:
     """(phi, phidot) at a bounce of density ``density`` with V / rho = ``fraction``; the field
     sits on the side it is thrown up (sign(phi) = sign(phidot))."""
-    if not 0.0 <= fraction <= 1.0:
-        raise InputError(
-            f"'background.bounce.potential_fraction' = {fraction:g} is out of range; "
-            "allowed: >= 0 and <= 1"
-        )
+    check_potential_fraction(fraction)
     phase = math.asin(math.sqrt(fraction))
     phi, phidot = cn.field_from_phase(potential, density, phase if sign >= 0 else -phase)
     return phi, abs(phidot) * (1.0 if sign >= 0 else -1.0)
 
 
 @dataclass(frozen=True)
-class LoopSystem:
-    """Canonical loop equations with critical density ``rho_c`` and condensate term ``q``.
-
-    State: [ln w, ln a, phi, phidot] with w = pi - theta before the bounce, theta after it.
-    """
-
-    rho_c: float
-    q: float
-    potential: Any
-
-    @property
-    def ell(self) -> float:
-        return math.sqrt(3.0 / (8.0 * math.pi * self.rho_c))
-
-    def _a_factor(self, ln_a: float) -> tuple[float, float]:
-        if self.q == 0.0:
-            return 1.0, 0.0
-        qv = self.q * math.exp(-3.0 * ln_a)
-        return 1.0 + qv, qv
-
-    def _angle(self, y: np.ndarray, phase: int) -> float:
-        if phase == cn.LATE:  # solved from the constraint, post-bounce branch theta < pi/2
-            big_a, _ = self._a_factor(y[1])
-            rho = 0.5 * y[3] ** 2 + float(self.potential.V(y[2]))
-            return math.asin(math.sqrt(min(rho / (self.rho_c * big_a), 1.0)))
-        return math.exp(y[0])
-
-    def rhs(self, y: np.ndarray, phase: int) -> np.ndarray:
-        ln_w, ln_a, phi, phidot = y
-        w = self._angle(y, phase)
-        ell = self.ell
-        big_a, qv = self._a_factor(ln_a)
-        s2 = math.sin(2.0 * w)
-        hub = big_a * (-s2 if phase == cn.PRE else s2) / (2.0 * ell)
-        v = float(self.potential.V(phi))
-        kin = 0.5 * phidot * phidot
-        rho_plus_p = 2.0 * kin
-        drive = 4.0 * math.pi * ell * (rho_plus_p - (kin + v) * qv / big_a)
-        wdot = drive if phase == cn.PRE else -drive
-        phiddot = -3.0 * hub * phidot - float(self.potential.dV(phi))
-        return np.array([0.0 if phase == cn.LATE else wdot / w, hub, phidot, phiddot])
-
-    def observe(self, y: np.ndarray, phase: int) -> np.ndarray:
-        ln_w, ln_a, phi, phidot = y
-        w = self._angle(y, phase)
-        ell = self.ell
-        big_a, qv = self._a_factor(ln_a)
-        sgn = -1.0 if phase == cn.PRE else 1.0
-        s2, c2 = math.sin(2.0 * w), math.cos(2.0 * w)
-        hub = sgn * big_a * s2 / (2.0 * ell)
-        v = float(self.potential.V(phi))
-        kin = 0.5 * phidot * phidot
-        rho = kin + v
-        thetadot = -4.0 * math.pi * ell * (2.0 * kin - rho * qv / big_a)
-        # d/dt [A sin(2 theta) / (2 l)], with dA/dt = -3 H (A - 1); c2 is cos(2 theta) either way
-        hdot = -3.0 * hub * hub * qv / big_a + big_a * c2 * thetadot / ell
-        phiddot = -3.0 * hub * phidot - float(self.potential.dV(phi))
-        return np.array([ln_a, hub, hdot, phi, phidot, phiddot, rho, v])
-
-    def to_post(self, y: np.ndarray) -> np.ndarray:
-        out = np.array(y, float)
-        out[0] = math.log(math.pi - math.exp(out[0]))
-        return out
-
-    def to_late(self, y: np.ndarray) -> np.ndarray:
-        out = np.array(y, float)
-        out[0] = math.log(self._angle(out, cn.LATE))
-        return out
-
-    def constraint_residual(self, y: np.ndarray, phase: int) -> float:
-        ln_w, ln_a, phi, phidot = y
-        w = self._angle(y, phase)
-        big_a, _ = self._a_factor(ln_a)
-        rho = 0.5 * phidot * phidot + float(self.potential.V(phi))
-        return abs(self.rho_c * big_a * math.sin(w) ** 2 - rho) / rho
-
-
-@dataclass(frozen=True)
-class CondensateDynamics:
+class CondensateDynamics(cn.CanonicalDynamics):
     """Isotropic effective dynamics with critical density ``rescale`` x rho_c and an optional
     condensate term (module docstring)."""
 
     critical_density: float
     rescale: float = 1.0
     condensate_term: float = 0.0
-    canonical: bool = False  # force the canonical integrator even without the extra term
-    canonical_engine: str = "compiled"  # "scipy": the scipy-stepped reference driver
+    canonical: bool = False  # the loop system in its own variables even without the extra term
 
     NAME = "condensate"
     CONFIG_KEYS = ("rescale", "condensate_term")
 
     def __post_init__(self) -> None:
-        if self.canonical_engine not in ("compiled", "scipy"):
-            raise InputError(f"condensate canonical_engine = {self.canonical_engine!r}; "
-                             "allowed: compiled, scipy")
-        if not (self.critical_density > 0 and math.isfinite(self.critical_density)):
-            raise InputError(
-                f"'background.critical_density' = {self.critical_density!r} must be > 0"
-            )
+        check_critical_density(self.critical_density)
         if not (self.rescale > 0 and math.isfinite(self.rescale)):
             raise InputError(f"'background.condensate.rescale' = {self.rescale!r}; allowed: > 0")
+        check_critical_density(self.rescale * self.critical_density,
+                               "background.condensate.rescale x background.critical_density")
         if not (self.condensate_term >= 0 and math.isfinite(self.condensate_term)):
             raise InputError(
                 f"'background.condensate.condensate_term' = {self.condensate_term!r}; "
@@ -178,8 +98,23 @@ class CondensateDynamics:
     def effective_critical_density(self) -> float:
         return self.rescale * self.critical_density
 
-    def system(self, potential: Any) -> LoopSystem:
-        return LoopSystem(self.effective_critical_density, self.condensate_term, potential)
+    @property
+    def result_density(self) -> float:
+        return self.effective_critical_density
+
+    @property
+    def uses_isotropic_engine(self) -> bool:
+        """Without the extra term the dynamics is the isotropic one with rho_c -> rho_c'."""
+        return self.condensate_term == 0.0 and not self.canonical
+
+    def _isotropic(self) -> IsotropicDynamics:
+        return IsotropicDynamics(self.effective_critical_density)
+
+    @property
+    def system(self) -> engine.System:
+        rho_c = self.effective_critical_density
+        return engine.System(SYS_LOOP, (rho_c, self.condensate_term,
+                                        math.sqrt(3.0 / (8.0 * math.pi * rho_c)), 0.0))
 
     def initial_state(self, potential: Any, initial: Any) -> tuple[np.ndarray, int]:
         rho_c = self.effective_critical_density
@@ -209,82 +144,39 @@ class CondensateDynamics:
             "'condensate'; allowed: bounce, contracting"
         )
 
-    @property
-    def uses_isotropic_engine(self) -> bool:
-        """Without the extra term the dynamics *is* the isotropic one with rho_c -> rho_c':
-        the compiled isotropic engine is used (``canonical = True`` forces this module's
-        canonical integrator, e.g. to cross-check the two)."""
-        return self.condensate_term == 0.0 and not self.canonical
-
-    def _isotropic(self) -> Any:
-        from .isotropic import IsotropicDynamics
-
-        return IsotropicDynamics(self.effective_critical_density)
-
-    @property
-    def evolve_summary(self) -> Any:
-        """Summary vector only: the isotropic engine's without the extra term, else the
-        canonical driver's (same layout for the fields distributions read)."""
-        if self.uses_isotropic_engine:
-            return self._isotropic().evolve_summary
-        return self._canonical_summary
-
-    def _run_compiled(self, potential: Any, initial: Any, settings: IntegrationSettings,
-                      store: bool) -> tuple[np.ndarray, cn.RawRun | None]:
-        from .canonical_kernels import SYS_LOOP
-
-        y0, phase = self.initial_state(potential, initial)
-        atol, atol_post = cn.tolerances(settings, y0)
-        system = self.system(potential)
-        return cn.integrate_compiled(
-            SYS_LOOP, np.array([system.rho_c, system.q, system.ell]), potential, y0, phase,
-            settings, atol, atol_post,
-            late_density=cn.LATE_FRACTION * self.effective_critical_density, store=store,
-        )
-
-    def _canonical_compiled(self, potential: Any) -> bool:
-        return self.engine_name(potential) == "canonical (compiled)"
+    def start(self, potential: Any, initial: Any, settings: IntegrationSettings) -> tuple:
+        y0, mode = self.initial_state(potential, initial)
+        return (self.system, y0, mode, cn.tolerances(settings, y0), mode != cn.PRE,
+                mode != cn.PRE)
 
     def engine_name(self, potential: Any) -> str:
-        """Which integrator runs this dynamics for ``potential``."""
-        if self.uses_isotropic_engine:
-            return "isotropic (compiled)"
-        if self.canonical_engine == "compiled" and cn.compiled_potential(potential) is not None:
-            return "canonical (compiled)"
-        return "canonical (scipy)"
+        """Which system runs this dynamics."""
+        return "isotropic" if self.uses_isotropic_engine else "canonical (loop variables)"
 
-    def _canonical_summary(self, potential: Any, initial: Any,
-                           settings: IntegrationSettings | None = None) -> np.ndarray:
-        settings = settings or IntegrationSettings()
-        if self._canonical_compiled(potential):
-            return self._run_compiled(potential, initial, settings, store=False)[0]
-        return cn.summary_from_trajectory(self.evolve(potential, initial, settings))
+    def run(self, potential: Any, initial: Any, settings: IntegrationSettings | None = None,
+            store: bool = False) -> engine.EngineRun:
+        if self.uses_isotropic_engine:
+            return self._isotropic().run(potential, initial, settings, store)
+        return super().run(potential, initial, settings, store)
+
+    def evolve_summary(self, potential: Any, initial: Any,
+                       settings: IntegrationSettings | None = None) -> RunSummary:
+        return self.run(potential, initial, settings).summary
+
+    def evolve_summaries(self, potential: Any, initials: list,
+                         settings: IntegrationSettings | None = None) -> list[RunSummary]:
+        if self.uses_isotropic_engine:
+            return self._isotropic().evolve_summaries(potential, initials, settings)
+        return super().evolve_summaries(potential, initials, settings)
 
     def evolve(
         self, potential: Any, initial: Any, settings: IntegrationSettings | None = None
     ) -> BackgroundTrajectory:
-        settings = settings or IntegrationSettings()
         if self.uses_isotropic_engine:
             tr = self._isotropic().evolve(potential, initial, settings)
             return replace(tr, dynamics=self.NAME, settings={**tr.settings, **self.describe()})
-        y0, phase = self.initial_state(potential, initial)
-        system = self.system(potential)
-        atol, atol_post = cn.tolerances(settings, y0)
-        if self._canonical_compiled(potential):
-            run = self._run_compiled(potential, initial, settings, store=True)[1]
-        else:
-            run = cn.integrate(
-                system, y0, phase, settings, atol=atol, atol_post=atol_post,
-                late_density=cn.LATE_FRACTION * self.effective_critical_density,
-            )
-        return cn.assemble(
-            self.NAME,
-            run,
-            self.effective_critical_density,
-            cn.residuals(system, run),
-            extras={"steps": run.steps, "engine": self.engine_name(potential)},
-            settings={**settings.as_dict(), "initial": repr(initial), **self.describe()},
-        )
+        tr = super().evolve(potential, initial, settings)
+        return replace(tr, extras={**tr.extras, "system": self.engine_name(potential)})
 
     def describe(self) -> dict[str, Any]:
         return {
@@ -293,9 +185,7 @@ class CondensateDynamics:
             "rescale": self.rescale,
             "base_critical_density": self.critical_density,
             "condensate_term": self.condensate_term,
-            "engine": "isotropic (compiled)" if self.uses_isotropic_engine else (
-                "canonical (compiled unless the potential is Python-only)"
-                if self.canonical_engine == "compiled" else "canonical (scipy)"),
+            "system": "isotropic" if self.uses_isotropic_engine else "canonical loop variables",
             "equations": "H^2 = (8 pi/3) rho (1 - rho/rho_c' + q/v), rho_c' = rescale * rho_c, "
             "v = (a/a_0)^3 (a_0 on the initial surface)",
             "contracting_start": "energy angle at density rho_0 as for the isotropic dynamics: "

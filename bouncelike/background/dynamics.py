@@ -8,7 +8,10 @@ A dynamics is a small immutable object with
   (:class:`bouncelike.config.Table`) and the critical density set in ``[background]``;
 * ``evolve(potential, initial, settings) -> BackgroundTrajectory``: evolve one initial datum
   (:mod:`bouncelike.background.initial`), never raising for a physical outcome (no inflation,
-  e-fold cap): those are statuses of the result.
+  e-fold cap): those are statuses of the result;
+* ``evolve_summary(potential, initial, settings) -> RunSummary``: the same run without the
+  trajectory, and ``evolve_summaries(potential, initials, settings)`` for many initial data
+  in one compiled loop (what e-fold distributions read);
 * ``describe() -> dict``: parameters and conventions for reports (including how a
   :class:`~bouncelike.background.initial.ContractingStart` is interpreted by this dynamics).
 

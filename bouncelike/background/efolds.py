@@ -241,30 +241,12 @@ def evolve_records(task: tuple) -> np.ndarray:
     """Evolve a chunk of initial data; one record row per datum (module-level: picklable)."""
     dynamics, potential, settings, initials = task
     out = np.full((len(initials), N_COLUMNS), np.nan)
-    fast = hasattr(dynamics, "evolve_summary")
-    if fast:
-        from . import kernels as K
-        from .isotropic import inflationary_efolds
-    for row, initial in enumerate(initials):
-        if fast:
-            s = dynamics.evolve_summary(potential, initial, settings)
-            status = int(s[K.S_STATUS])
-            end = s[K.S_LNA_FINAL] if status == K.ST_EFOLD_CAP else s[K.S_LNA_INF_END]
-            out[row] = (status, inflationary_efolds(s),
-                        s[K.S_LNA_INF_START] - s[K.S_LNA_BOUNCE],
-                        end - s[K.S_LNA_BOUNCE],
-                        s[K.S_VFRAC_BOUNCE], s[K.S_MAX_RESIDUAL], s[K.S_RHS])
-        else:
-            tr = dynamics.evolve(potential, initial, settings)
-            n_inf = tr.efolds.inflation
-            to_end = tr.efolds.bounce_to_inflation_end
-            if tr.status == "efold_cap":
-                if not math.isfinite(n_inf):
-                    n_inf = settings.max_inflation_efolds
-                to_end = tr.ln_a[-1] - tr.events.ln_a_bounce
-            out[row] = (STATUSES.index(tr.status), n_inf, tr.efolds.bounce_to_inflation_start,
-                        to_end, tr.potential_fraction_at_bounce,
-                        tr.max_constraint_residual, tr.extras.get("rhs_evaluations", np.nan))
+    for row, s in enumerate(dynamics.evolve_summaries(potential, initials, settings)):
+        e = s.events
+        out[row] = (s.status_index, s.inflationary_efolds,
+                    e.ln_a_inflation_start - e.ln_a_bounce, s.efolds_bounce_to_stop,
+                    s.potential_fraction_at_bounce, s.max_constraint_residual,
+                    s.rhs_evaluations)
     return out
 
 

@@ -57,8 +57,11 @@ class IntegrationSettings:
         ``"efold_cap"`` (plateau potentials can inflate almost without end).
     max_time : cap on cosmic time after the start (Planck times); reaching it without the end of
         inflation gives status ``"no_inflation"`` or ``"efold_cap"`` as appropriate.
-    dense_points : number of dense-output samples stored in the trajectory (0: only the
-        accepted integrator steps).
+    dense_points : number of samples of the trajectory, taken from the integrator's
+        continuous extension (0: only the accepted integrator steps and the events).
+    max_steps : budget of accepted integrator steps; exhausting it is a failure (status
+        ``"failed"``, with the physical state in the message), never a hang.
+    max_seconds : wall-clock budget of one integration (seconds), the same way.
     """
 
     rtol: float = 1e-10
@@ -66,6 +69,8 @@ class IntegrationSettings:
     max_inflation_efolds: float = 1.0e4
     max_time: float = 1.0e12
     dense_points: int = 2000
+    max_steps: int = 3_000_000
+    max_seconds: float = 300.0
 
     def as_dict(self) -> dict[str, float]:
         return {k: getattr(self, k) for k in self.__dataclass_fields__}

@@ -4,8 +4,8 @@ Every potential gives ``V(phi)``, ``dV(phi)`` (= V') and ``d2V(phi)`` (= V'') on
 units (G = c = hbar = 1, non-reduced Planck mass m_Pl = 1; the reduced Planck mass is
 M_Pl = 1/sqrt(8 pi), :data:`bouncelike.units.REDUCED_PLANCK_MASS`), a ``name`` and a
 ``parameters`` dict. Built-in potentials also carry a ``kernel`` code and a parameter vector
-read by the compiled integrator (:mod:`bouncelike.background.kernels`); a user potential
-(:func:`register_potential`) has neither and is integrated by the slower pure-Python path.
+read by the compiled engine (:mod:`bouncelike.background.potential_kernels`); a user potential
+(:func:`register_potential`) has neither and runs through the same engine uncompiled.
 
 Registry (``[potential] name = ...``):
 
@@ -25,7 +25,7 @@ potential is registered from Python, by code the user chose to run, with
 :func:`register_potential` (directly in a script, or in a plugin file given on the command
 line with ``--plugin FILE.py``, see :mod:`bouncelike.plugins`); a configuration then selects it
 by its registered name and gives its numeric parameters. Registered potentials have no
-compiled kernel and are integrated by the slower pure-Python path.
+compiled kernel and run through the same engine uncompiled (about a hundred times slower).
 
 Smoothing at phi = 0. For p < 2, |phi|^p has a divergent V'' (and for p < 1 a divergent V') at
 phi = 0, and in the contracting branch the field oscillates through 0 many times. The monomial
@@ -49,6 +49,7 @@ import numpy as np
 from ..config import Table
 from ..errors import InputError
 from ..units import REDUCED_PLANCK_MASS
+from .limits import check_mass
 
 #: kernel codes understood by the compiled integrator
 KERNEL_QUADRATIC, KERNEL_STAROBINSKY, KERNEL_MONOMIAL, KERNEL_PYTHON = 0, 1, 2, 3
@@ -70,8 +71,7 @@ class Quadratic:
     PARAMETERS: ClassVar[tuple[str, ...]] = ("mass",)
 
     def __post_init__(self) -> None:
-        if not (math.isfinite(self.mass) and self.mass >= 0):
-            raise InputError(f"'potential.mass' = {self.mass!r} is out of range; allowed: >= 0")
+        check_mass(self.mass)
 
     @property
     def parameters(self) -> dict[str, float]:
@@ -106,8 +106,7 @@ class Starobinsky:
     PARAMETERS: ClassVar[tuple[str, ...]] = ("mass",)
 
     def __post_init__(self) -> None:
-        if not (math.isfinite(self.mass) and self.mass > 0):
-            raise InputError(f"'potential.mass' = {self.mass!r} is out of range; allowed: > 0")
+        check_mass(self.mass, zero=False)
 
     @property
     def plateau(self) -> float:

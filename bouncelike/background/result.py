@@ -16,8 +16,11 @@ Conventions
   - ``superinflation_end``: first time after the bounce that Hdot = 0 (rho = rho_c/2 isotropic);
   - ``inflation_start``: first time after the bounce that addot > 0 (epsilon_H < 1) in a
     potential-dominated phase (V > phidot^2/2);
-  - ``inflation_end``: first time after ``inflation_start`` that epsilon_H = -Hdot/H^2 = 1.
+  - ``inflation_end``: first time after ``inflation_start`` that epsilon_H = -Hdot/H^2 = 1
+    (start and end of the longest such phase).
 * E-fold counts are differences of ln a between events.
+* The inflationary phase is the longest accelerated, potential-dominated phase after the bounce
+  (the one definition, :mod:`bouncelike.background.problem`).
 
 Statuses: ``"inflated"`` (all events found), ``"no_inflation"`` (no inflationary phase within
 the integration limits), ``"efold_cap"`` (inflation did not end before the e-fold cap),
@@ -71,6 +74,65 @@ def _frozen(a: Any) -> np.ndarray:
 
 
 @dataclass(frozen=True)
+class RunSummary:
+    """Scalars of one engine run (no trajectory): what e-fold distributions read.
+
+    ``status`` is one of :data:`STATUSES`; ``reason`` why the run ended (``"end"``,
+    ``"efold_cap"``, ``"density"``, ``"time_cap"``, ``"step_budget"``, ``"step_underflow"``,
+    ``"nonfinite"``, ``"wall_budget"``); ``message`` says it in one line with the physical
+    state where a failure happened. Events and e-folds as in :class:`BackgroundEvents` and
+    :class:`EfoldCounts`; at the e-fold cap the inflationary e-folds are a lower bound (ln a at
+    the stop minus ln a at the start of the running phase) and the end of inflation is NaN.
+    """
+
+    status: str
+    reason: str
+    message: str
+    events: BackgroundEvents
+    phi_bounce: float
+    phidot_bounce: float
+    potential_fraction_at_bounce: float
+    density_at_bounce: float
+    max_constraint_residual: float
+    accelerated_phases: int
+    steps: int
+    rejected_steps: int
+    rhs_evaluations: int
+    t_final: float
+    ln_a_final: float
+    engine: str
+
+    @property
+    def success(self) -> bool:
+        return self.status == "inflated"
+
+    @property
+    def status_index(self) -> int:
+        return STATUSES.index(self.status)
+
+    @property
+    def inflationary_efolds(self) -> float:
+        e = self.events
+        end = self.ln_a_final if self.status == "efold_cap" else e.ln_a_inflation_end
+        return float(end - e.ln_a_inflation_start)
+
+    @property
+    def efolds(self) -> EfoldCounts:
+        e = self.events
+        return EfoldCounts(
+            bounce_to_inflation_start=float(e.ln_a_inflation_start - e.ln_a_bounce),
+            inflation=self.inflationary_efolds,
+            bounce_to_inflation_end=float(e.ln_a_inflation_end - e.ln_a_bounce),
+        )
+
+    @property
+    def efolds_bounce_to_stop(self) -> float:
+        """Bounce -> end of inflation, or -> the stop (a lower bound) at the e-fold cap."""
+        end = self.ln_a_final if self.status == "efold_cap" else self.events.ln_a_inflation_end
+        return float(end - self.events.ln_a_bounce)
+
+
+@dataclass(frozen=True)
 class BackgroundTrajectory:
     """One evolved background: dense trajectory, events, e-folds, constraint residual, status.
 
@@ -119,6 +181,8 @@ class BackgroundTrajectory:
     message: str
     extras: dict = field(default_factory=dict)
     settings: dict = field(default_factory=dict)
+    #: the engine's continuous extension (:class:`bouncelike.background.engine.DenseSolution`)
+    dense: Any = None
 
     def __post_init__(self) -> None:
         for name in ("t", "ln_a", "H", "Hdot", "phi", "phidot", "phiddot", "rho", "w"):
@@ -131,12 +195,14 @@ class BackgroundTrajectory:
         return self.status == "inflated"
 
     def state_at(self, t: Any) -> dict[str, np.ndarray]:
-        """ln a, H, phi, phidot at arbitrary times by cubic Hermite interpolation.
-
-        Uses the stored derivatives (H, Hdot, phidot, phiddot), so the interpolant is C^1 and
-        its error is fourth order in the sampling step.
+        """ln a, H, phi, phidot at arbitrary times: the engine's 7th-order continuous extension
+        when the trajectory carries it, else cubic Hermite interpolation of the samples (with
+        the stored derivatives: C^1, error fourth order in the sampling step).
         """
         t = np.asarray(t, dtype=float)
+        if self.dense is not None:
+            obs = self.dense.observables(t)
+            return {key: obs[key] for key in ("ln_a", "H", "phi", "phidot")}
         return {
             "ln_a": hermite(self.t, self.ln_a, self.H, t),
             "H": hermite(self.t, self.H, self.Hdot, t),

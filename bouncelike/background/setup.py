@@ -30,6 +30,8 @@ Configuration (all keys optional except the potential and the chosen start's req
     max_inflation_efolds = 1e4
     max_time = 1e12                # Planck times
     dense_points = 2000
+    max_steps = 3000000            # budget of accepted steps per integration
+    max_seconds = 300              # wall-clock budget per integration
 
     [background.<dynamics name>]   # keys of that dynamics (its CONFIG_KEYS)
 """
@@ -104,6 +106,9 @@ def settings_from_config(table: Table) -> IntegrationSettings:
                                         minimum=1.0, maximum=1e7),
         max_time=sub.number("max_time", d.max_time, minimum=0.0, exclusive_minimum=True),
         dense_points=sub.integer("dense_points", d.dense_points, minimum=0, maximum=10**7),
+        max_steps=sub.integer("max_steps", d.max_steps, minimum=100, maximum=10**9),
+        max_seconds=sub.number("max_seconds", d.max_seconds, minimum=0.0, maximum=1e6,
+                               exclusive_minimum=True),
     )
 
 

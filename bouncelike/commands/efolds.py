@@ -157,8 +157,9 @@ def warm_up(dynamics: Any, potential: Any, prior: Any) -> None:
     from ..background.initial import IntegrationSettings
 
     draws = prior.draw(np.random.default_rng(0), 1)
-    dynamics.evolve(potential, prior.initial(draws, 0),
-                    IntegrationSettings(max_time=1e-6, dense_points=0))
+    short = IntegrationSettings(max_time=1e-6, dense_points=0)
+    dynamics.evolve(potential, prior.initial(draws, 0), short)
+    dynamics.evolve_summaries(potential, [prior.initial(draws, 0)], short)  # the batch entry
 
 
 def make_figure(dist: Any, title: str) -> Any:

@@ -421,8 +421,9 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
 
 def _background(config: Table, past_density: float | None,
                 k_min: float = 0.01) -> tuple[BackgroundTable, list[str], Any]:
-    """Bounce state from the background layer's configuration, then our own dense table."""
-    from ..background.setup import background_from_config  # lands with the engine
+    """The background engine's table through the bounce of the configured background."""
+    from ..background.initial import BounceStart
+    from ..background.setup import background_from_config
 
     setup = background_from_config(config)
     name = getattr(setup.dynamics, "NAME", "")
@@ -434,26 +435,20 @@ def _background(config: Table, past_density: float | None,
     rc = float(setup.dynamics.critical_density)
     notes = []
     init = setup.initial
-    from ..background.initial import BounceStart
-
     if isinstance(init, BounceStart):
-        sign = 1.0 if init.phidot_sign >= 0 else -1.0
-        phi_b = float(pot.field_at(init.potential_fraction * rc, sign))
-        phidot_b = sign * math.sqrt(2 * rc * (1 - init.potential_fraction))
+        phi_b, phidot_b = setup.dynamics.bounce_state(pot, init)
     else:
-        traj = setup.dynamics.evolve(pot, init, setup.settings)
-        if not np.isfinite(traj.events.t_bounce):
-            raise InputError(f"the background has no bounce ({traj.message})")
-        s = traj.state_at(traj.events.t_bounce)
-        phi_b = float(s["phi"])
+        run = setup.dynamics.evolve_summary(pot, init, setup.settings)
+        if not np.isfinite(run.events.t_bounce):
+            raise InputError(f"the background has no bounce ({run.message})")
+        phi_b = run.phi_bounce
         phidot_b = math.copysign(math.sqrt(max(2 * (rc - float(pot.V(phi_b))), 0.0)),
-                                 float(s["phidot"]))
-        notes.append(f"bounce state taken from the {traj.dynamics} engine run "
-                     f"(status {traj.status})")
+                                 run.phidot_bounce)
+        notes.append(f"bounce state taken from the isotropic engine run (status {run.status})")
     if past_density is None:
         past_density = remote_past_density(k_min, rc)
     tab = integrate_background(pot, rc, phi_b, phidot_b, past_density=past_density,
-                               max_efolds=3000.0)
+                               max_efolds=3000.0, settings=setup.settings)
     return tab, notes, pot
 
 

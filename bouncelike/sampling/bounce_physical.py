@@ -2,12 +2,15 @@
 
 One evaluation goes, for V = m^2 phi^2 / 2 on the effective isotropic bounce:
 
-1. background: the compiled engine (:class:`bouncelike.background.isotropic.IsotropicDynamics`)
-   from the bounce, :class:`~bouncelike.background.initial.BounceStart` with the potential
-   fraction x_V = V(phi_B)/rho_c (phidot > 0), to the end of inflation (~0.2 ms). A background
-   that fails or does not inflate, whose inflation does not end (2000 e-fold cap), or that
-   inflates for fewer e-folds after the bounce than N_* raises
-   :class:`~bouncelike.errors.NumericalFailure` (log-likelihood -inf, reason counted);
+1. background: the engine (:class:`bouncelike.background.isotropic.IsotropicDynamics`) from
+   the bounce, :class:`~bouncelike.background.initial.BounceStart` with the potential fraction
+   x_V = V(phi_B)/rho_c (phidot > 0), to the end of inflation, read through its table view
+   (:class:`bouncelike.background.table.BackgroundTable`, the one the spectra read). A
+   background that fails or does not inflate, whose inflation does not end (2000 e-fold cap),
+   or that inflates for fewer e-folds after the bounce than N_* raises
+   :class:`~bouncelike.errors.NumericalFailure` (log-likelihood -inf, reason counted); a mass or
+   critical density outside its physical range (:mod:`bouncelike.background.limits`) is an
+   :class:`~bouncelike.errors.InputError`;
 2. e-folds: bounce -> end of inflation, N_* from the parameters or from the reheating history
    (Liddle & Leach estimate, :func:`bouncelike.perturbations.mapping.liddle_leach_n_star`), and
    N_B* = (bounce -> end) - N_* with the comoving bounce scale k_LQC in Mpc^-1
@@ -144,27 +147,24 @@ class _PhysicalBounce(ForwardModel):
         return out
 
     def _compute(self, p: dict[str, float]) -> tuple[dict[str, float], dict[str, float]]:
+        from ..background.limits import check_critical_density, check_mass
         from ..background.potentials import Quadratic
-        from ..perturbations.background import from_trajectory
         from ..perturbations.mapping import scale_map
 
-        mass = p["mass"]
-        rho_c = p["critical_density"]
-        if not (mass > 0 and rho_c > 0):
-            raise InputError("'mass' and 'critical_density' must be > 0")
+        mass = check_mass(float(p["mass"]), "mass", zero=False)
+        rho_c = check_critical_density(p["critical_density"], "critical_density")
         pot = Quadratic(mass=mass)
         dyn = _dynamics(rho_c)
         if "N_inflation" in p:
             lx = _potential_fraction_for(dyn, pot, p["N_inflation"])
         else:
             lx = p["log10_potential_fraction"]
-        traj = _background(dyn, pot, lx)
-        tab = from_trajectory(traj, pot)
+        tab = _background(dyn, pot, lx)
         if "N_star" in p:
             n_star = p["N_star"]
         else:
             n_star = Reheating.from_values(p).n_star(tab)
-        n_be = float(traj.efolds.bounce_to_inflation_end)
+        n_be = tab.efolds_bounce_to_end
         if not n_star < n_be:
             raise NumericalFailure(f"too little inflation: {n_be:.3g} e-folds from the bounce to "
                                    f"the end of inflation, not more than N_* = {n_star:.3g}")
@@ -187,7 +187,7 @@ class _PhysicalBounce(ForwardModel):
         fd = self._fast().derived(fast_params)
         derived = {
             "log10_potential_fraction": lx,
-            "N_inflation": traj.efolds.inflation,
+            "N_inflation": tab.summary.inflationary_efolds,
             "N_bounce_end": n_be,
             "N_star": n_star, "N_B_star": sm.n_bounce_pivot, "log10_k_lqc": log10_k,
             "log10_conformal_duration": log10_d,
@@ -240,30 +240,30 @@ def _dynamics(rho_c: float) -> Any:
 def _settings() -> Any:
     from ..background.initial import IntegrationSettings
 
-    # accepted steps only (the Hermite interpolation of the trajectory fills in between);
     # an inflationary cap far above any window placement
     return IntegrationSettings(dense_points=0, max_inflation_efolds=2000.0)
 
 
 def _background(dyn: Any, pot: Any, log10_fraction: float) -> Any:
-    """The trajectory from the bounce; NumericalFailure unless inflation starts and ends."""
+    """The table view from the bounce to the end of inflation; NumericalFailure unless
+    inflation starts and ends."""
     from ..background.initial import BounceStart
 
     if not log10_fraction < 0:
         raise InputError(f"'log10_potential_fraction' = {log10_fraction:g} is out of range; "
                          "allowed: < 0")
-    traj = dyn.evolve(pot, BounceStart(10.0 ** log10_fraction, 1), _settings())
-    if traj.status != "inflated":
-        raise NumericalFailure(f"background {traj.status}: {traj.message}")
-    return traj
+    tab = dyn.table(pot, BounceStart(10.0 ** log10_fraction, 1), extra_efolds=0.0,
+                    settings=_settings())
+    if tab.summary.status != "inflated":
+        raise NumericalFailure(f"background {tab.summary.status}: {tab.summary.message}")
+    return tab
 
 
 def _inflation_efolds(dyn: Any, pot: Any, log10_fraction: float) -> float:
     from ..background.initial import BounceStart
-    from ..background.isotropic import inflationary_efolds
 
     s = dyn.evolve_summary(pot, BounceStart(10.0 ** log10_fraction, 1), _settings())
-    return float(inflationary_efolds(s))
+    return s.inflationary_efolds
 
 
 #: first guess of the search (only its speed depends on it): log10 x_V as a cubic in ln N,
