@@ -98,24 +98,26 @@ REHEATING = (N_STAR, EQUATION_OF_STATE, LOG10_REHEATING_DENSITY, THERMAL_DEGREES
 
 # -- inflaton potentials ----------------------------------------------------------------------
 
-_SUB_PLANCKIAN = ("sub-Planckian: the semiclassical inflaton needs masses << m_Pl; the "
-                  "measured A_s = 2.1e-9 asks for ~1e-6")
+_SUB_PLANCKIAN = ("an effective inflaton far below the Planck mass; the measured A_s = 2.1e-9 "
+                  "asks for ~1e-6")
 QUADRATIC_MASS = Parameter(
     "mass", "inflaton mass m of V = m^2 phi^2 / 2 (0: a free massless field, which never "
-    "inflates)", "m_Pl", 0.0, 1.0, upper_open=True, why=_SUB_PLANCKIAN,
-    label=r"m/m_\mathrm{Pl}")
+    "inflates)", "m_Pl", 0.0, 0.1, why=_SUB_PLANCKIAN, label=r"m/m_\mathrm{Pl}")
 STAROBINSKY_MASS = Parameter(
     "mass", "mass scale M of V = (3/4) M^2 M_Pl^2 (1 - exp(-sqrt(2/3) phi/M_Pl))^2 (its mass "
-    "at the minimum)", "m_Pl", 0.0, 1.0, lower_open=True, upper_open=True, why=_SUB_PLANCKIAN,
+    "at the minimum)", "m_Pl", 0.0, 0.1, lower_open=True, why=_SUB_PLANCKIAN,
     label=r"M/m_\mathrm{Pl}")
 
 # -- the bounce -------------------------------------------------------------------------------
 
 CRITICAL_DENSITY = Parameter(
     "critical_density", "critical (maximum) density rho_c of the effective bounce",
-    "Planck density", 0.0, None, lower_open=True,
-    why="rho_c = sqrt(3)/(32 pi^2 gamma^3) = 0.40937 for gamma = 0.2375, Ashtekar & Singh "
-    "2011", label=r"\rho_c")
+    "Planck density", 1e-10, 1e6,
+    why="the effective theories describe a bounce near the Planck density, rho_c = 0.40937 for "
+    "gamma = 0.2375, Ashtekar & Singh 2011; below 1e-10 the bounce sits at the energy of the "
+    "inflaton potentials and its time scales exceed any integration budget, above 1e6 the "
+    "densities are far beyond the Planck scale the equations are written for",
+    label=r"\rho_c")
 START_DENSITY = Parameter(
     "start_density", "density rho_0 where the contracting branch starts (for a phase prior: "
     "the top of the rho_0 window)", "Planck density", 0.0, 1.0, lower_open=True,

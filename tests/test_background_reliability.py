@@ -60,7 +60,7 @@ def test_critical_density_outside_its_physical_range_is_refused(tmp_path):
     out = _cli(["score", str(cfg)], tmp_path, timeout=120)
     assert out.returncode == 2
     assert "'background.critical_density' = 1e-300 is out of range" in out.stderr
-    assert "allowed: 1e-10 <= rho_c <= 1e+06" in out.stderr
+    assert "allowed: >= 1e-10 and <= 1e+06 Planck density" in out.stderr
     with pytest.raises(InputError, match="critical_density"):
         IsotropicDynamics(1e-300)
 

@@ -56,9 +56,9 @@ sigma = 1e-320
 SCORE_CASES = {
     "slow-roll mass 1e200 (was an OverflowError)": (
         SLOW_ROLL.replace("mass = 1.16e-6", "mass = 1e200"), "'slow_roll.mass' = 1e+200",
-        "< 1 m_Pl"),
+        "<= 0.1 m_Pl"),
     "slow-roll mass giving A_s > 1": (
-        SLOW_ROLL.replace("mass = 1.16e-6", "mass = 0.5"), "'slow_roll.mass' = 0.5",
+        SLOW_ROLL.replace("mass = 1.16e-6", "mass = 0.05"), "'slow_roll.mass' = 0.05",
         "A_s <= 1"),
     "A_s 1e300 (was reported as ln_1e10_As)": (
         POWER_LAW.replace("ln_1e10_As = 3.044", "A_s = 1e300"), "'power_law.A_s' = 1e+300",

@@ -94,11 +94,12 @@ class ForwardModel:
 
 
 def evaluate_at(model: ForwardModel, values: Mapping[str, Any], where: str) -> Any:
-    """``model.spectra(values)`` for one configured point: a numerical failure becomes one
-    line naming the values given and the physical reason (:class:`InputError`)."""
+    """``model.spectra(values)`` for one configured point: a numerical failure (or a point
+    the model cannot evaluate) keeps its kind and becomes one line naming the values given
+    and the physical reason."""
     try:
         return model.spectra(values)
     except NumericalFailure as exc:
         given = ", ".join(f"{where}.{k} = {v:g}" if isinstance(v, float) else f"{where}.{k} = {v}"
                           for k, v in values.items())
-        raise InputError(f"model '{model.name}' cannot be evaluated at {given}: {exc}") from None
+        raise type(exc)(f"model '{model.name}' cannot be evaluated at {given}: {exc}") from None

@@ -67,9 +67,9 @@ class BounceModel(ForwardModel):
 
         try:
             return bounce_spectra_from_config(config)
-        except NumericalFailure as exc:
-            raise InputError(f"model 'bounce' cannot be evaluated at "
-                             f"{configured_values(config)}: {exc}") from None
+        except NumericalFailure as exc:  # keeps its kind (exit code 1), gains the values
+            raise type(exc)(f"model 'bounce' cannot be evaluated at "
+                            f"{configured_values(config)}: {exc}") from None
 
 
 class TableModel(ForwardModel):
