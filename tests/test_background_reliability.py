@@ -38,7 +38,7 @@ def _cli(args: list[str], cwd: Path, timeout: float) -> subprocess.CompletedProc
 def _spectrum_config(path: Path, background: str) -> Path:
     path.write_text('[model]\nspectra = "bounce"\n[potential]\nname = "quadratic"\n'
                     f'mass = 1.2e-6\n[background]\ndynamics = "isotropic"\nstart = "bounce"\n'
-                    f'{background}\n[reheating]\nn_star = 55.0\n[likelihood]\n'
+                    f'{background}\n[reheating]\nN_star = 55.0\n[likelihood]\n'
                     'sets = ["planck2018_base"]\n')
     return path
 
