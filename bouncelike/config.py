@@ -12,6 +12,7 @@ Top-level sections of a run configuration (each validated by the module that own
 ``power_law``     a power-law primordial spectrum
 ``slow_roll``     slow-roll prediction of a potential at N_* e-folds
 ``bounce_transfer`` a power law times the cached transfer of the bounce
+``bounce_physical`` the bounce in physical parameters (background, mass, rho_c)
 ``table``         spectra read from a CSV file (``[model] spectra = "table"``)
 ``potential``     inflaton potential (name and parameters)
 ``background``    effective bounce dynamics and initial data
@@ -54,6 +55,7 @@ TOP_LEVEL_SECTIONS = (
     "power_law",
     "slow_roll",
     "bounce_transfer",
+    "bounce_physical",
     "table",
     "potential",
     "background",

@@ -110,6 +110,12 @@ STAROBINSKY_MASS = Parameter(
 
 # -- the bounce -------------------------------------------------------------------------------
 
+BARBERO_IMMIRZI = Parameter(
+    "gamma", "Barbero-Immirzi parameter; rho_c = sqrt(3)/(32 pi^2 gamma^3)", "", 0.0, 10.0,
+    lower_open=True, upper_open=True,
+    why="0.2375 from black-hole entropy counting, from memory; above 10 the bounce would sit "
+    "below 5.5e-6 Planck densities, among the inflaton's energies", label=r"\gamma",
+    default=0.2375)
 CRITICAL_DENSITY = Parameter(
     "critical_density", "critical (maximum) density rho_c of the effective bounce",
     "Planck density", 1e-10, 1e6,

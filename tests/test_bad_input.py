@@ -253,3 +253,60 @@ def test_gaussian_prior_is_truncated_to_the_declared_range():
     assert r.lower == 0.0 and r.upper == 16.0
     # scipy-free check: N(0; 0, 0.1) = 1/(0.1 sqrt(2 pi)), doubled by the truncation at 0
     assert math.exp(r.log_density([1e-12])[0]) == pytest.approx(2 / (0.1 * math.sqrt(2 * math.pi)))
+
+
+BOUNCE = """
+[model]
+spectra = "bounce"
+
+[potential]
+name = "quadratic"
+mass = {mass}
+
+[background]
+start = "bounce"
+
+[background.bounce]
+potential_fraction = {fraction}
+
+[reheating]
+N_star = {n_star}
+"""
+
+
+@pytest.mark.parametrize("mass, fraction, n_star, reason", [
+    # was a ZeroDivisionError traceback from the slow-roll continuation
+    (0.0, 1e-11, 55.0, "a field without potential energy never inflates"),
+    # was "mode k=0.032072 has no positive frequency" (later: a bare reason without values)
+    (1e-3, 2.5e-4, 1.0, "inflation after the bounce is too short"),
+])
+def test_bounce_model_failures_name_the_values_and_the_reason(mass, fraction, n_star, reason,
+                                                              tmp_path, capsys):
+    cfg = tmp_path / "run.toml"
+    cfg.write_text(BOUNCE.format(mass=mass, fraction=fraction, n_star=n_star))
+    assert main(["score", str(cfg)]) == 1  # not evaluable: exit code 1, one line
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and "Traceback" not in err
+    assert f"potential.mass = {mass:g}" in err and f"reheating.N_star = {n_star:g}" in err
+    assert reason in err
+
+
+def test_physical_bounce_model_from_a_configuration(tmp_path, capsys):
+    # the physical model scored from [bounce_physical] + [reheating] (the keys of its prior
+    # files): m^2 phi^2 at N_* = 55 gives n_s = 1 - 2/(N + 1/2), r = 8/(N + 1/2) up to
+    # O(1/N^2) (Encyclopaedia Inflationaris, arXiv:1303.3787), the bounce far below the window
+    cfg = tmp_path / "run.toml"
+    cfg.write_text('[model]\nspectra = "bounce_physical_dressed_metric"\n[bounce_physical]\n'
+                   "log10_potential_fraction = -11.6\nmass = 1.2e-6\ncritical_density = 0.40937\n"
+                   "[reheating]\nN_star = 55.0\n")
+    assert main(["score", str(cfg), "--json"]) == 0
+    import json
+
+    terms = {t["quantity"]: t["predicted"] for t in json.loads(capsys.readouterr().out)["terms"]}
+    assert terms["n_s"] == pytest.approx(1 - 2 / 55.5, abs=1e-3)
+    assert terms["r"] == pytest.approx(8 / 55.5, rel=0.02)
+    # one reheating choice: N_star and a history together are refused
+    cfg.write_text(cfg.read_text().replace("N_star = 55.0", "N_star = 55.0\n"
+                                           "equation_of_state = 0.0"))
+    assert main(["score", str(cfg)]) == 2
+    assert "needs 'N_star', or both" in capsys.readouterr().err

@@ -10,7 +10,8 @@ import pytest
 from cli_helpers import check_provenance
 from perturbations_helpers import bounce_background
 
-from bouncelike.perturbations.forward import PerturbationOptions, run_bounce
+from bouncelike.models.bounce import PerturbationOptions, run_bounce
+from bouncelike.models.reheating import Reheating
 from bouncelike.perturbations.mapping import liddle_leach_n_star, scale_map
 
 
@@ -42,7 +43,8 @@ def test_liddle_leach_range_and_reheating_term():
 @pytest.mark.parametrize("presc", ["dressed_metric", "deformed_algebra"])
 def test_forward_model_covers_window_and_notes_bounce_scale(presc):
     tab = bounce_background()
-    run = run_bounce(tab, PerturbationOptions(prescription=presc, k_count=24), n_star=55.0)
+    run = run_bounce(tab, PerturbationOptions(prescription=presc, k_count=24),
+                     Reheating(N_star=55.0))
     assert run.k_mpc.min() < 1e-4 and run.k_mpc.max() > 0.2
     assert np.all(np.diff(run.k_mpc) > 0)
     assert "bounce scale k_LQC" in run.notes[0] and "observable window" in run.notes[0]
@@ -53,16 +55,16 @@ def test_forward_model_covers_window_and_notes_bounce_scale(presc):
                    for n in run.notes)
     if presc == "deformed_algebra":
         # UV growth: k_* ~ 23 k_LQC here, far above the dressed-metric (standard) value
-        dm = run_bounce(tab, PerturbationOptions(k_count=24), n_star=55.0)
+        dm = run_bounce(tab, PerturbationOptions(k_count=24), Reheating(N_star=55.0))
         assert run.spectrum.tensor[j] > 1e6 * dm.spectrum.tensor[j]
 
 
 def test_spectrum_command_writes_outputs(tmp_path, monkeypatch, capsys):
     from bouncelike import cli
-    from bouncelike.perturbations import forward
+    from bouncelike.models import bounce as forward
 
     tab = bounce_background()
-    run = run_bounce(tab, PerturbationOptions(k_count=24), n_star=55.0)
+    run = run_bounce(tab, PerturbationOptions(k_count=24), Reheating(N_star=55.0))
     monkeypatch.setattr(forward, "run_from_config", lambda config, show_progress=False: run)
     cfg = tmp_path / "b.toml"
     cfg.write_text('[model]\nspectra = "bounce"\n')
@@ -97,7 +99,7 @@ def test_plateau_beyond_cap_gives_slow_roll_window():
                                past_density=1e-11, max_efolds=400.0)
     assert not np.isfinite(tab.t_inflation_end)
     for presc in ("dressed_metric", "deformed_algebra"):
-        run = run_bounce(tab, PerturbationOptions(prescription=presc), n_star=55.0,
+        run = run_bounce(tab, PerturbationOptions(prescription=presc), Reheating(N_star=55.0),
                          potential=pot)
         s = pivot_summary(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor, 0.05)
         assert s["n_s"] == pytest.approx(1 - 2 / 55, abs=2.5e-3)
@@ -153,7 +155,7 @@ def test_contracting_start_on_negative_branch_gives_slow_roll(tmp_path):
     # (Encyclopaedia Inflationaris, arXiv:1303.3787) with the bounce far below the window.
     from bouncelike.commands.spectrum import pivot_summary
     from bouncelike.config import load_run_config
-    from bouncelike.perturbations.forward import run_from_config
+    from bouncelike.models.bounce import run_from_config
 
     cfg = tmp_path / "c.toml"
     cfg.write_text('[model]\nspectra = "bounce"\n[potential]\nname = "quadratic"\n'

@@ -11,7 +11,8 @@ import pytest
 from perturbations_helpers import bounce_background
 
 from bouncelike.errors import InputError, NotEvaluable
-from bouncelike.perturbations.forward import PerturbationOptions, run_bounce
+from bouncelike.models.bounce import PerturbationOptions, run_bounce
+from bouncelike.models.reheating import Reheating
 from bouncelike.perturbations.states import REMOTE_PAST_TOLERANCE
 from bouncelike.perturbations.transfer import (
     FAMILIES,
@@ -110,7 +111,7 @@ def test_new_states_through_forward_model_and_fast_model():
     # forward model (full mode integration, as `spectrum` and `score` run it) with the
     # non-oscillating state: a lower infrared than the remote-past state, the same UV
     tab = bounce_background()
-    runs = {st: run_bounce(tab, PerturbationOptions(state=st, k_count=16), n_star=55.0)
+    runs = {st: run_bounce(tab, PerturbationOptions(state=st, k_count=16), Reheating(N_star=55.0))
             for st in ("remote_past", "non_oscillating", "low_energy")}
     x = runs["remote_past"].spectrum.k / tab.k_lqc
     low = (x >= 0.01) & (x <= 0.03)

@@ -60,7 +60,7 @@ def model():
 
 
 def test_reproduces_full_forward_model_at_the_pivot(tmp_path, model):
-    from bouncelike.perturbations.forward import run_from_config
+    from bouncelike.models.bounce import run_from_config
 
     derived = model.derived(POINT)
     assert derived["certified"] == 1.0

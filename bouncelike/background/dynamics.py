@@ -3,7 +3,8 @@
 A dynamics is a small immutable object with
 
 * ``NAME``: its registry name;
-* ``CONFIG_KEYS``: the keys allowed in its own sub-table ``[background.<NAME>]``;
+* ``CONFIG_PARAMETERS``: the declarations (:class:`bouncelike.config.Parameter`) of the keys of
+  its own sub-table ``[background.<NAME>]``, and ``CONFIG_KEYS``, their names;
 * ``from_config(table, critical_density)`` (classmethod): build it from that sub-table
   (:class:`bouncelike.config.Table`) and the critical density set in ``[background]``;
 * ``evolve(potential, initial, settings) -> BackgroundTrajectory``: evolve one initial datum

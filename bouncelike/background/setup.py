@@ -44,8 +44,7 @@ from typing import Any
 
 from ..config import Table
 from ..errors import InputError
-from ..quantities import POTENTIAL_FRACTION, START_DENSITY
-from ..units import IMMIRZI_DEFAULT
+from ..quantities import BARBERO_IMMIRZI, CRITICAL_DENSITY, POTENTIAL_FRACTION, START_DENSITY
 from ..units import critical_density as critical_density_from_gamma
 from .dynamics import DYNAMICS_REGISTRY, dynamics_class
 from .initial import BounceStart, ClassicalStart, ContractingStart, IntegrationSettings
@@ -89,10 +88,9 @@ def critical_density_from_config(table: Table) -> float:
             "give either 'background.gamma' or 'background.critical_density', not both"
         )
     if "critical_density" in table:
-        return table.positive("critical_density")
-    gamma = table.number("gamma", IMMIRZI_DEFAULT, minimum=0.0, maximum=100.0,
-                         exclusive_minimum=True)
-    return critical_density_from_gamma(gamma)
+        return CRITICAL_DENSITY.read(table)
+    return CRITICAL_DENSITY.check(critical_density_from_gamma(BARBERO_IMMIRZI.read(table)),
+                                  table.key("gamma") + " -> rho_c")
 
 
 def settings_from_config(table: Table) -> IntegrationSettings:

@@ -168,7 +168,7 @@ def format_score(score: Any, title: str = "") -> str:
 def run(args: Any, session: Any) -> CommandResult:
     from ..errors import NotEvaluable
     from ..likelihood.gaussian import likelihood_from_config
-    from ..models.registry import spectra_from_config
+    from ..models import spectra_from_config
     from ..provenance import constraint_sets_of
 
     path = Path(args.config)

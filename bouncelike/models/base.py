@@ -93,13 +93,15 @@ class ForwardModel:
         return evaluate_at(self, values, self.config_section)
 
 
-def evaluate_at(model: ForwardModel, values: Mapping[str, Any], where: str) -> Any:
+def evaluate_at(model: ForwardModel, values: Mapping[str, Any],
+                where: str | Mapping[str, str]) -> Any:
     """``model.spectra(values)`` for one configured point: a numerical failure (or a point
     the model cannot evaluate) keeps its kind and becomes one line naming the values given
-    and the physical reason."""
+    (``where``: their section, or a section per key) and the physical reason."""
     try:
         return model.spectra(values)
     except NumericalFailure as exc:
-        given = ", ".join(f"{where}.{k} = {v:g}" if isinstance(v, float) else f"{where}.{k} = {v}"
-                          for k, v in values.items())
+        section = (lambda k: where) if isinstance(where, str) else where.get
+        given = ", ".join(f"{section(k)}.{k} = {v:g}" if isinstance(v, float)
+                          else f"{section(k)}.{k} = {v}" for k, v in values.items())
         raise type(exc)(f"model '{model.name}' cannot be evaluated at {given}: {exc}") from None

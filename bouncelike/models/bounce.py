@@ -1,4 +1,5 @@
-"""Forward bounce model: configuration -> background -> modes -> spectra in Mpc^-1.
+"""The bounce forward model: configuration -> background -> modes -> spectra in Mpc^-1
+(``[model] spectra = "bounce"``).
 
 ``[perturbations]`` keys (all optional):
 
@@ -26,37 +27,53 @@ switch_density         deformed-algebra scalars: regular variables where rho > t
 ``[reheating]`` (:mod:`bouncelike.models.reheating`): ``N_star`` (e-folds from the pivot's exit
 to the end of inflation), or ``equation_of_state`` w and ``log10_reheating_density`` (log10
 rho_reh, Planck units) for the Liddle & Leach estimate, with ``thermal_degrees_of_freedom``
-g_th (default 106.75, see :mod:`.mapping`); ``pivot`` (Mpc^-1, default 0.05);
+g_th (default 106.75, see :mod:`bouncelike.perturbations.mapping`); ``pivot`` (Mpc^-1,
+default 0.05);
 ``hubble_constant`` (km/s/Mpc, default Planck 2018).
 
-Deformed-algebra modes whose Euclidean growth exp(2 k int sqrt(-Omega) d eta) would exceed
-e^600 are not integrated. Scalars and tensors grow there with the same exponent (the same
-Omega k^2 term; scalars: arXiv:1508.06786), so their ratio tends to r_std x e^Delta with Delta
-the measured prefactor ratio of the cached transfer (:mod:`.transfer`). The table gives both as
-standard x e^600 x that ratio (a common lower bound that keeps P_t/P_s right), and the notes
-carry the uncapped log-amplitude of the tensors at the pivot against the tensor bound
-P_t < r_max x A_s (BK18 r limit x Planck 2018 A_s, shipped constraint sets): the argument by
-which Bolliet, Barrau, Grain & Schander exclude the deformed algebra with long inflation
-(arXiv:1510.08766, from memory). In the score the exclusion shows through ln(1e10 A_s); the r
-term stays near the slow-roll value because the growth rates are equal.
+Deformed-algebra modes above the e^600 cap and the tensor bound: :mod:`.bounce_ultraviolet`.
+Inflation outlasting the background's e-fold cap (plateaus): :mod:`.bounce_plateau`.
+A failure of the model at a configured point (no inflation, a window the modes cannot reach)
+is not evaluable, one line naming the configured values and the physical reason.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from pathlib import Path
 from typing import Any
 
 import numpy as np
 
+from ..background.initial import BounceStart
+from ..background.setup import background_from_config
+from ..background.table import BackgroundTable, table_from_state
 from ..config import Parameter, Table
-from ..errors import InputError
-from ..models.reheating import reheating_from_config
-from .background import BackgroundTable, integrate_background
-from .mapping import ScaleMap, liddle_leach_n_star, scale_map
-from .prescriptions import DEFAULT_SIGN_CONVENTION, PRESCRIPTIONS, SIGN_CONVENTIONS
-from .spectra import BounceSpectrum, bounce_spectra
-from .states import REMOTE_PAST_TOLERANCE, STATES, Bogoliubov, remote_past_density
+from ..errors import InputError, NotEvaluable, NumericalFailure
+from ..perturbations.mapping import WINDOW_GRID, ScaleMap, scale_map
+from ..perturbations.modes import ModeSolver
+from ..perturbations.prescriptions import (
+    DEFAULT_SIGN_CONVENTION,
+    PRESCRIPTIONS,
+    SIGN_CONVENTIONS,
+    euclidean_growth_rate,
+    mode_system,
+)
+from ..perturbations.spectra import BounceSpectrum, bounce_spectra
+from ..perturbations.states import (
+    REMOTE_PAST_TOLERANCE,
+    STATES,
+    Bogoliubov,
+    make_state,
+    remote_past_density,
+)
+from ..perturbations.transfer_model import CAP_EXPONENT
+from ..spectra.tabulated import TabulatedSpectra
+from .base import ForwardModel
+from .bounce_plateau import plateau_window
+from .bounce_ultraviolet import capped_boost, deformed_uv_tensor_note
+from .reheating import Reheating, reheating_from_config
 
 #: the options of ``[perturbations]``, declared once (module docstring)
 PERTURBATION_OPTIONS = (
@@ -99,8 +116,6 @@ PERTURBATION_OPTIONS = (
               "bounce and valid while rho << rho_c is not yet reached", default=1e-4),
 )
 PERTURBATION_KEYS = tuple(p.name for p in PERTURBATION_OPTIONS)
-WINDOW_GRID = (1e-5, 1.0, 40)
-MAX_GROWTH_EXPONENT = 600.0
 
 
 @dataclass(frozen=True)
@@ -142,166 +157,13 @@ class BounceRun:
     notes: tuple[str, ...]
 
 
-def euclidean_growth_rate(tab: BackgroundTable) -> float:
-    """2 int sqrt(-Omega) d eta over the Euclidean phase (WKB growth exponent per unit k).
-
-    Omega and ln a are splined on the nodes around the phase, its edges are the roots of the
-    Omega spline, and the integral is taken with the square-root edges as quadrature weights
-    (a trapezoid on the nodes misses them: relative error 3.5e-4 on the usual grids). The
-    massless bounce gives 2 k_LQC int sqrt(-Omega) d eta = 1.59419 in units of k/k_LQC.
-    """
-    from scipy.integrate import quad
-    from scipy.interpolate import CubicSpline
-
-    neg = np.nonzero(tab.Omega < 0)[0]
-    if not len(neg):
-        return 0.0
-    sel = slice(max(int(neg[0]) - 4, 0), min(int(neg[-1]) + 5, len(tab.t)))
-    om = CubicSpline(tab.t[sel], tab.Omega[sel])
-    ln_a = CubicSpline(tab.t[sel], tab.ln_a[sel])
-    roots = om.roots(extrapolate=False)
-    t0 = roots[roots <= tab.t[neg[0]]].max() if np.any(roots <= tab.t[neg[0]]) else tab.t[0]
-    t1 = roots[roots >= tab.t[neg[-1]]].min() if np.any(roots >= tab.t[neg[-1]]) else tab.t[-1]
-
-    def smooth(t):  # sqrt(-Omega) / a divided by the square-root edge factors
-        d = (t - t0) * (t1 - t)
-        # at an edge, -Omega / d -> |dOmega/dt| / (t1 - t0)
-        q = -float(om(t)) / d if d > 0 else abs(float(om(t, 1))) / (t1 - t0)
-        return math.sqrt(max(q, 0.0)) * math.exp(-float(ln_a(t)))
-
-    val = quad(smooth, t0, t1, weight="alg", wvar=(0.5, 0.5), limit=200)[0]
-    return 2 * val
-
-
-def deformed_uv_tensor_note(ln_x_pivot: float, ln_pt_std: float, pivot: float) -> str:
-    """Uncapped tensor amplitude at the pivot vs the published tensor bound (see module doc)."""
-    from ..likelihood.sets import load_constraint_set
-    from .transfer import load_transfer
-
-    t = load_transfer("deformed_algebra", "remote_past")
-    ln_growth = math.log(t.growth_per_x) + ln_x_pivot  # ln of growth x (k_*/k_LQC)
-    ln_tt = (float(t.ln_mean_transfer(np.array([math.exp(ln_x_pivot)]))["tensor"][0])
-             if ln_growth < 700 else math.inf)
-    r_max = next(term.limit for term in load_constraint_set("bk18").terms
-                 if term.quantity == "r")
-    ln_as = next(term.mean for term in load_constraint_set("planck2018_base").terms
-                 if term.quantity == "ln_1e10_As") - math.log(1e10)
-    ln_bound = math.log(r_max) + ln_as
-    if math.isfinite(ln_tt):
-        amp = f"ln P_t = {ln_pt_std + ln_tt:.4g}"
-        excess = f"e^{ln_pt_std + ln_tt - ln_bound:.4g}"
-    else:
-        lg = (math.log(t.growth_per_x) + ln_x_pivot) / math.log(10)
-        amp = f"ln P_t ~ 10^{lg:.6g} (uncapped estimate; the scored spectra are capped)"
-        excess = f"e^(10^{lg:.6g})"
-    return (f"deformed algebra, tensor amplitude at k_* = {pivot:g} Mpc^-1 (k_*/k_LQC = "
-            f"e^{ln_x_pivot:.6g}): {amp} from the Euclidean growth exp(2 k int sqrt(-Omega) "
-            f"d eta), against the tensor bound P_t < r_max A_s = {r_max:g} x "
-            f"{math.exp(ln_as):.3g} = {math.exp(ln_bound):.2g} (BK18 r limit x Planck 2018 A_s; "
-            f"the argument of arXiv:1510.08766): excluded by the tensor amplitude, {excess} "
-            f"above the bound. Scalars grow with the same exponent, so P_t/P_s = r_std x "
-            f"e^{t.uv_tensor_scalar_log_ratio:.2f} stays near slow roll: in the score the "
-            "exclusion appears through ln(1e10 A_s), not through r")
-
-
-def slow_roll_end(potential: Any, phi: float) -> float:
-    """Field value where epsilon_V = (V'/V)^2/(16 pi) = 1, rolling down from ``phi``."""
-    from scipy.optimize import brentq
-
-    s = math.copysign(1.0, float(potential.dV(phi)))
-
-    def eps(x):
-        return (float(potential.dV(x)) / float(potential.V(x))) ** 2 / (16 * math.pi) - 1.0
-
-    if eps(phi) >= 0:
-        raise InputError("slow roll: the field is not inflating at the integration cap")
-    prev, step, x = phi, 1e-3 * max(abs(phi), 1.0), phi
-    while eps(x) < 0:
-        prev = x
-        x -= s * step
-        step *= 1.5
-        if abs(x - phi) > 1e3:
-            raise InputError("slow roll: no end of inflation found along the potential")
-    return brentq(eps, prev, x)
-
-
-def slow_roll_efolds(potential: Any, phi: float, phi_end: float) -> float:
-    """N(phi) = 8 pi int_{phi_end}^{phi} V/V' dphi (Planck units)."""
-    from scipy.integrate import quad
-
-    return 8 * math.pi * quad(lambda y: float(potential.V(y)) / float(potential.dV(y)),
-                              phi_end, phi, limit=400)[0]
-
-
-def _beyond_cap(tab: BackgroundTable, potential: Any, opts: PerturbationOptions,
-                n_star: float | None, reheating, pivot: float, h0: float | None) -> BounceRun:
-    """Inflation outlasts the integration cap: window spectra of the slow-roll attractor."""
-    from scipy.optimize import brentq
-
-    if potential is None:
-        raise InputError("inflation does not end within the background: cannot place N_*")
-    phi_cap = float(tab.phi[-1])
-    phi_end = slow_roll_end(potential, phi_cap)
-    n_cap = slow_roll_efolds(potential, phi_cap, phi_end)
-    target = 95.0
-    if n_cap < target + 5:
-        raise InputError("inflation does not end within the background: cannot place N_*")
-    phi_x = brentq(lambda y: slow_roll_efolds(potential, y, phi_end) - target, phi_end, phi_cap)
-    v0 = -float(potential.dV(phi_x)) / math.sqrt(24 * math.pi * float(potential.V(phi_x)))
-    ctab = integrate_background(potential, math.inf, phi_x, v0)
-    if n_star is None:
-        n_star = liddle_leach_n_star(ctab, *reheating[:2], pivot, h0, *reheating[2:])
-    sm_c = scale_map(ctab, n_star, pivot)
-    lo, hi, n = WINDOW_GRID
-    k_mpc = np.geomspace(lo, hi, n)
-    kb = sm_c.to_bounce(k_mpc)
-    std = bounce_spectra(ctab, kb, prescription="dressed_metric", state="remote_past",
-                         sign_convention="classical", step=opts.step,
-                         adiabatic_ratio=opts.adiabatic_ratio, freeze=opts.freeze)
-    boost_s, boost_t = 1.0, 1.0
-    if opts.prescription == "deformed_algebra":
-        from .transfer import load_transfer
-
-        boost_s = math.exp(MAX_GROWTH_EXPONENT)
-        boost_t = boost_s * math.exp(load_transfer("deformed_algebra", "remote_past")
-                                     .uv_tensor_scalar_log_ratio)
-    ln_a_end_classical = float(np.interp(ctab.t_inflation_end, ctab.t, ctab.ln_a))
-    n_b_star = float(tab.ln_a[-1] - tab.ln_a[tab.bounce_index()]) + n_cap - n_star
-    ln_k_lqc = (math.log(pivot) - n_b_star
-                - math.log(float(np.interp(ln_a_end_classical - n_star, ctab.ln_a, ctab.H))
-                           / math.sqrt(8 * math.pi * (tab.critical_density
-                                                      - tab.V[tab.bounce_index()]))))
-    sm = ScaleMap(n_star, n_b_star, pivot, ln_k_lqc - math.log(tab.k_lqc), ln_k_lqc, math.nan)
-    notes = [sm.bounce_scale_note(),
-             f"inflation outlasts the integration cap of {tab.ln_a[-1]:.0f} e-folds after the "
-             f"bounce; slow roll adds {n_cap:.0f} more, so N_B* ~ {n_b_star:.0f} and the window "
-             "spectra are those of the slow-roll attractor (modes started inside the Hubble "
-             "radius during inflation, bounce untouched)"]
-    if opts.prescription == "deformed_algebra":
-        notes.append("deformed algebra: every window mode lies so far above k_LQC that its "
-                     "Euclidean growth exceeds e^600; both powers are given as the standard "
-                     "ones x e^600 x their measured ultraviolet ratio, a lower bound")
-        notes.append(deformed_uv_tensor_note(
-            math.log(pivot) - ln_k_lqc, float(np.interp(math.log(pivot), np.log(k_mpc),
-                                                        np.log(std.tensor))), pivot))
-    spectrum = BounceSpectrum(kb, std.scalar * boost_s, std.tensor * boost_t, tab.k_lqc,
-                              opts.prescription, opts.state, std.sign_convention,
-                              std.scalar_modes, std.tensor_modes, std.notes, std.settings)
-    return BounceRun(ctab, spectrum, sm, k_mpc, tuple(notes))
-
-
-def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | None = None,
-               reheating: tuple[float, ...] | None = None, pivot: float = 0.05,
-               h0: float | None = None, potential: Any = None,
-               show_progress: bool = False) -> BounceRun:
-    """Spectra of one background in bounce units and in Mpc^-1."""
+def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, reheating: Reheating,
+               potential: Any = None, show_progress: bool = False) -> BounceRun:
+    """Spectra of one background in bounce units and in Mpc^-1; N_* from ``reheating``."""
     if not np.isfinite(tab.t_inflation_end):
-        return _beyond_cap(tab, potential, opts, n_star, reheating, pivot, h0)
-    if n_star is None:
-        if reheating is None:
-            raise InputError("[reheating] needs N_star, or equation_of_state and "
-                             "log10_reheating_density")
-        n_star = liddle_leach_n_star(tab, *reheating[:2], pivot, h0, *reheating[2:])
+        return BounceRun(*plateau_window(tab, potential, opts, reheating))
+    n_star = reheating.n_star(tab)
+    pivot = reheating.pivot
     sm = scale_map(tab, n_star, pivot)
     k_lqc = tab.k_lqc
     ln_feat = np.log(np.geomspace(opts.k_min, opts.k_max, opts.k_count) * k_lqc)
@@ -316,7 +178,7 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
     i_infl = int(np.nonzero(post)[0][np.argmin(ln_aH[post])])
     # modes through the bounce: a = e^{ln a} stays finite and no e^600 growth
     through = (ln_kb - math.log(opts.freeze) + 2 < 600) & (rate * np.exp(np.minimum(
-        ln_kb, 600)) <= MAX_GROWTH_EXPONENT)
+        ln_kb, 600)) <= CAP_EXPONENT)
     if opts.prescription == "deformed_algebra":
         through &= ln_kb <= ln_feat[-1] + 2
     scal, tens = np.empty(len(ln_kb)), np.empty(len(ln_kb))
@@ -334,10 +196,6 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
     if opts.prescription == "dressed_metric":
         # show what the sign ambiguity of the regular potential does (physics notes s.4)
         other = next(c for c in SIGN_CONVENTIONS if c != opts.sign_convention)
-        from .modes import ModeSolver
-        from .prescriptions import mode_system
-        from .states import make_state
-
         alt = ModeSolver(mode_system(ftab, "scalar", opts.prescription, other,
                                      opts.switch_density), step=opts.step,
                          adiabatic_ratio=opts.adiabatic_ratio, freeze=opts.freeze).solve(
@@ -355,20 +213,16 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
                         & (ln_aH >= ln_kb[late].min() - math.log(10 * opts.adiabatic_ratio)))[0]
         i1 = np.nonzero(ln_aH >= ln_kb[late].max() - math.log(opts.freeze) + 1)[0]
         if len(i0) == 0 or len(i1) == 0 or i0[0] == i_infl:
-            raise InputError("the observable window cannot be reached on this background "
-                             "(inflation too short after the bounce for the late start)")
+            raise NotEvaluable("the observable window cannot be reached on this background: "
+                               "inflation after the bounce is too short for its modes to "
+                               "start inside the Hubble radius and freeze out before it ends")
         shift = -float(tab.ln_a[i0[0]])
         stab = tab.section(int(i0[0]), int(i1[0]), shift)
         std = bounce_spectra(stab, np.exp(ln_kb[late] + shift), prescription="dressed_metric",
                              **{**kw, "state": "remote_past", "bogoliubov": None,
                                 "sign_convention": "classical"})
-        boost_s, boost_t = 1.0, 1.0
-        if opts.prescription == "deformed_algebra":
-            from .transfer import load_transfer
-
-            boost_s = math.exp(MAX_GROWTH_EXPONENT)
-            boost_t = boost_s * math.exp(load_transfer("deformed_algebra", "remote_past")
-                                         .uv_tensor_scalar_log_ratio)
+        boost_s, boost_t = (capped_boost() if opts.prescription == "deformed_algebra"
+                            else (1.0, 1.0))
         scal[late], tens[late] = std.scalar * boost_s, std.tensor * boost_t
         if opts.prescription == "deformed_algebra":
             notes.append(f"deformed algebra: {int(late.sum())} modes above "
@@ -422,13 +276,10 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, n_star: float | 
 def _background(config: Table, past_density: float | None,
                 k_min: float = 0.01) -> tuple[BackgroundTable, list[str], Any]:
     """The background engine's table through the bounce of the configured background."""
-    from ..background.initial import BounceStart
-    from ..background.setup import background_from_config
-
     setup = background_from_config(config)
     name = getattr(setup.dynamics, "NAME", "")
     if name != "isotropic":
-        raise InputError(f"background.dynamics = '{name}' is not supported by the bounce spectra "
+        raise InputError(f"'background.dynamics' = '{name}' is not supported by the bounce "
                          "model; allowed: isotropic (modes live on the isotropic effective "
                          "background)")
     pot = setup.potential
@@ -440,14 +291,14 @@ def _background(config: Table, past_density: float | None,
     else:
         run = setup.dynamics.evolve_summary(pot, init, setup.settings)
         if not np.isfinite(run.events.t_bounce):
-            raise InputError(f"the background has no bounce ({run.message})")
+            raise NotEvaluable(f"the background has no bounce ({run.message})")
         phi_b = run.phi_bounce
         phidot_b = math.copysign(math.sqrt(max(2 * (rc - float(pot.V(phi_b))), 0.0)),
                                  run.phidot_bounce)
         notes.append(f"bounce state taken from the isotropic engine run (status {run.status})")
     if past_density is None:
         past_density = remote_past_density(k_min, rc)
-    tab = integrate_background(pot, rc, phi_b, phidot_b, past_density=past_density,
+    tab = table_from_state(pot, rc, phi_b, phidot_b, past_density=past_density,
                                max_efolds=3000.0, settings=setup.settings)
     return tab, notes, pot
 
@@ -455,20 +306,49 @@ def _background(config: Table, past_density: float | None,
 def bounce_spectra_from_config(config: Table) -> Any:
     """``[model] spectra = "bounce"``: TabulatedSpectra in Mpc^-1 with notes."""
     run = run_from_config(config)
-    from ..spectra.tabulated import TabulatedSpectra
-
     return TabulatedSpectra(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor,
                             notes=run.notes, label=f"bounce ({run.spectrum.prescription})")
 
 
 def run_from_config(config: Table, show_progress: bool = False) -> BounceRun:
-    pt = config.table("perturbations", PERTURBATION_KEYS)
-    opts = PerturbationOptions.from_table(pt)
+    """Background, modes and mapping of a run configuration (module docstring)."""
+    opts = PerturbationOptions.from_table(config.table("perturbations", PERTURBATION_KEYS))
     reheating = reheating_from_config(config)
-    history = None if reheating.given else (
-        reheating.equation_of_state, 10.0 ** reheating.log10_reheating_density,
-        reheating.thermal_degrees_of_freedom)
     tab, notes, pot = _background(config, opts.past_density, opts.k_min)
-    run = run_bounce(tab, opts, reheating.N_star, history, reheating.pivot,
-                     reheating.hubble_constant, potential=pot, show_progress=show_progress)
+    run = run_bounce(tab, opts, reheating, potential=pot, show_progress=show_progress)
     return BounceRun(run.table, run.spectrum, run.scales, run.k_mpc, (*run.notes, *notes))
+
+
+class BounceModel(ForwardModel):
+    """The full forward model of a bounce configuration (``[model] spectra = "bounce"``):
+    background through the bounce, modes integrated exactly, spectra in Mpc^-1. Minutes per
+    point: it is scored, not sampled; posterior runs use the ``bounce_physical_*`` models,
+    which reproduce it at the pivot through the certified transfer."""
+
+    name = "bounce"
+    title = "Bounce: background, exact modes, mapping to Mpc^-1"
+    samplable = False
+
+    def from_config(self, config: Table, base_dir: Path | None = None) -> Any:
+        try:
+            with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+                return bounce_spectra_from_config(config)
+        except NumericalFailure as exc:  # keeps its kind (exit code 1), gains the values
+            raise type(exc)(f"model 'bounce' cannot be evaluated at "
+                            f"{configured_values(config)}: {exc}") from None
+
+
+def configured_values(config: Table) -> str:
+    """The physical inputs of a bounce configuration as ``key = value`` text (for messages)."""
+    items = []
+    for section, sub in (("potential", None), ("background", "bounce"),
+                         ("background", "contracting"), ("background", "classical"),
+                         ("reheating", None)):
+        table = config.raw(section, {}) or {}
+        if sub is not None:
+            table = table.get(sub, {}) if isinstance(table, dict) else {}
+        where = f"{section}.{sub}" if sub else section
+        if isinstance(table, dict):
+            items += [f"{where}.{k} = {v:g}" if isinstance(v, float) else f"{where}.{k} = {v}"
+                      for k, v in table.items() if not isinstance(v, dict)]
+    return ", ".join(items) or "the defaults"

@@ -1,47 +1,39 @@
-"""Bounce models for sampling in physical parameters, background included.
+"""Bounce models in physical parameters, background included: the one chain
+background -> e-folds -> N_* -> N_B* -> k_LQC -> pivot spectrum -> transfer.
 
 One evaluation goes, for V = m^2 phi^2 / 2 on the effective isotropic bounce:
 
-1. background: the engine (:class:`bouncelike.background.isotropic.IsotropicDynamics`) from
-   the bounce, :class:`~bouncelike.background.initial.BounceStart` with the potential fraction
-   x_V = V(phi_B)/rho_c (phidot > 0), to the end of inflation, read through its table view
-   (:class:`bouncelike.background.table.BackgroundTable`, the one the spectra read). A
-   background that fails or does not inflate, whose inflation does not end (2000 e-fold cap),
-   or that inflates for fewer e-folds after the bounce than N_* raises
-   :class:`~bouncelike.errors.NumericalFailure` (log-likelihood -inf, reason counted); a mass or
-   critical density outside its physical range (:mod:`bouncelike.background.limits`) is an
-   :class:`~bouncelike.errors.InputError`;
-2. e-folds: bounce -> end of inflation, N_* from the parameters or from the reheating history
-   (Liddle & Leach estimate, :func:`bouncelike.perturbations.mapping.liddle_leach_n_star`), and
-   N_B* = (bounce -> end) - N_* with the comoving bounce scale k_LQC in Mpc^-1
-   (:func:`bouncelike.perturbations.mapping.scale_map`; physics notes, section 5);
-3. the standard (no-bounce) spectrum at the pivot's exit k_* = a_* H_*, read off the trajectory
-   with the Hubble-flow parameters eps = -Hdot/H^2, eta = -phiddot/(H phidot) (Stewart & Lyth,
-   Phys. Lett. B 302 (1993) 171, in the form of Lidsey et al., Rev. Mod. Phys. 69 (1997) 373,
-   from memory; Planck units, m_Pl = 1, C = -2 + ln 2 + gamma_E):
-
-       P_s = [1 - (2C + 1) eps + C eta]^2 H^4 / (4 pi^2 phidot^2)
-       P_t = [1 - (C + 1) eps]^2 16 H^2 / pi
-       n_s - 1 = 2 eta - 4 eps,   r = P_t / P_s  (tensor tilt by consistency, -r/8);
-
-   running is not carried (second order in slow roll, ~ -7e-4 for this potential);
-4. spectra: that power law times the cached transfer of the bounce through
-   :class:`bouncelike.perturbations.transfer.BounceSpectraModel` (its public ``spectra`` and
-   ``derived``), handing it the power-law numbers, log10 k_LQC and any background quantity its
+1. background: the engine from the bounce, x_V = V(phi_B)/rho_c (phidot > 0), to the end of
+   inflation, read through its table view (:mod:`.inflation_search`; for a given N_inflation
+   the potential fraction is found there by a secant search). A background that fails or does
+   not inflate, whose inflation does not end (2000 e-fold cap), or that inflates for fewer
+   e-folds after the bounce than N_* raises :class:`~bouncelike.errors.NumericalFailure`
+   (log-likelihood -inf, reason counted); a mass or critical density outside its declared
+   range is an :class:`~bouncelike.errors.InputError`;
+2. e-folds: bounce -> end of inflation, N_* given or from the reheating history
+   (:mod:`.reheating`, the Liddle & Leach relation), and N_B* = (bounce -> end) - N_* with the
+   comoving bounce scale k_LQC in Mpc^-1 (:func:`bouncelike.perturbations.mapping.scale_map`;
+   physics notes, section 5);
+3. the standard (no-bounce) spectrum at the pivot's exit k_* = a_* H_*, at next-to-leading
+   order in the Hubble-flow parameters (Stewart & Lyth; :mod:`.pivot`);
+4. spectra: that power law times the cached transfer of the bounce
+   (:class:`bouncelike.perturbations.transfer_model.BounceSpectraModel`), handed the power-law
+   numbers, log10 k_LQC, the bounce potential fraction and any background quantity its
    ``parameter_names`` ask for (the conformal duration of the bounce-to-end stretch,
-   ``log10_conformal_duration``, when the cache depends on it).
+   ``log10_conformal_duration``).
 
-Parameters (a prior file gives each as sampled or fixed)
---------------------------------------------------------
+Parameters (a prior file gives each as sampled or fixed; a configuration gives them in
+``[bounce_physical]`` and ``[reheating]``)
+-----------------------------------------------------------------------------------------
 background (exactly one)  ``log10_potential_fraction``  log10 V(phi_B)/rho_c
-                          ``N_inflation``  inflationary e-folds; the potential fraction is found
-                          by a secant search (a few background runs); this is what a prior from
+                          ``N_inflation``  inflationary e-folds; this is what a prior from
                           the oscillation phase of the contracting branch constrains
                           (``efolds_from_phase``)
 inflaton                  ``mass`` (m_Pl units)
 bounce                    ``critical_density`` (Planck units; 0.40937 for gamma = 0.2375)
 reheating (one choice)    ``N_star``, or ``equation_of_state`` w and ``log10_reheating_density``
-                          (log10 rho_reh, Planck units)
+                          (log10 rho_reh, Planck units) and optionally
+                          ``thermal_degrees_of_freedom``
 
 Derived (stored with the samples when the prior lists them): ``N_inflation`` or
 ``log10_potential_fraction`` (whichever is not sampled), ``N_bounce_end`` (e-folds bounce -> end
@@ -53,13 +45,16 @@ of inflation), ``N_star`` (when reheating fixes it), ``N_B_star``, ``log10_k_lqc
 from __future__ import annotations
 
 import math
+from pathlib import Path
 from typing import Any
 
-import numpy as np
-
+from ..background.limits import check_critical_density, check_mass
+from ..background.potentials import Quadratic
+from ..config import Table, read_parameters
 from ..errors import InputError, NumericalFailure
-from ..models.base import ForwardModel
-from ..models.reheating import Reheating, check_choice
+from ..perturbations.mapping import scale_map
+from ..perturbations.transfer import conformal_duration
+from ..perturbations.transfer_model import BounceSpectraModel
 from ..quantities import (
     AMPLITUDE,
     CERTIFIED,
@@ -80,9 +75,11 @@ from ..quantities import (
     TILT,
     WINDOW_IN_BOUNCE_UNITS,
 )
+from .base import ForwardModel, evaluate_at
+from .inflation_search import bounce_background, dynamics_for, potential_fraction_for
+from .pivot import pivot_observables
+from .reheating import Reheating, check_choice
 
-#: C = -2 + ln 2 + Euler's gamma (Stewart & Lyth 1993)
-C_SL = -2.0 + math.log(2.0) + 0.5772156649015329
 BACKGROUND_CHOICES = ("log10_potential_fraction", "N_inflation")
 #: fast-model parameters this module supplies itself
 _SUPPLIED = ("ln_1e10_As", "n_s", "r", "log10_k_lqc")
@@ -99,6 +96,22 @@ class _PhysicalBounce(ForwardModel):
                           N_BOUNCE_PIVOT, LOG10_BOUNCE_SCALE, LOG10_CONFORMAL_DURATION,
                           LN_AMPLITUDE, AMPLITUDE, TILT, TENSOR_RATIO, EPSILON_STAR,
                           WINDOW_IN_BOUNCE_UNITS, CERTIFIED)
+
+    config_section = "bounce_physical"
+
+    def from_config(self, config: Table, base_dir: Path | None = None) -> Any:
+        """``[bounce_physical]`` gives the background (``log10_potential_fraction`` or
+        ``N_inflation``), ``mass`` and ``critical_density``; ``[reheating]`` gives N_* or the
+        reheating history, with the same keys as a prior file."""
+        own = (LOG10_POTENTIAL_FRACTION, N_INFLATION, QUADRATIC_MASS, CRITICAL_DENSITY)
+        table = config.table("bounce_physical", [q.name for q in own], required=True)
+        values = read_parameters(table, own[2:])
+        values.update(read_parameters(table, own[:2], present_only=True))
+        reheating = config.table("reheating", [q.name for q in REHEATING], required=True)
+        values.update(read_parameters(reheating, REHEATING, present_only=True))
+        self.check_prior(values)
+        where = {k: "reheating" if k in reheating.data else "bounce_physical" for k in values}
+        return evaluate_at(self, values, where)
 
     def __init__(self) -> None:
         self._fast_model: Any = None
@@ -125,8 +138,6 @@ class _PhysicalBounce(ForwardModel):
     # -- evaluation -----------------------------------------------------------------------
     def _fast(self) -> Any:
         if self._fast_model is None:
-            from ..perturbations.transfer_model import BounceSpectraModel
-
             self._fast_model = BounceSpectraModel(prescription=self.prescription, pivot=PIVOT,
                                                   state=self.state)
         return self._fast_model
@@ -147,19 +158,15 @@ class _PhysicalBounce(ForwardModel):
         return out
 
     def _compute(self, p: dict[str, float]) -> tuple[dict[str, float], dict[str, float]]:
-        from ..background.limits import check_critical_density, check_mass
-        from ..background.potentials import Quadratic
-        from ..perturbations.mapping import scale_map
-
         mass = check_mass(float(p["mass"]), "mass", zero=False)
         rho_c = check_critical_density(p["critical_density"], "critical_density")
         pot = Quadratic(mass=mass)
-        dyn = _dynamics(rho_c)
+        dyn = dynamics_for(rho_c)
         if "N_inflation" in p:
-            lx = _potential_fraction_for(dyn, pot, p["N_inflation"])
+            lx = potential_fraction_for(dyn, pot, p["N_inflation"])
         else:
             lx = p["log10_potential_fraction"]
-        tab = _background(dyn, pot, lx)
+        tab = bounce_background(dyn, pot, lx)
         if "N_star" in p:
             n_star = p["N_star"]
         else:
@@ -177,8 +184,6 @@ class _PhysicalBounce(ForwardModel):
         log10_d = math.nan
         for name in extra:
             if name == "log10_conformal_duration":
-                from ..perturbations.transfer import conformal_duration
-
                 log10_d = math.log10(conformal_duration(tab))
                 fast_params[name] = log10_d
             else:  # pragma: no cover - a new cache dependence needs its glue here
@@ -200,11 +205,13 @@ class _PhysicalBounce(ForwardModel):
 
 class PhysicalBounceDressedMetric(_PhysicalBounce):
     name = "bounce_physical_dressed_metric"
+    title = "Bounce in physical parameters, dressed-metric perturbations"
     prescription = "dressed_metric"
 
 
 class PhysicalBounceDeformedAlgebra(_PhysicalBounce):
     name = "bounce_physical_deformed_algebra"
+    title = "Bounce in physical parameters, deformed-algebra perturbations"
     prescription = "deformed_algebra"
 
 
@@ -224,112 +231,3 @@ class PhysicalBounceLowEnergy(PhysicalBounceDressedMetric):
     state = "low_energy"
 
 
-_DYNAMICS: dict[float, Any] = {}
-
-
-def _dynamics(rho_c: float) -> Any:
-    from ..background.isotropic import IsotropicDynamics
-
-    if rho_c not in _DYNAMICS:
-        if len(_DYNAMICS) > 64:
-            _DYNAMICS.clear()
-        _DYNAMICS[rho_c] = IsotropicDynamics(rho_c)
-    return _DYNAMICS[rho_c]
-
-
-def _settings() -> Any:
-    from ..background.initial import IntegrationSettings
-
-    # an inflationary cap far above any window placement
-    return IntegrationSettings(dense_points=0, max_inflation_efolds=2000.0)
-
-
-def _background(dyn: Any, pot: Any, log10_fraction: float) -> Any:
-    """The table view from the bounce to the end of inflation; NumericalFailure unless
-    inflation starts and ends."""
-    from ..background.initial import BounceStart
-
-    if not log10_fraction < 0:
-        raise InputError(f"'log10_potential_fraction' = {log10_fraction:g} is out of range; "
-                         "allowed: < 0")
-    tab = dyn.table(pot, BounceStart(10.0 ** log10_fraction, 1), extra_efolds=0.0,
-                    settings=_settings())
-    if tab.summary.status != "inflated":
-        raise NumericalFailure(f"background {tab.summary.status}: {tab.summary.message}")
-    return tab
-
-
-def _inflation_efolds(dyn: Any, pot: Any, log10_fraction: float) -> float:
-    from ..background.initial import BounceStart
-
-    s = dyn.evolve_summary(pot, BounceStart(10.0 ** log10_fraction, 1), _settings())
-    return s.inflationary_efolds
-
-
-#: first guess of the search (only its speed depends on it): log10 x_V as a cubic in ln N,
-#: fitted to engine runs with m = 1.2e-6 and rho_c = 0.40937 over N = 58-580 (to 0.02 in
-#: log10 x_V), moved to other m and rho_c at fixed x_V rho_c / m^2 (fixed phi_B; ~3% in N)
-_GUESS_CUBIC = (0.09624572, -1.69551587, 10.56438882, -33.35804853)
-_GUESS_REF = (1.2e-6, 0.40937)
-
-
-def _potential_fraction_for(dyn: Any, pot: Any, n_target: float, tol: float = 5e-4) -> float:
-    """log10 x_V giving ``n_target`` inflationary e-folds (secant in ln N vs log10 x_V), to
-    ``tol`` in ln N (0.07 e-folds at N = 140; the stored N_inflation is the exact count of the
-    background used).
-
-    Deterministic: the result depends on (N, m, rho_c) only, never on earlier evaluations, so
-    chains do not depend on the pool or on the order of evaluation. N grows monotonically with
-    x_V over the inflating range.
-    """
-    if not n_target > 1:
-        raise InputError(f"'N_inflation' = {n_target:g} is out of range; allowed: > 1")
-    m = float(pot.mass)
-    rc = float(dyn.critical_density)
-    m_ref, rc_ref = _GUESS_REF
-    ln_t = math.log(n_target)
-    x0 = min(float(np.polyval(_GUESS_CUBIC, ln_t)) + 2 * math.log10(m / m_ref)
-             - math.log10(rc / rc_ref), -1e-3)
-    # d ln N / d log10 x_V from the same cubic
-    slope0 = 1.0 / max(float(np.polyval(np.polyder(_GUESS_CUBIC), ln_t)), 1e-3)
-
-    def f(lx: float) -> float:
-        return math.log(max(_inflation_efolds(dyn, pot, lx), 1e-3)) - ln_t
-
-    f0 = f(x0)
-    if abs(f0) < tol:
-        return x0
-    x1 = min(x0 - f0 / slope0, -1e-6)
-    f1 = f(x1)
-    for _ in range(30):
-        if abs(f1) < tol:
-            return x1
-        slope = (f1 - f0) / (x1 - x0) if x1 != x0 else 0.0
-        step = -f1 / slope if slope > 0 else 0.3 * (-1 if f1 > 0 else 1)
-        x0, f0 = x1, f1
-        x1 = min(x1 + max(min(step, 2.0), -2.0), -1e-6)
-        f1 = f(x1)
-    raise NumericalFailure(f"no potential fraction gives N_inflation = {n_target:g}")
-
-
-def pivot_observables(tab: Any, ln_a_pivot: float) -> dict[str, float]:
-    """Standard spectra at the pivot's exit (ln a = ``ln_a_pivot``, after the bounce)."""
-    ib = tab.bounce_index() if tab.has_bounce else 0
-    ln_a = tab.ln_a[ib + 1:]
-    order = np.argsort(ln_a)
-    la = ln_a[order]
-
-    def at(arr: np.ndarray) -> float:
-        return float(np.interp(ln_a_pivot, la, np.asarray(arr)[ib + 1:][order]))
-
-    H, Hdot, phidot, phiddot = at(tab.H), at(tab.Hdot), at(tab.phidot), at(tab.phiddot)
-    if not (H > 0 and phidot != 0):
-        raise NumericalFailure("pivot exit outside the inflationary stretch")
-    eps = -Hdot / H**2
-    eta = -phiddot / (H * phidot)
-    if not 0 < eps < 1:
-        raise NumericalFailure(f"pivot exit not during inflation (epsilon_H = {eps:.3g})")
-    p_s = (1 - (2 * C_SL + 1) * eps + C_SL * eta) ** 2 * H**4 / (4 * math.pi**2 * phidot**2)
-    p_t = (1 - (C_SL + 1) * eps) ** 2 * 16 * H**2 / math.pi
-    return {"A_s": p_s, "ln_1e10_As": math.log(1e10 * p_s), "n_s": 1 + 2 * eta - 4 * eps,
-            "r": p_t / p_s, "epsilon": eps, "H": H}

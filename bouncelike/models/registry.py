@@ -32,15 +32,16 @@ from pathlib import Path
 from typing import Any
 
 from ..config import Table
-from ..errors import InputError, NumericalFailure
-from ..sampling.bounce_physical import (
+from ..errors import InputError
+from ..spectra.table_file import table_spectra_from_config
+from .base import ForwardModel
+from .bounce import BounceModel
+from .bounce_physical import (
     PhysicalBounceDeformedAlgebra,
     PhysicalBounceDressedMetric,
     PhysicalBounceLowEnergy,
     PhysicalBounceNonOscillating,
 )
-from ..spectra.table_file import table_spectra_from_config
-from .base import ForwardModel
 from .bounce_transfer import (
     BounceDeformedAlgebra,
     BounceDressedMetric,
@@ -49,27 +50,6 @@ from .bounce_transfer import (
 )
 from .powerlaw import PowerLawModel
 from .slowroll import QuadraticSlowRoll, StarobinskySlowRoll
-
-
-class BounceModel(ForwardModel):
-    """The full forward model of a bounce configuration (``[model] spectra = "bounce"``):
-    background through the bounce, modes integrated exactly, spectra in Mpc^-1
-    (:mod:`bouncelike.perturbations.forward`). Minutes per point: it is scored, not
-    sampled; posterior runs use the ``bounce_physical_*`` models, which reproduce it at the
-    pivot through the certified transfer."""
-
-    name = "bounce"
-    title = "Bounce: background, exact modes, mapping to Mpc^-1"
-    samplable = False
-
-    def from_config(self, config: Table, base_dir: Path | None = None) -> Any:
-        from ..perturbations.forward import bounce_spectra_from_config
-
-        try:
-            return bounce_spectra_from_config(config)
-        except NumericalFailure as exc:  # keeps its kind (exit code 1), gains the values
-            raise type(exc)(f"model 'bounce' cannot be evaluated at "
-                            f"{configured_values(config)}: {exc}") from None
 
 
 class TableModel(ForwardModel):
@@ -83,22 +63,6 @@ class TableModel(ForwardModel):
 
     def from_config(self, config: Table, base_dir: Path | None = None) -> Any:
         return table_spectra_from_config(config, base_dir=base_dir)
-
-
-def configured_values(config: Table) -> str:
-    """The physical inputs of a bounce configuration as ``key = value`` text (for messages)."""
-    items = []
-    for section, sub in (("potential", None), ("background", "bounce"),
-                         ("background", "contracting"), ("background", "classical"),
-                         ("reheating", None)):
-        table = config.raw(section, {}) or {}
-        if sub is not None:
-            table = table.get(sub, {}) if isinstance(table, dict) else {}
-        where = f"{section}.{sub}" if sub else section
-        if isinstance(table, dict):
-            items += [f"{where}.{k} = {v:g}" if isinstance(v, float) else f"{where}.{k} = {v}"
-                      for k, v in table.items() if not isinstance(v, dict)]
-    return ", ".join(items) or "the defaults"
 
 
 #: every forward model by its name

@@ -43,6 +43,8 @@ from .background import BackgroundTable
 
 #: Observable window of comoving wavenumbers (Mpc^-1), common practice (physics notes s.5).
 OBSERVABLE_WINDOW = (1e-4, 0.2)
+#: Wavenumbers (Mpc^-1) the bounce model always tabulates around the window: (from, to, count).
+WINDOW_GRID = (1e-5, 1.0, 40)
 #: relativistic degrees of freedom at thermalisation, default (module doc; declared with its
 #: allowed range in :data:`bouncelike.quantities.THERMAL_DEGREES_OF_FREEDOM`)
 G_TH_DEFAULT = THERMAL_DEGREES_OF_FREEDOM.default

@@ -25,6 +25,7 @@ import numpy as np
 from ..errors import InputError
 from ..quantities import PIVOT
 from ..units import wavenumber_in_mpc
+from .summary import DEFAULT_TOLERANCE, PivotSummary
 
 
 def _finite(name: str, value: Any) -> float:
@@ -174,8 +175,6 @@ class PowerLawSpectra:
 
     def summary_at(self, pivot: float):
         """Exact :class:`~bouncelike.spectra.summary.PivotSummary` at ``pivot`` (no fit)."""
-        from .summary import DEFAULT_TOLERANCE, PivotSummary
-
         moved = self.at_pivot(pivot)
         return PivotSummary(
             pivot=moved.pivot,
