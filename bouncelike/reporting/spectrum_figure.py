@@ -161,6 +161,10 @@ def spectrum_figure(curves: dict[str, np.ndarray], zoom: dict[str, Any] | None,
                 if len(kk):
                     ax.loglog(kk, yy, **{"color": c, **kw})
                     drawn["main"][name] = (kk, yy)
+        shown = [y for _, y in drawn["main"].values()]
+        if shown:  # explicit limits: autoscale margins of a log axis could overflow
+            ys = np.concatenate(shown)
+            ax.set_ylim(max(ys.min() / 3, 1e-300), min(ys.max() * 3, 1e300))
         lo_w, hi_w = info.get("window", (1e-4, 0.2))
         ax.axvspan(lo_w, hi_w, color=style.WINDOW, zorder=0,
                    label=f"observable window {lo_w:g}-{hi_w:g} " + r"Mpc$^{-1}$")
@@ -177,7 +181,8 @@ def spectrum_figure(curves: dict[str, np.ndarray], zoom: dict[str, Any] | None,
         ax.set_ylabel("primordial power spectrum")
         title = info.get("title", "")
         if dropped:
-            title += f" ({dropped} non-finite points not drawn)"
+            title += (f" ({dropped} value{'s' if dropped > 1 else ''} not finite and positive, "
+                      "not drawn)")
         ax.set_title(title)
         ax.legend(fontsize=6.5, loc="upper left", bbox_to_anchor=(1.01, 1.0))
         if az is not None:
@@ -207,11 +212,19 @@ def _zoom_panel(az: Any, zoom: dict[str, Any], drawn: dict[str, Any]) -> None:
             az.semilogy(kk, yy, ls="none", marker="o", ms=3.5, mfc="none", color=c,
                         label=f"{sym} integrated exactly")
             drawn[f"{s}_exact"] = (kk, yy)
-    az.ticklabel_format(axis="x", style="plain", useOffset=True)
-    az.set_xlabel(notation.WAVENUMBER)
+    # the curves are drawn against k (as in spectrum_zoom.csv); ticks read (k - k0) / period
+    k0, period = zoom["k0_mpc"], zoom["period_k_mpc"]
+    from matplotlib.ticker import FuncFormatter, MultipleLocator
+
+    az.xaxis.set_major_locator(MultipleLocator(period, offset=k0))
+    az.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{(v - k0) / period:+.0f}"))
+    az.set_xlabel(r"$(k - k_0)$ / period" + f", k0 = {k0:.6g} " + r"Mpc$^{-1}$")
+    shown = [y for name, (_, y) in drawn.items() if not name.endswith("_low")]
+    if shown:
+        ys = np.concatenate(shown)
+        az.set_ylim(max(ys.min() / 2, 1e-300), min(ys.max() * 2, 1e300))
     az.set_ylabel("primordial power spectrum")
-    az.set_title(f"zoom: {ZOOM_PERIODS} periods of " + r"$\pi k_\mathrm{LQC}/D$"
-                 f" = {zoom['period_k_mpc']:.2g} " + r"Mpc$^{-1}$" + f" around k = "
-                 f"{zoom['k0_mpc']:.4g} " + r"Mpc$^{-1}$" + "\nexact modes vs reconstruction: "
+    az.set_title(f"zoom: {ZOOM_PERIODS} periods, period " + r"$\pi k_\mathrm{LQC}/D$"
+                 f" = {period:.2g} " + r"Mpc$^{-1}$" + "; exact modes vs reconstruction: "
                  f"<= {100 * checks['max_relative_difference']:.2g}%")
     az.legend(fontsize=6.5, loc="upper left", bbox_to_anchor=(1.01, 1.0))
