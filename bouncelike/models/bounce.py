@@ -31,6 +31,10 @@ g_th (default 106.75, see :mod:`bouncelike.perturbations.mapping`); ``pivot`` (M
 default 0.05);
 ``hubble_constant`` (km/s/Mpc, default Planck 2018).
 
+Each run also carries the period means, envelopes and periods of its features
+(:mod:`.bounce_features`: what the sky and a table of rows can see of oscillations finer than
+both) and its validity flags (:mod:`.bounce_validity`: test field, trans-Planckian window
+modes); :class:`BounceTable` presents them as spectra with the period-mean protocol.
 Deformed-algebra modes above the e^600 cap and the tensor bound: :mod:`.bounce_ultraviolet`.
 Inflation outlasting the background's e-fold cap (plateaus): :mod:`.bounce_plateau`.
 A failure of the model at a configured point (no inflation, a window the modes cannot reach)
