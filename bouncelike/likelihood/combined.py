@@ -53,14 +53,26 @@ class CombinedLikelihood:
     """Gaussian pivot terms (optional) plus one large-scale temperature term."""
 
     def __init__(self, gaussian: GaussianLikelihood | None, low_ell: LowEllTemperature,
-                 tolerance: float = DEFAULT_TOLERANCE):
+                 tolerance: float = DEFAULT_TOLERANCE, *, allow_overlap: bool = False,
+                 half_width: float = DEFAULT_HALF_WIDTH,
+                 ell_range: tuple[int, int] | None = None):
         self.gaussian = gaussian
         self.low_ell = low_ell
         self.tolerance = float(tolerance)
+        self.allow_overlap = bool(allow_overlap)
+        self.half_width = float(half_width)
+        self.ell_range = None if ell_range is None else (int(ell_range[0]), int(ell_range[1]))
 
     @property
-    def sets(self) -> tuple[ConstraintSet, ...]:
-        """The pivot constraint sets (the low-ell set is :attr:`low_ell`)."""
+    def sets(self) -> tuple[Any, ...]:
+        """Every set scored against: the pivot sets, then the large-scale temperature set
+        (a :class:`~.lowell_data.LowEllData`): what provenance, manifests, reports and
+        rescoring list."""
+        return (*self.pivot_sets, self.low_ell.data)
+
+    @property
+    def pivot_sets(self) -> tuple[ConstraintSet, ...]:
+        """The pivot constraint sets only."""
         return self.gaussian.sets if self.gaussian is not None else ()
 
     @property
@@ -81,7 +93,7 @@ class CombinedLikelihood:
     def _check(self, summaries: Sequence[PivotSummary]) -> None:
         """NotEvaluable when a needed quantity of the period mean is not a cubic near its pivot."""
         by_pivot = {s.pivot: s for s in summaries}
-        for cset in self.sets:
+        for cset in self.pivot_sets:
             sm = by_pivot[cset.pivot]
             if sm.method != "fit":
                 continue
@@ -176,4 +188,50 @@ def combined_likelihood(pivot_sets: Sequence[ConstraintSet], low_sets: Sequence[
                          f"(got {names}); they would count the same sky twice")
     gaussian = (GaussianLikelihood(pivot_sets, allow_overlap, tolerance=tolerance,
                                    half_width=half_width) if pivot_sets else None)
-    return CombinedLikelihood(gaussian, LowEllTemperature(low_sets[0], ell_range), tolerance)
+    return CombinedLikelihood(gaussian, LowEllTemperature(low_sets[0], ell_range), tolerance,
+                              allow_overlap=allow_overlap, half_width=half_width,
+                              ell_range=ell_range)
+
+
+def likelihood_from_sets(loaded: Sequence[Any], allow_overlap: bool = False, *,
+                         tolerance: float = DEFAULT_TOLERANCE,
+                         half_width: float = DEFAULT_HALF_WIDTH,
+                         ell_range: tuple[int, int] | None = None) -> Any:
+    """The likelihood of loaded sets: a :class:`GaussianLikelihood` for pivot sets alone, a
+    :class:`CombinedLikelihood` as soon as a large-scale temperature set is among them."""
+    pivot_sets = [s for s in loaded if isinstance(s, ConstraintSet)]
+    others = [s for s in loaded if not isinstance(s, ConstraintSet)]
+    if not others:
+        if ell_range is not None:
+            raise InputError("'likelihood.low_ell_range' applies only with a low-ell set (e.g. "
+                             "sets = [..., \"planck2018_lowell_tt\"])")
+        return GaussianLikelihood(pivot_sets, allow_overlap, tolerance=tolerance,
+                                  half_width=half_width)
+    return combined_likelihood(pivot_sets, others, allow_overlap, tolerance=tolerance,
+                               half_width=half_width, ell_range=ell_range)
+
+
+def single_set_likelihood(cset: Any, run_likelihood: Any = None) -> Any:
+    """The likelihood of one set alone (a best fit rescored against it). A large-scale
+    temperature set keeps the multipole range of ``run_likelihood`` when that scores the same
+    set, else all of its multipoles."""
+    ell_range = None
+    if not isinstance(cset, ConstraintSet):
+        low = getattr(run_likelihood, "low_ell", None)
+        if low is not None and low.data.name == cset.name:
+            ell_range = getattr(run_likelihood, "ell_range", None)
+    return likelihood_from_sets([cset], tolerance=getattr(run_likelihood, "tolerance",
+                                                          DEFAULT_TOLERANCE),
+                                ell_range=ell_range)
+
+
+def statistic_threshold(likelihood: Any, score: Score, p: float) -> float:
+    """The value of a score's statistic at which its p-value is ``p`` (the 95% line of an
+    exclusion map at p = 0.05): the chi-square quantile for dof = terms, or, with the
+    large-scale temperature term, the quantile of the calibrated law of chi2_m + T."""
+    if score.low_ell is None:
+        from scipy.stats import chi2 as chi2_dist
+
+        return float(chi2_dist.isf(p, score.dof))
+    m = score.dof - len(score.low_ell.ells)
+    return likelihood.low_ell.null(m).isf(p)

@@ -457,17 +457,10 @@ def likelihood_from_config(config: Table, base_dir: str | Path | None = None) ->
     tol = table.positive("fit_tolerance", DEFAULT_TOLERANCE)
     half = table.positive("fit_half_width", DEFAULT_HALF_WIDTH, maximum=10.0)
     loaded = [load_constraint_set(n) for n in names]
-    pivot_sets = [s for s in loaded if isinstance(s, ConstraintSet)]
-    others = [s for s in loaded if not isinstance(s, ConstraintSet)]
-    if not others:
-        if "low_ell_range" in table:
-            raise InputError("'likelihood.low_ell_range' applies only with a low-ell set (e.g. "
-                             "sets = [..., \"planck2018_lowell_tt\"])")
-        return GaussianLikelihood(pivot_sets, allow, tolerance=tol, half_width=half)
-    from .combined import combined_likelihood
+    from .combined import likelihood_from_sets
 
-    return combined_likelihood(pivot_sets, others, allow, tolerance=tol, half_width=half,
-                               ell_range=_ell_range(table))
+    return likelihood_from_sets(loaded, allow, tolerance=tol, half_width=half,
+                                ell_range=_ell_range(table))
 
 
 def _ell_range(table: Table) -> tuple[int, int] | None:

@@ -254,6 +254,13 @@ class LowEllTemperature:
         ps, pt = self.projection.power_on_nodes(spectra)
         return self._anchor * (self._ws @ ps + self._wt @ pt)
 
+    def contributions(self, spectra: Any) -> np.ndarray:
+        """Anchored contribution of each projection node (``projection.k``) to each D_ell
+        (micro-K^2, rows :attr:`ells`; the rows sum to :meth:`predict`): where in k each
+        multipole takes its power from."""
+        ps, pt = self.projection.power_on_nodes(spectra)
+        return self._anchor[:, None] * (self._ws * ps + self._wt * pt)
+
     def prediction(self, spectra: Any, sampling: bool = True) -> LowEllPrediction:
         """Anchored D_ell with the anchoring-error estimate (and, for a plain table whose rows
         zigzag, the spread between projecting its even and its odd rows)."""

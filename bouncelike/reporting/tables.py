@@ -169,6 +169,8 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
         verdict = r["best_fit_verdict"] + (f" ({r['best_fit_excluded_at']:.1%})"
                                            if r.get("best_fit_excluded_at") else "")
         chi2 = ("> " if r.get("best_fit_bound") else "") + _num(r["best_fit_chi2"], 3)
+        if r.get("kind") == "temperature_low_ell":
+            chi2 = f"T = {chi2}"  # the low-ell statistic, with its calibrated p
         excl = r.get("posterior_excluded")
         frac = (proportions.fraction_text(excl, "scored") if excl
                 else _num(r["posterior_fraction_excluded_95"], 3))
@@ -177,6 +179,11 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
         out.append(f"| {r.get('label', r['set'])} ({r['set']}) | "
                    f"{'yes' if r['forecast'] else 'no'} | {chi2} ({r.get('best_fit_dof', '')}) "
                    f"| {verdict} | {frac} | arXiv:{r['arxiv']} |")
+    if v.get("large_scale_term"):
+        from .lowell import statement_lines
+
+        out += ["", "## Large-scale temperature term", ""]
+        out.extend(statement_lines(v["large_scale_term"]))
     out += ["", "## Rules", ""]
     out.append(f"- {v['verdict_rule']}.")
     for name, rule in v.get("p_value_rules", goodness.P_VALUE_RULES).items():
