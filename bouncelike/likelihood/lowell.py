@@ -123,6 +123,9 @@ class LowEllScore:
     notes: tuple[str, ...] = field(default=())
     p_value_alone: float = math.nan
     p_value_alone_is_bound: bool = False
+    #: T of the power law of the pivot summary, subtracted in the log-likelihood when the pivot
+    #: sets already hold the low multipoles' information on it (likelihood/combined.py)
+    counterpart_total: float = math.nan
 
     @property
     def pulls(self) -> np.ndarray:
@@ -158,6 +161,7 @@ class LowEllScore:
             "p_value_alone": self.p_value_alone,
             "p_value_alone_is_bound": self.p_value_alone_is_bound,
             "difference_to_reference": self.total - self.reference_total,
+            "counterpart_statistic": self.counterpart_total,
             "multipoles": [int(x) for x in self.ells],
             "anchoring_error": [float(x) for x in self.anchoring_error],
             "sampling_spread": (None if self.sampling_spread is None
