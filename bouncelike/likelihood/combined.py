@@ -14,10 +14,13 @@ L_low(P_pl), so the log-likelihood is
 
     ln L = -(chi2_pivot + T[P] - T[P_pl]) / 2,
 
-with P_pl the power law of P's pivot summary (amplitude, tilt, runnings and r at the pivot of
-the pivot set that constrains the amplitude and shares an ``overlap`` tag with the low-ell set;
-:meth:`CombinedLikelihood.counterpart`). Without that subtraction (pivot sets sharing no tag
-with the low-ell set, or none at all) the two are independent and nothing is subtracted. Why
+with P_pl the power law those sets see (:meth:`CombinedLikelihood.counterpart`): the pivot
+sets that share an ``overlap`` tag with the low-ell set, when together they constrain the
+amplitude and the tilt, give it -- amplitude and tilt of P's pivot summary at the pivot of the
+first of them that constrains the amplitude, and of the runnings and r only those they
+constrain (the others zero: information the pivot sets do not hold is not taken out, and a
+summary's running fitted across features is never extrapolated to the largest scales).
+Otherwise (no such sets) the two are independent and nothing is subtracted. Why
 it matters (measured, tests/test_lowell_published.py): combined as independent, the
 power-law posterior of Planck 2018 + BK18 moved by -0.48 sigma in ln(10^10 A_s) and +0.45
 sigma in n_s -- the low-ell deficit counted a second time; counted once, a power law is scored
@@ -79,7 +82,7 @@ class CombinedLikelihood:
         self.allow_overlap = bool(allow_overlap)
         self.half_width = float(half_width)
         self.ell_range = None if ell_range is None else (int(ell_range[0]), int(ell_range[1]))
-        self.counted_pivot = _counted_pivot(self.pivot_sets, low_ell.data)
+        self.counted_pivot, self.counted_quantities = _counted(self.pivot_sets, low_ell.data)
 
     @property
     def sets(self) -> tuple[Any, ...]:
@@ -139,12 +142,14 @@ class CombinedLikelihood:
     # -- the low multipoles counted once ----------------------------------------------------
     def counterpart(self, summaries: Sequence[PivotSummary]) -> PowerLawSpectra | None:
         """The power law the overlapping pivot sets see (module docstring): the summary at
-        :attr:`counted_pivot` as a power law; None when no pivot set overlaps the low-ell set."""
+        :attr:`counted_pivot`, its quantities outside :attr:`counted_quantities` set to zero;
+        None when the pivot sets hold no low-ell information on a power law."""
         if self.counted_pivot is None:
             return None
         sm = next(s for s in summaries if s.pivot == self.counted_pivot)
-        return PowerLawSpectra(*(sm.value(q) for q in QUANTITIES), pivot=self.counted_pivot,
-                               label="power law of the pivot summary")
+        return PowerLawSpectra(*(sm.value(q) if q in self.counted_quantities else 0.0
+                                 for q in QUANTITIES), pivot=self.counted_pivot,
+                               label="power law the overlapping pivot sets see")
 
     def _counted_once(self, spectra: Any) -> tuple[float, float]:
         """(chi2_pivot, T[P] - T[P_pl]) of the log-likelihood."""
@@ -152,9 +157,13 @@ class CombinedLikelihood:
             return 0.0, self.low_ell.chi2(self.low_ell.predict(spectra))
         if type(spectra) is PowerLawSpectra:  # exact re-expansion at the pivots
             chi2 = self.gaussian._chi2(self.gaussian._values(spectra))
-            if self.counted_pivot is not None:
+            if self.counted_pivot is not None and self._own_counterpart(spectra):
                 return chi2, 0.0  # a power law is its own counterpart: T[P] - T[P_pl] = 0
-            return chi2, self.low_ell.chi2(self.low_ell.predict(spectra))
+            t = self.low_ell.chi2(self.low_ell.predict(spectra))
+            if self.counted_pivot is not None:
+                t -= self.low_ell.chi2(self.low_ell.predict(self.counterpart(
+                    self.gaussian.summaries(spectra))))
+            return chi2, t
         t = self.low_ell.chi2(self.low_ell.predict(spectra))
         summaries = self.summaries(spectra)
         chi2 = self.gaussian._chi2([tuple(s.value(q) for q in QUANTITIES) for s in summaries])
@@ -162,6 +171,13 @@ class CombinedLikelihood:
         if pl is not None:
             t -= self.low_ell.chi2(self.low_ell.predict(pl))
         return chi2, t
+
+    def _own_counterpart(self, p: PowerLawSpectra) -> bool:
+        """True when the power law has nothing outside :attr:`counted_quantities` (and the
+        consistency tensor tilt), so that it is its own counterpart."""
+        extra = {"running": p.running, "running_of_running": p.running_of_running, "r": p.r}
+        return (all(v == 0.0 for q, v in extra.items() if q not in self.counted_quantities)
+                and (p.n_t is None or p.n_t == -p.r / 8.0))
 
     # -- evaluation --------------------------------------------------------------------------
     def log_likelihood(self, spectra: Any) -> float:
@@ -227,16 +243,19 @@ class CombinedLikelihood:
             p_value_is_bound=bound, low_ell=low, cap=cap)
 
 
-def _counted_pivot(pivot_sets: Sequence[ConstraintSet], low: Any) -> float | None:
-    """The pivot of the power law whose low-ell information the pivot sets hold: that of the
-    first set sharing an ``overlap`` tag with the low-ell set that constrains the amplitude
-    (else of the first overlapping one); None when none overlaps."""
+def _counted(pivot_sets: Sequence[ConstraintSet], low: Any
+             ) -> tuple[float | None, frozenset[str]]:
+    """(pivot, quantities) of the power law whose low-ell information the pivot sets hold: the
+    sets sharing an ``overlap`` tag with the low-ell set, when together they constrain the
+    amplitude and the tilt; the pivot of the first of them that constrains the amplitude.
+    (None, {}) otherwise."""
     tags = set(getattr(low, "overlap_tags", ()))
     shared = [s for s in pivot_sets if tags & set(s.overlap_tags)]
-    if not shared:
-        return None
-    amp = [s for s in shared if "ln_1e10_As" in s.quantities]
-    return float((amp or shared)[0].pivot)
+    quantities = frozenset(q for s in shared for q in s.quantities)
+    if not {"ln_1e10_As", "n_s"} <= quantities:
+        return None, frozenset()
+    first = next(s for s in shared if "ln_1e10_As" in s.quantities)
+    return float(first.pivot), quantities
 
 
 def combined_likelihood(pivot_sets: Sequence[ConstraintSet], low_sets: Sequence[Any],

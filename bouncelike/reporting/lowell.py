@@ -215,3 +215,52 @@ def mark_k_ranges(ax: Any, k_ranges: dict[str, Any]) -> None:
                 color=style.INK, lw=1.0, solid_capstyle="butt", clip_on=False)
         ax.text(med[i], y - 0.012, rf"$\ell={ells[i]}$", transform=tr, ha="center", va="top",
                 fontsize=6.5, color=style.INK)
+
+
+def bounce_bounds(columns: dict[str, np.ndarray], verdict: dict[str, Any]) -> dict[str, Any] | None:
+    """The data's bound on where the bounce sits: one-sided 95% limits N_B* > q_5% and
+    k_LQC < 10^(q_95% of log10 k_LQC) Mpc^-1 of the posterior samples, each with the report's
+    judgement of whether it is a data bound or the edge of a not-evaluable region
+    (:func:`bouncelike.reporting.refusals.derived_coincidences`, same side). None for a model
+    without a bounce scale."""
+    ne = verdict.get("not_evaluable") or {}
+    rows = [*ne.get("coincidences", []), *ne.get("derived", [])]
+    out: dict[str, Any] = {}
+    for name, q, side, what in (("N_B_star", 0.05, "below", "lower"),
+                                ("log10_k_lqc", 0.95, "above", "upper")):
+        x = np.asarray(columns.get(name, ()), dtype=float)
+        x = x[np.isfinite(x)]
+        if not x.size:
+            continue
+        row = next((r for r in rows if r["parameter"] == name and r["side"] == side), None)
+        judged = None if row is None else row["coincides"]
+        out[name] = {"limit95": float(np.quantile(x, q)), "kind": f"{what}_limit",
+                     "coincides_with_not_evaluable": judged,
+                     "judged_through": (row or {}).get("carrier_bound") or (row or {}).get(
+                         "bound")}
+    if not out:
+        return None
+    term = verdict.get("large_scale_term") or {}
+    out["likelihood"] = ("with the large-scale temperature term" if term.get("used") else
+                         "from the pivot constraints alone (blind below ~1e-3 Mpc^-1)")
+    return out
+
+
+def bounce_text(b: dict[str, Any]) -> str:
+    """One line: the data's bound on the bounce and whether it is a data bound."""
+    parts = []
+    if "N_B_star" in b:
+        parts.append(f"N_B* > {b['N_B_star']['limit95']:.3g}")
+    if "log10_k_lqc" in b:
+        parts.append(f"k_LQC < {10 ** b['log10_k_lqc']['limit95']:.2g} Mpc^-1")
+    judged = [v["coincides_with_not_evaluable"] for k, v in b.items() if isinstance(v, dict)]
+    if any(j is True for j in judged):
+        verdict = ("this bound COINCIDES WITH THE EDGE OF A REGION WHERE THE MODEL IS NOT "
+                   "EVALUABLE: it is not a data bound")
+    elif judged and all(j is False for j in judged):
+        verdict = "a data bound (not the edge of a not-evaluable region)"
+    else:
+        verdict = ("not judged against the not-evaluable region (no sampled parameter carries "
+                   "it, or its carrier has no bound on that side)")
+    return (f"where the bounce may sit (one-sided 95%, {b['likelihood']}): "
+            f"{', '.join(parts)}; {verdict}")

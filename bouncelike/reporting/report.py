@@ -121,6 +121,7 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
                 _prober(model, likelihood, x, frame["log_likelihood"].to_numpy(), sampled,
                         params_of, rs["seed"])),
             "rule": refusals.RULE,
+            "derived": [],
             "run_reasons": refusals.survey_rows(
                 manifest.get("run", {}).get("failure_summary", {}) or {})},
         "methods": {
@@ -134,6 +135,11 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
             "p_values": rules,
         },
     }
+    ne = verdict["not_evaluable"]
+    ne["derived"] = refusals.derived_coincidences(
+        marg, ne["coincidences"], {n: frame[n].to_numpy() for n in params_all}, sampled)
+    verdict["bounce"] = lowell_report.bounce_bounds(
+        {n: frame[n].to_numpy() for n in params_all}, verdict)
     verdict["comparisons"] = _comparisons(verdict, rs, manifest)
     fig_data = _figure_data(folder, prior, model, likelihood, frame, x, best_spectra, rs, rng,
                             params_of, best_theta)

@@ -109,12 +109,17 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
     out.append("**Posterior samples allowed**: "
                + outcome_text(v["allowed_posterior_fraction"], "posterior samples") + ".")
     ne = v.get("not_evaluable") or {}
-    edge = {(c["parameter"]) for c in ne.get("coincidences", []) if c["coincides"]}
+    edge = {(c["parameter"]) for c in (*ne.get("coincidences", []), *ne.get("derived", []))
+            if c["coincides"]}
     out += ["", "## Marginal constraints", ""]
     out.extend(f"- {e['name']}: {interval_text(e)}"
                + (" -- coincides with a region where the model is not evaluable (below); "
                   "not a data bound" if e["name"] in edge else "") for e in v["marginals"])
     out += ["", f"Intervals: {INTERVAL_DEFINITION}."]
+    if v.get("bounce"):
+        from .lowell import bounce_text
+
+        out += ["", "## Where the bounce may sit", "", bounce_text(v["bounce"]) + "."]
     if v.get("savage_dickey"):
         out += ["", "## Nested settings (Savage-Dickey density ratio)", ""]
         for name, sd in v["savage_dickey"].items():
@@ -150,8 +155,18 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
                        f"{proportions.fraction_text(r['prior_fraction'], 'survey draws')}"
                        for r in ne["run_reasons"])
             out.append("")
-        if not any(c["coincides"] for c in ne.get("coincidences", [])):
-            out.append("No bound of a sampled parameter coincides with a not-evaluable region.")
+        derived = [d for d in ne.get("derived", []) if d["coincides"] is not None]
+        if derived:
+            out.append("Bounds of derived parameters, judged through the sampled parameter "
+                       "that carries them:")
+            out.append("")
+            out.extend(f"- {d['bound']}: carried by {d['carrier']} (correlation "
+                       f"{d['correlation']:+.2f}; {d['carrier_bound']}): "
+                       + ("coincides with the not-evaluable edge, not a data bound"
+                          if d["coincides"] else "a data bound") for d in derived)
+            out.append("")
+        if not any(c["coincides"] for c in (*ne.get("coincidences", []), *derived)):
+            out.append("No bound coincides with a not-evaluable region.")
         out.append(f"Rule: {ne['rule']}.")
     ev = v.get("evidence")
     if ev:

@@ -1,10 +1,15 @@
 """Bounce models for sampling in physical parameters, background included.
 
-One evaluation goes, for V = m^2 phi^2 / 2 on the effective isotropic bounce:
+One evaluation goes, for V = m^2 phi^2 / 2 or the Starobinsky plateau
+V = (3/4) M^2 M_Pl^2 (1 - exp(-sqrt(2/3) phi/M_Pl))^2 on the effective isotropic bounce (every
+shipped potential with a transfer cache, :mod:`bouncelike.perturbations.transfer_backgrounds`):
 
 1. background: the engine (:class:`bouncelike.background.isotropic.IsotropicDynamics`) from
    the bounce, :class:`~bouncelike.background.initial.BounceStart` with the potential fraction
-   x_V = V(phi_B)/rho_c (phidot > 0), to the end of inflation, read through its table view
+   x_V = V(phi_B)/rho_c (phidot > 0; m^2 phi^2: phi_B > 0; Starobinsky: phi_B < 0, the field
+   climbing the steep side towards the plateau -- the only bounces with 50-170 e-folds to the
+   end of inflation, see transfer_backgrounds.py), to the end of inflation, read through its
+   table view
    (:class:`bouncelike.background.table.BackgroundTable`, the one the spectra read). A
    background that fails or does not inflate, whose inflation does not end (2000 e-fold cap),
    or that inflates for fewer e-folds after the bounce than N_* raises
@@ -26,10 +31,12 @@ One evaluation goes, for V = m^2 phi^2 / 2 on the effective isotropic bounce:
 
    running is not carried (second order in slow roll, ~ -7e-4 for this potential);
 4. spectra: that power law times the cached transfer of the bounce through
-   :class:`bouncelike.perturbations.transfer.BounceSpectraModel` (its public ``spectra`` and
-   ``derived``), handing it the power-law numbers, log10 k_LQC and any background quantity its
-   ``parameter_names`` ask for (the conformal duration of the bounce-to-end stretch,
-   ``log10_conformal_duration``, when the cache depends on it).
+   :class:`bouncelike.perturbations.transfer.BounceSpectraModel` of the potential's family
+   (its public ``spectra`` and ``derived``), handing it the power-law numbers, log10 k_LQC, the
+   potential fraction and any background quantity its ``parameter_names`` ask for (the
+   conformal duration of the bounce-to-end stretch, ``log10_conformal_duration``, when the
+   cache depends on it). A background the cache does not cover (its D, tilts or x_V outside
+   the calibrated ranges, a window below where the state is set) is not evaluable.
 
 Parameters (a prior file gives each as sampled or fixed)
 --------------------------------------------------------
@@ -38,7 +45,7 @@ background (exactly one)  ``log10_potential_fraction``  log10 V(phi_B)/rho_c
                           by a secant search (a few background runs); this is what a prior from
                           the oscillation phase of the contracting branch constrains
                           (``efolds_from_phase``)
-inflaton                  ``mass`` (m_Pl units)
+inflaton                  ``mass`` (m_Pl units): m of m^2 phi^2, M of the Starobinsky plateau
 bounce                    ``critical_density`` (Planck units; 0.40937 for gamma = 0.2375)
 reheating (one choice)    ``N_star``, or ``equation_of_state`` w and ``log10_reheating_density``
                           (log10 rho_reh, Planck units)
@@ -71,6 +78,9 @@ _SUPPLIED = ("ln_1e10_As", "n_s", "r", "log10_k_lqc")
 class _PhysicalBounce:
     prescription = ""
     state = "remote_past"
+    #: the potential family (transfer cache) and the side of the field at the bounce
+    potential = "quadratic"
+    field_sign = 1
     parameter_names = ("log10_potential_fraction", "N_inflation", "mass", "critical_density",
                        "N_star", "equation_of_state", "log10_reheating_density")
     optional_parameter_names = ("log10_potential_fraction", "N_inflation", "N_star",
@@ -123,7 +133,7 @@ class _PhysicalBounce:
             from ..perturbations.transfer import BounceSpectraModel
 
             self._fast_model = BounceSpectraModel(prescription=self.prescription, pivot=PIVOT,
-                                                  state=self.state)
+                                                  state=self.state, potential=self.potential)
         return self._fast_model
 
     def spectra(self, p: dict[str, float]) -> Any:
@@ -143,18 +153,18 @@ class _PhysicalBounce:
 
     def _compute(self, p: dict[str, float]) -> tuple[dict[str, float], dict[str, float]]:
         from ..background.limits import check_critical_density, check_mass
-        from ..background.potentials import Quadratic
+        from ..background.potentials import POTENTIALS
         from ..perturbations.mapping import liddle_leach_n_star, scale_map
 
         mass = check_mass(float(p["mass"]), "mass", zero=False)
         rho_c = check_critical_density(p["critical_density"], "critical_density")
-        pot = Quadratic(mass=mass)
+        pot = POTENTIALS[self.potential](mass=mass)
         dyn = _dynamics(rho_c)
         if "N_inflation" in p:
-            lx = _potential_fraction_for(dyn, pot, p["N_inflation"])
+            lx = _potential_fraction_for(dyn, pot, p["N_inflation"], self.field_sign)
         else:
             lx = p["log10_potential_fraction"]
-        tab = _background(dyn, pot, lx)
+        tab = _background(dyn, pot, lx, self.field_sign)
         if "N_star" in p:
             n_star = p["N_star"]
         else:
@@ -218,6 +228,40 @@ class PhysicalBounceLowEnergy(PhysicalBounceDressedMetric):
     state = "low_energy"
 
 
+class PhysicalBounceStarobinsky(PhysicalBounceDressedMetric):
+    """Starobinsky plateau, remote-past state (not set below 0.363 k_LQC on these bounces: a
+    window or a large-scale term reaching there is not evaluable)."""
+
+    name = "bounce_physical_dressed_metric_starobinsky"
+    potential = "starobinsky"
+    field_sign = -1
+    labels = {**_PhysicalBounce.labels, "mass": r"M/m_\mathrm{Pl}"}
+
+
+class PhysicalBounceStarobinskyNonOscillating(PhysicalBounceStarobinsky):
+    """Starobinsky plateau, non-oscillating vacuum set around the bounce (certified from
+    0.01 k_LQC on these bounces)."""
+
+    name = "bounce_physical_dressed_metric_non_oscillating_starobinsky"
+    state = "non_oscillating"
+
+
+class PhysicalBounceStarobinskyLowEnergy(PhysicalBounceStarobinsky):
+    """Starobinsky plateau, state of low energy set around the bounce (certified from
+    0.1 k_LQC on these bounces)."""
+
+    name = "bounce_physical_dressed_metric_low_energy_starobinsky"
+    state = "low_energy"
+
+
+class PhysicalBounceStarobinskyDeformedAlgebra(PhysicalBounceStarobinsky):
+    """Starobinsky plateau, deformed-algebra modes (cached from 3 k_LQC only on these
+    bounces)."""
+
+    name = "bounce_physical_deformed_algebra_starobinsky"
+    prescription = "deformed_algebra"
+
+
 _DYNAMICS: dict[float, Any] = {}
 
 
@@ -238,7 +282,7 @@ def _settings() -> Any:
     return IntegrationSettings(dense_points=0, max_inflation_efolds=2000.0)
 
 
-def _background(dyn: Any, pot: Any, log10_fraction: float) -> Any:
+def _background(dyn: Any, pot: Any, log10_fraction: float, field_sign: int = 1) -> Any:
     """The table view from the bounce to the end of inflation; NumericalFailure unless
     inflation starts and ends."""
     from ..background.initial import BounceStart
@@ -246,17 +290,17 @@ def _background(dyn: Any, pot: Any, log10_fraction: float) -> Any:
     if not log10_fraction < 0:
         raise InputError(f"'log10_potential_fraction' = {log10_fraction:g} is out of range; "
                          "allowed: < 0")
-    tab = dyn.table(pot, BounceStart(10.0 ** log10_fraction, 1), extra_efolds=0.0,
+    tab = dyn.table(pot, BounceStart(10.0 ** log10_fraction, 1, field_sign), extra_efolds=0.0,
                     settings=_settings())
     if tab.summary.status != "inflated":
         raise NumericalFailure(f"background {tab.summary.status}: {tab.summary.message}")
     return tab
 
 
-def _inflation_efolds(dyn: Any, pot: Any, log10_fraction: float) -> float:
+def _inflation_efolds(dyn: Any, pot: Any, log10_fraction: float, field_sign: int = 1) -> float:
     from ..background.initial import BounceStart
 
-    s = dyn.evolve_summary(pot, BounceStart(10.0 ** log10_fraction, 1), _settings())
+    s = dyn.evolve_summary(pot, BounceStart(10.0 ** log10_fraction, 1, field_sign), _settings())
     return s.inflationary_efolds
 
 
@@ -265,30 +309,41 @@ def _inflation_efolds(dyn: Any, pot: Any, log10_fraction: float) -> float:
 #: log10 x_V), moved to other m and rho_c at fixed x_V rho_c / m^2 (fixed phi_B; ~3% in N)
 _GUESS_CUBIC = (0.09624572, -1.69551587, 10.56438882, -33.35804853)
 _GUESS_REF = (1.2e-6, 0.40937)
+#: the same for the Starobinsky plateau (phi_B < 0): log10 x_V linear in ln N through the
+#: engine runs N = 162 at 1e-8 and 50.2 at 1e-7 (M = 2.5e-6, rho_c = 0.40937)
+_GUESS_STAROBINSKY = (-0.8547, -3.6473)
 
 
-def _potential_fraction_for(dyn: Any, pot: Any, n_target: float, tol: float = 5e-4) -> float:
+def _first_guess(pot: Any, rc: float, ln_t: float) -> tuple[float, float]:
+    """(log10 x_V, d ln N / d log10 x_V) to start the search from."""
+    if getattr(pot, "name", "") == "starobinsky":
+        return float(np.polyval(_GUESS_STAROBINSKY, ln_t)), 1.0 / _GUESS_STAROBINSKY[0]
+    m_ref, rc_ref = _GUESS_REF
+    x0 = (float(np.polyval(_GUESS_CUBIC, ln_t)) + 2 * math.log10(float(pot.mass) / m_ref)
+          - math.log10(rc / rc_ref))
+    return x0, 1.0 / max(float(np.polyval(np.polyder(_GUESS_CUBIC), ln_t)), 1e-3)
+
+
+def _potential_fraction_for(dyn: Any, pot: Any, n_target: float, field_sign: int = 1,
+                            tol: float = 5e-4) -> float:
     """log10 x_V giving ``n_target`` inflationary e-folds (secant in ln N vs log10 x_V), to
     ``tol`` in ln N (0.07 e-folds at N = 140; the stored N_inflation is the exact count of the
     background used).
 
     Deterministic: the result depends on (N, m, rho_c) only, never on earlier evaluations, so
     chains do not depend on the pool or on the order of evaluation. N grows monotonically with
-    x_V over the inflating range.
+    x_V over the inflating range (m^2 phi^2; for the Starobinsky bounces with phi_B < 0 it falls
+    with x_V: the slope's sign is read off the first two runs).
     """
     if not n_target > 1:
         raise InputError(f"'N_inflation' = {n_target:g} is out of range; allowed: > 1")
-    m = float(pot.mass)
-    rc = float(dyn.critical_density)
-    m_ref, rc_ref = _GUESS_REF
     ln_t = math.log(n_target)
-    x0 = min(float(np.polyval(_GUESS_CUBIC, ln_t)) + 2 * math.log10(m / m_ref)
-             - math.log10(rc / rc_ref), -1e-3)
-    # d ln N / d log10 x_V from the same cubic
-    slope0 = 1.0 / max(float(np.polyval(np.polyder(_GUESS_CUBIC), ln_t)), 1e-3)
+    x0, slope0 = _first_guess(pot, float(dyn.critical_density), ln_t)
+    x0 = min(x0, -1e-3)
+    increasing = slope0 > 0
 
     def f(lx: float) -> float:
-        return math.log(max(_inflation_efolds(dyn, pot, lx), 1e-3)) - ln_t
+        return math.log(max(_inflation_efolds(dyn, pot, lx, field_sign), 1e-3)) - ln_t
 
     f0 = f(x0)
     if abs(f0) < tol:
@@ -299,7 +354,10 @@ def _potential_fraction_for(dyn: Any, pot: Any, n_target: float, tol: float = 5e
         if abs(f1) < tol:
             return x1
         slope = (f1 - f0) / (x1 - x0) if x1 != x0 else 0.0
-        step = -f1 / slope if slope > 0 else 0.3 * (-1 if f1 > 0 else 1)
+        if (slope > 0) == increasing and slope != 0:
+            step = -f1 / slope
+        else:  # a flat or wrong-signed secant: a fixed step towards the target
+            step = 0.3 * (-1 if (f1 > 0) == increasing else 1)
         x0, f0 = x1, f1
         x1 = min(x1 + max(min(step, 2.0), -2.0), -1e-6)
         f1 = f(x1)

@@ -246,6 +246,14 @@ PARAMETRIC_MODELS: dict[str, str] = {
         "bouncelike.sampling.bounce_physical:PhysicalBounceNonOscillating",
     "bounce_physical_dressed_metric_low_energy":
         "bouncelike.sampling.bounce_physical:PhysicalBounceLowEnergy",
+    "bounce_physical_dressed_metric_starobinsky":
+        "bouncelike.sampling.bounce_physical:PhysicalBounceStarobinsky",
+    "bounce_physical_dressed_metric_non_oscillating_starobinsky":
+        "bouncelike.sampling.bounce_physical:PhysicalBounceStarobinskyNonOscillating",
+    "bounce_physical_dressed_metric_low_energy_starobinsky":
+        "bouncelike.sampling.bounce_physical:PhysicalBounceStarobinskyLowEnergy",
+    "bounce_physical_deformed_algebra_starobinsky":
+        "bouncelike.sampling.bounce_physical:PhysicalBounceStarobinskyDeformedAlgebra",
 }
 
 
