@@ -106,7 +106,7 @@ def likelihood(sets):
 
 
 def per_call_table(without, with_term, term) -> None:
-    bounce = BounceSpectraModel().spectra({"ln_1e10_As": 3.044, "n_s": 0.9649, "r": 0.01,
+    bounce = BounceSpectraModel().spectra({"ln_1e10_As": 3.044, "n_s": 0.9649, "r": 0.08,
                                            "log10_k_lqc": -3.5,
                                            "log10_conformal_duration": 3.7})
     k = np.geomspace(1e-5, 1.0, 300)
