@@ -36,9 +36,10 @@ from ..spectra.oscillations import PeriodMeanView, knows_oscillations
 from ..spectra.powerlaw import PowerLawSpectra
 from ..spectra.summary import DEFAULT_HALF_WIDTH, DEFAULT_TOLERANCE, PivotSummary
 from .bounds import spectra_cap
-from .gaussian import GaussianLikelihood, Score, verdict_from_p
+from .gaussian import GaussianLikelihood
 from .lowell import LowEllTemperature
 from .lowell_calibration import P_FLOOR
+from .score import Score, verdict_from_p
 from .sets import QUANTITIES, ConstraintSet
 
 COMBINED_RULE = (

@@ -64,7 +64,7 @@ def best_fit_goodness(chi2: float, n_terms: int, dimensionality: float,
                       bound: bool = False) -> dict[str, Any]:
     """p-value of a best fit with dof = terms - fitted parameters (module docstring); with
     ``bound`` (capped spectra) chi2 is a lower bound, so "allowed" becomes "undetermined"."""
-    from ..likelihood.gaussian import verdict_from_p
+    from ..likelihood.score import verdict_from_p
 
     fitted = len(constrained)
     if math.isfinite(dimensionality):

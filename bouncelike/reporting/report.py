@@ -17,7 +17,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError
-from ..likelihood.gaussian import VERDICT_RULE
+from ..likelihood.score import VERDICT_RULE
 from ..sampling import chains
 from ..sampling.setup import rebuild_from_manifest
 from . import evidence as E
