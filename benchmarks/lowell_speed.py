@@ -39,11 +39,11 @@ from scipy.interpolate import CubicSpline  # noqa: E402
 
 from bouncelike.config import Table  # noqa: E402
 from bouncelike.likelihood.gaussian import likelihood_from_config  # noqa: E402
+from bouncelike.models.registry import forward_model  # noqa: E402
 from bouncelike.perturbations.transfer import BounceSpectraModel  # noqa: E402
 from bouncelike.sampling.driver import SamplerSettings, run_sampler  # noqa: E402
-from bouncelike.sampling.parametric import model_prior, parametric_model  # noqa: E402
 from bouncelike.sampling.posterior import ModelPosterior  # noqa: E402
-from bouncelike.sampling.priors import resolve_prior_path  # noqa: E402
+from bouncelike.sampling.priors import load_prior, resolve_prior_path  # noqa: E402
 from bouncelike.sky import kernels  # noqa: E402
 from bouncelike.sky.cosmology import planck18_late_universe  # noqa: E402
 from bouncelike.sky.projection import (  # noqa: E402
@@ -111,7 +111,7 @@ def per_call_table(without, with_term, term) -> None:
                                            "log10_conformal_duration": 3.7})
     k = np.geomspace(1e-5, 1.0, 300)
     pl = PowerLawSpectra(3.044, 0.9649, r=0.01)
-    physical = parametric_model("bounce_physical_dressed_metric_non_oscillating_starobinsky")
+    physical = forward_model("bounce_physical_dressed_metric_non_oscillating_starobinsky")
     cases = {"power law (exact pivot re-expansion)": pl,
              "power law as a table (pivot fit)": TabulatedSpectra(k, pl.scalar(k),
                                                                   pl.tensor(k)),
@@ -139,8 +139,8 @@ def per_call_table(without, with_term, term) -> None:
 
 
 def posterior_time(sets, steps: int, folder: Path) -> tuple[float, int]:
-    model = parametric_model("bounce_physical_dressed_metric_non_oscillating_starobinsky")
-    prior = model_prior(model, resolve_prior_path(PHYSICAL_PRIOR))
+    model = forward_model("bounce_physical_dressed_metric_non_oscillating_starobinsky")
+    prior = load_prior(resolve_prior_path(PHYSICAL_PRIOR), model)
     post = ModelPosterior(prior, model, likelihood(sets))
     settings = SamplerSettings(walkers=16, max_steps=steps, min_steps=steps, tau_multiple=50,
                                tau_tolerance=0.05, checkpoint_every=steps, seed=5,

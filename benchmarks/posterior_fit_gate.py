@@ -20,9 +20,9 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from bouncelike.errors import NotEvaluable  # noqa: E402
 from bouncelike.likelihood.gaussian import GaussianLikelihood  # noqa: E402
-from bouncelike.sampling.parametric import model_prior, parametric_model  # noqa: E402
+from bouncelike.models.registry import forward_model  # noqa: E402
 from bouncelike.sampling.posterior import ModelPosterior, Posterior  # noqa: E402
-from bouncelike.sampling.priors import SHIPPED_PRIORS  # noqa: E402
+from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior  # noqa: E402
 
 
 class FitTwice:
@@ -49,8 +49,8 @@ def best_time(post, points, rounds=5):
 
 
 def main() -> None:
-    model = parametric_model("bounce_dressed_metric")
-    prior = model_prior(model, SHIPPED_PRIORS / "bounce_dressed_metric.toml")
+    model = forward_model("bounce_dressed_metric")
+    prior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric.toml", model)
     lk = GaussianLikelihood.from_names(["planck2018_base", "bk18"])
     once = ModelPosterior(prior, model, lk)
     twice = Posterior(prior, FitTwice(model, lk), model.derived)

@@ -45,13 +45,10 @@ import numpy as np  # noqa: E402
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
+from bouncelike.models.powerlaw import PowerLawModel  # noqa: E402
+from bouncelike.models.registry import forward_model  # noqa: E402
 from bouncelike.parallel import ProcessPool  # noqa: E402
 from bouncelike.sampling.driver import SamplerSettings, run_sampler  # noqa: E402
-from bouncelike.sampling.parametric import (  # noqa: E402
-    PowerLawModel,
-    model_prior,
-    parametric_model,
-)
 from bouncelike.sampling.posterior import ModelPosterior, install_posterior  # noqa: E402
 from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior  # noqa: E402
 
@@ -143,8 +140,7 @@ def main() -> int:
     sets = ["planck2018_base", "bk18"]
     lk = GaussianLikelihood.from_names(sets)
     model = PowerLawModel()
-    prior = load_prior(SHIPPED_PRIORS / "power_law.toml", model.parameter_names,
-                       model.derived_names)
+    prior = load_prior(SHIPPED_PRIORS / "power_law.toml", model)
     post = ModelPosterior(prior, model, lk)
     theta = np.array([3.044, 0.965, 0.01])
     spectra = model.spectra(prior.full_parameters(theta))
@@ -166,9 +162,8 @@ def main() -> int:
     except ImportError:
         print("   not available: bouncelike.perturbations.transfer is not in this build")
     else:
-        bmodel = parametric_model("bounce_dressed_metric")
-        bprior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric.toml",
-                            bmodel.parameter_names, bmodel.derived_names)
+        bmodel = forward_model("bounce_dressed_metric")
+        bprior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric.toml", bmodel)
         bounce_post = ModelPosterior(bprior, bmodel, lk)
         rng = np.random.default_rng(0)
         times = []
@@ -182,7 +177,7 @@ def main() -> int:
         example = ROOT / "examples" / "bounce_features_quadratic.toml"
         if example.is_file():
             from bouncelike.config import load_run_config
-            from bouncelike.models import spectra_from_config
+            from bouncelike.models.registry import spectra_from_config
 
             t0 = time.perf_counter()
             lk.log_likelihood(spectra_from_config(load_run_config(example)))
@@ -195,10 +190,10 @@ def main() -> int:
     full_time = None
     if bounce_post is not None:
         from bouncelike.config import load_run_config
-        from bouncelike.models import spectra_from_config
+        from bouncelike.models.registry import spectra_from_config
 
-        pmodel = parametric_model("bounce_physical_dressed_metric")
-        pprior = model_prior(pmodel, SHIPPED_PRIORS / "bounce_dressed_metric_physical.toml")
+        pmodel = forward_model("bounce_physical_dressed_metric")
+        pprior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric_physical.toml", pmodel)
         phys_post = ModelPosterior(pprior, pmodel, lk)
         rng = np.random.default_rng(1)
         pts = pprior.draw(rng, 300)
@@ -237,7 +232,7 @@ def main() -> int:
         print(f"   baseline, full forward model (background + mode integration + likelihood), "
               f"median over the first 3 draws: {full_time:.2f} s; ratio baseline / physical "
               f"model {full_time / med_p:.0f}x")
-        nprior = model_prior(pmodel, SHIPPED_PRIORS / "bounce_dressed_metric_phase.toml")
+        nprior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric_phase.toml", pmodel)
         npost = ModelPosterior(nprior, pmodel, lk)
         times = []
         for th in nprior.draw(np.random.default_rng(2), 100):

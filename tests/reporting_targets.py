@@ -1,11 +1,11 @@
-"""A parametric model with a region it cannot evaluate, for the report tests."""
+"""A forward model with a region it cannot evaluate, for the report tests."""
 
 from __future__ import annotations
 
 from typing import Any
 
 from bouncelike.errors import NotEvaluable
-from bouncelike.sampling.parametric import PowerLawModel
+from bouncelike.models.powerlaw import PowerLawModel
 
 #: Above this tilt the model has no prediction (a stand-in for a domain edge).
 EDGE = 0.968

@@ -90,7 +90,7 @@ def test_identical_for_any_number_of_workers():
 def test_fixed_surface_and_bounce_fraction_prior():
     fixed = efolds_distribution(DYN, QUAD, PhasePrior(1e-15, 0.0), 10, seed=1,
                                 convergence_samples=0)
-    assert np.all(fixed.draws["density"] == 1e-15)
+    assert np.all(fixed.draws["start_density"] == 1e-15)
     assert fixed.prior["prescription"] == "fixed surface"
     prior = BounceFractionPrior(1e-12, 1e-10, "log")
     d = efolds_distribution(DYN, QUAD, prior, 30, seed=2)
@@ -116,9 +116,9 @@ def test_plateau_gives_much_longer_inflation():
 
 
 def test_bad_prior_values():
-    with pytest.raises(InputError, match="efolds.density"):
+    with pytest.raises(InputError, match="efolds.start_density"):
         PhasePrior(-1.0)
-    with pytest.raises(InputError, match="efolds.density_decades"):
+    with pytest.raises(InputError, match="efolds.start_density_decades"):
         PhasePrior(1e-16, -1.0)
     with pytest.raises(InputError, match="efolds.fraction_min"):
         BounceFractionPrior(1e-9, 1e-12)
@@ -134,7 +134,7 @@ def test_flattened_monomial_window_guard():
     from bouncelike.background.potentials import Monomial
 
     pot = Monomial(1e-11, 2 / 3)
-    with pytest.raises(InputError, match="efolds.density"):
+    with pytest.raises(InputError, match="efolds.start_density"):
         efolds_distribution(DYN, pot, PhasePrior(1e-16, 2.0), 4, seed=1)
     d = efolds_distribution(DYN, pot, PhasePrior(3e-13, 0.5), 6, seed=1,
                             convergence_samples=0)

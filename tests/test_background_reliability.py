@@ -38,7 +38,7 @@ def _cli(args: list[str], cwd: Path, timeout: float) -> subprocess.CompletedProc
 def _spectrum_config(path: Path, background: str) -> Path:
     path.write_text('[model]\nspectra = "bounce"\n[potential]\nname = "quadratic"\n'
                     f'mass = 1.2e-6\n[background]\ndynamics = "isotropic"\nstart = "bounce"\n'
-                    f'{background}\n[reheating]\nn_star = 55.0\n[likelihood]\n'
+                    f'{background}\n[reheating]\nN_star = 55.0\n[likelihood]\n'
                     'sets = ["planck2018_base"]\n')
     return path
 
@@ -60,7 +60,7 @@ def test_critical_density_outside_its_physical_range_is_refused(tmp_path):
     out = _cli(["score", str(cfg)], tmp_path, timeout=120)
     assert out.returncode == 2
     assert "'background.critical_density' = 1e-300 is out of range" in out.stderr
-    assert "allowed: 1e-10 <= rho_c <= 1e+06" in out.stderr
+    assert "allowed: >= 1e-10 and <= 1e+06 Planck density" in out.stderr
     with pytest.raises(InputError, match="critical_density"):
         IsotropicDynamics(1e-300)
 

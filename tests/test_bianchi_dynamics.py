@@ -189,7 +189,7 @@ def test_bad_input_is_one_line_error():
         BianchiIDynamics(RHO_C).evolve(POT, cn.ContractingStart(0.1, 0.0))
     # a shear density beyond 1% of rho_c on the reference surface is not a classical start
     # (it once hung the compiled integration): refused with the allowed range
-    with pytest.raises(InputError, match=r"shear_ratio.*allowed: >= 0 and < 4\.09e\+13"):
+    with pytest.raises(InputError, match=r"shear_ratio.*allowed: >= 0 and < 4\.09\d*e\+13"):
         BianchiIDynamics(RHO_C, shear_ratio=1e100)
     with pytest.raises(InputError, match="shear_ratio.*initial density"):
         BianchiIDynamics(RHO_C, shear_ratio=1e10).evolve(POT, cn.ContractingStart(1e-13, 0.0))

@@ -13,7 +13,7 @@ from bouncelike.background.isotropic import IsotropicDynamics
 from bouncelike.background.potentials import Starobinsky
 from bouncelike.config import Table
 from bouncelike.errors import InputError, NotEvaluable
-from bouncelike.sampling.parametric import parametric_model
+from bouncelike.models.registry import forward_model
 from bouncelike.spectra.summary import summarize
 
 RHO_C = 0.40937  # gamma = 0.2375 (physics notes, section 0)
@@ -38,13 +38,13 @@ field_sign = -1
 prescription = "dressed_metric"
 state = "non_oscillating"
 [reheating]
-n_star = 55.0
+N_star = 55.0
 """
 
 
 @pytest.fixture(scope="module")
 def model():
-    return parametric_model("bounce_physical_dressed_metric_non_oscillating_starobinsky")
+    return forward_model("bounce_physical_dressed_metric_non_oscillating_starobinsky")
 
 
 def test_the_field_climbs_the_steep_side():
@@ -83,7 +83,7 @@ def test_reproduces_full_forward_model_at_the_pivot(tmp_path, model):
     (arXiv:1807.06209); 1% in r. Measured: 5e-4, 5e-4, 5e-4 (relative)."""
     from bouncelike.config import load_run_config
     from bouncelike.models import spectra_from_config
-    from bouncelike.perturbations.forward import run_from_config
+    from bouncelike.models.bounce import run_from_config
 
     cfg = tmp_path / "full.toml"
     cfg.write_text(FULL)
@@ -152,7 +152,7 @@ def test_bounce_scale_spans_the_window_over_the_prior(model):
 
 
 def test_inflationary_efolds_search_on_the_plateau(model):
-    m = parametric_model("bounce_physical_dressed_metric_non_oscillating_starobinsky")
+    m = forward_model("bounce_physical_dressed_metric_non_oscillating_starobinsky")
     p = {"N_inflation": 80.0, "mass": 2.45e-6, "critical_density": RHO_C, "N_star": 55.0}
     d = m.derived(p)
     assert d["N_inflation"] == pytest.approx(80.0, abs=0.1)
@@ -161,7 +161,7 @@ def test_inflationary_efolds_search_on_the_plateau(model):
 
 
 def test_remote_past_state_not_evaluable_near_the_window():
-    m = parametric_model("bounce_physical_dressed_metric_starobinsky")
+    m = forward_model("bounce_physical_dressed_metric_starobinsky")
     assert np.isfinite(m.spectra(POINT).scalar(np.array([0.05]))[0])
     with pytest.raises(NotEvaluable, match="remote-past state is not set"):
         m.spectra({**POINT, "log10_potential_fraction": -7.2})

@@ -27,8 +27,8 @@ mass = 1.21e-6
 [efolds]
 n_samples = 4
 seed = 4
-density = 1e-15
-density_decades = 1.0
+start_density = 1e-15
+start_density_decades = 1.0
 convergence_samples = 0
 """
 
@@ -39,8 +39,8 @@ mass = 1.21e-6
 
 [compare]
 n_samples = 2
-density = 1e-15
-density_decades = 1.0
+start_density = 1e-15
+start_density_decades = 1.0
 cases = [{ label = "LQC", dynamics = "isotropic" }]
 """
 

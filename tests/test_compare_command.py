@@ -19,8 +19,8 @@ gamma = 0.2375
 [compare]
 n_samples = 3
 seed = 4
-density = 1e-16
-density_decades = 1.0
+start_density = 1e-16
+start_density_decades = 1.0
 cases = [
   { label = "LQC", dynamics = "isotropic" },
   { label = "half rho_c", dynamics = "condensate", rescale = 0.5 },

@@ -37,7 +37,7 @@ start = "bounce"
 potential_fraction = 1e-11
 
 [reheating]
-n_star = 55.0
+N_star = 55.0
 
 [efolds]
 n_samples = 2

@@ -24,8 +24,8 @@ dynamics = "{dynamics}"
 [efolds]
 n_samples = 30
 seed = 3
-density = {density}
-density_decades = 1.0
+start_density = {density}
+start_density_decades = 1.0
 convergence_samples = 3
 bins = 8
 """
@@ -105,8 +105,8 @@ gamma = 0.2375
 [compare]
 n_samples = 30
 seed = 2
-density = 1e-16
-density_decades = 1.0
+start_density = 1e-16
+start_density_decades = 1.0
 cases = [
   { label = "LQC", dynamics = "isotropic" },
   { label = "condensate q", dynamics = "condensate", rescale = 0.8, condensate_term = 1e-12 },

@@ -19,8 +19,8 @@ gamma = 0.2375
 n_samples = 16
 seed = 4
 threshold = 60.0
-density = 1e-15
-density_decades = 1.0
+start_density = 1e-15
+start_density_decades = 1.0
 convergence_samples = 4
 bins = 10
 """
@@ -46,7 +46,7 @@ def test_efolds_command_json_and_files(tmp_path, capsys):
     assert result["max_constraint_residual"] < 1e-6
     frame = pd.read_csv(out / "efolds_samples.csv")
     assert len(frame) == 16
-    assert {"phase", "density", "status", "efolds_inflation"} <= set(frame.columns)
+    assert {"phase", "start_density", "status", "efolds_inflation"} <= set(frame.columns)
     assert frame["efolds_inflation"].median() == pytest.approx(result["median"], rel=1e-9)
     for name in ("efolds.pdf", "efolds.png", "efolds_summary.json"):
         assert (out / name).stat().st_size > 0
@@ -64,8 +64,9 @@ def test_efolds_command_table(tmp_path, capsys):
     [
         (("n_samples = 16", "n_samples = 0"), "efolds.n_samples"),
         (("seed = 4", "seed = 4\nsamples = 3"), "efolds.samples"),
-        (("density = 1e-15", "density = -1e-15"), "efolds.density"),
-        (("density_decades = 1.0", "density_decades = 20.0"), "efolds.density_decades"),
+        (("start_density = 1e-15", "start_density = -1e-15"), "efolds.start_density"),
+        (("start_density_decades = 1.0", "start_density_decades = 20.0"),
+         "efolds.start_density_decades"),
         (("threshold = 60.0", "threshold = 60.0\nfraction_min = 1e-12"), "efolds.fraction_min"),
         (("threshold = 60.0", "threshold = 60.0\nprior = 'uniform'"), "efolds.prior"),
         (("mass = 1.21e-6", "mass = -1.0"), "potential.mass"),

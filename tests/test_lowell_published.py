@@ -31,9 +31,9 @@ import pytest
 from bouncelike.config import Table
 from bouncelike.likelihood.gaussian import likelihood_from_config
 from bouncelike.likelihood.lowell import LowEllTemperature
+from bouncelike.models.registry import forward_model
 from bouncelike.reporting import proportions, refusals
 from bouncelike.reporting.marginals import marginal_statistics
-from bouncelike.sampling.parametric import parametric_model
 from bouncelike.spectra import PowerLawSpectra
 from bouncelike.spectra.tabulated import TabulatedSpectra
 
@@ -92,7 +92,7 @@ def _bound(model, likelihood):
 
 
 def test_dressed_metric_bounce_bound_is_set_by_the_large_scale_data():
-    model = parametric_model("bounce_dressed_metric")  # remote-past state, period mean
+    model = forward_model("bounce_dressed_metric")  # remote-past state, period mean
     entry, rows = _bound(model, _likelihood([*PIVOT_SETS, LOW]))
     assert entry["kind"] == "upper_limit"
     # the bounce sits at the largest observable scales (AAN 2013, Agullo & Morris 2015,
@@ -112,7 +112,7 @@ def test_dressed_metric_bounce_bound_is_set_by_the_large_scale_data():
 
 
 def test_without_the_term_the_only_edge_is_where_the_model_is_not_evaluable():
-    model = parametric_model("bounce_dressed_metric")
+    model = forward_model("bounce_dressed_metric")
     entry, rows = _bound(model, _likelihood(PIVOT_SETS))
     assert entry["kind"] == "upper_limit" and entry["limit95"] > -2.8  # measured -2.52
     row = next(r for r in rows if r["side"] == "above")
@@ -194,7 +194,7 @@ def test_no_shipped_state_lowers_the_period_mean_power():
             lt = t.ln_mean_transfer(x, split=True)
             assert np.min(lt["scalar"] + lt["growth"]) > -1e-3, (fam, presc, state)
     # and with the term, the least enhancing state (non-oscillating) never beats the power law
-    model = parametric_model("bounce_dressed_metric_non_oscillating")
+    model = forward_model("bounce_dressed_metric_non_oscillating")
     lk = _likelihood([*PIVOT_SETS, LOW])
     plain = -2 * lk.log_likelihood(PowerLawSpectra(3.044, 0.9649, r=0.01))
     for lkq in (-4.5, -4.0, -3.75, -3.5, -3.25):

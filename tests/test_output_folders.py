@@ -67,7 +67,7 @@ def compare_setup(tmp_path, monkeypatch):
 
 @pytest.fixture
 def spectrum_setup(tmp_path, monkeypatch):
-    from bouncelike.perturbations import forward
+    from bouncelike.models import bounce as forward
 
     _forbid(monkeypatch, forward, "run_from_config")
     shutil.copy(REPO / "examples" / "bounce_features_quadratic.toml", tmp_path / "run.toml")

@@ -11,7 +11,8 @@ import pytest
 from perturbations_helpers import bounce_background
 
 from bouncelike.errors import InputError, NotEvaluable
-from bouncelike.perturbations.forward import PerturbationOptions, run_bounce
+from bouncelike.models.bounce import PerturbationOptions, run_bounce
+from bouncelike.models.reheating import Reheating
 from bouncelike.perturbations.states import REMOTE_PAST_TOLERANCE
 from bouncelike.perturbations.transfer import (
     FAMILIES,
@@ -110,7 +111,7 @@ def test_new_states_through_forward_model_and_fast_model():
     # forward model (full mode integration, as `spectrum` and `score` run it) with the
     # non-oscillating state: a lower infrared than the remote-past state, the same UV
     tab = bounce_background()
-    runs = {st: run_bounce(tab, PerturbationOptions(state=st, k_count=16), n_star=55.0)
+    runs = {st: run_bounce(tab, PerturbationOptions(state=st, k_count=16), Reheating(N_star=55.0))
             for st in ("remote_past", "non_oscillating", "low_energy")}
     x = runs["remote_past"].spectrum.k / tab.k_lqc
     low = (x >= 0.01) & (x <= 0.03)
@@ -133,11 +134,11 @@ def test_new_states_through_forward_model_and_fast_model():
 
 
 def test_physical_model_with_a_window_state():
-    from bouncelike.sampling.parametric import parametric_model
+    from bouncelike.models.registry import forward_model
 
     point = {"log10_potential_fraction": math.log10(2.5e-12), "mass": 1.2e-6,
              "critical_density": 0.40937, "N_star": 55.0}
-    model = parametric_model("bounce_physical_dressed_metric_non_oscillating")
+    model = forward_model("bounce_physical_dressed_metric_non_oscillating")
     d = model.derived(point)
     assert d["certified"] == 1.0
     assert model.spectra(point).scalar(np.array([0.05]))[0] > 0

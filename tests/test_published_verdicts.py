@@ -8,7 +8,7 @@ while the Starobinsky (R^2) model at N_* ~ 55 sits inside the allowed n_s - r re
 import pytest
 
 from bouncelike.likelihood import GaussianLikelihood
-from bouncelike.spectra.slowroll import slow_roll_spectra
+from bouncelike.models.slowroll import slow_roll_spectra
 
 
 def test_quadratic_n60_excluded_by_bicep_keck_2018():

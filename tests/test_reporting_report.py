@@ -113,10 +113,9 @@ def test_a_bound_at_the_edge_of_the_not_evaluable_region_is_not_a_data_bound(
         tmp_path, monkeypatch):
     import reporting_targets
 
-    from bouncelike.sampling import parametric
+    from bouncelike.models import registry
 
-    monkeypatch.setitem(parametric.PARAMETRIC_MODELS, "test_edge_power_law",
-                        "reporting_targets:EdgePowerLaw")
+    monkeypatch.setitem(registry.MODELS, "test_edge_power_law", reporting_targets.EdgePowerLaw)
     report = _run(tmp_path, "edge", reporting_targets.PRIOR, ["planck2018_base"], 400,
                   '\nexclusion_map = ["n_s", "ln_1e10_As"]\n')
     v = json.loads((report / "verdicts.json").read_text())

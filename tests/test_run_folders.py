@@ -240,8 +240,8 @@ mass = 1.21e-6
 [efolds]
 n_samples = 8
 seed = 4
-density = 1e-15
-density_decades = 1.0
+start_density = 1e-15
+start_density_decades = 1.0
 convergence_samples = 0
 """
 

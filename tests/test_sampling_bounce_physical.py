@@ -14,10 +14,10 @@ from bouncelike.cli import main
 from bouncelike.config import load_run_config
 from bouncelike.errors import NumericalFailure
 from bouncelike.likelihood.gaussian import GaussianLikelihood
+from bouncelike.models.registry import forward_model
 from bouncelike.sampling.driver import SamplerSettings, run_sampler
-from bouncelike.sampling.parametric import model_prior, parametric_model
 from bouncelike.sampling.posterior import ModelPosterior
-from bouncelike.sampling.priors import SHIPPED_PRIORS, prior_from_text
+from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior, prior_from_text
 from bouncelike.spectra.summary import summarize
 
 
@@ -50,17 +50,17 @@ phidot_sign = 1
 prescription = "dressed_metric"
 state = "remote_past"
 [reheating]
-n_star = 55.0
+N_star = 55.0
 """
 
 
 @pytest.fixture(scope="module")
 def model():
-    return parametric_model("bounce_physical_dressed_metric")
+    return forward_model("bounce_physical_dressed_metric")
 
 
 def test_reproduces_full_forward_model_at_the_pivot(tmp_path, model):
-    from bouncelike.perturbations.forward import run_from_config
+    from bouncelike.models.bounce import run_from_config
 
     derived = model.derived(POINT)
     assert derived["certified"] == 1.0
@@ -68,7 +68,7 @@ def test_reproduces_full_forward_model_at_the_pivot(tmp_path, model):
     cfg = tmp_path / "full.toml"
     cfg.write_text(FULL)
     config = load_run_config(cfg)
-    from bouncelike.models import spectra_from_config
+    from bouncelike.models.registry import spectra_from_config
 
     full = summarize(spectra_from_config(config), 0.05)
     # the full forward model (background + exact mode integration; what `bouncelike score`
@@ -103,9 +103,7 @@ def test_failing_backgrounds_give_minus_infinity_with_counted_reasons(tmp_path, 
     text = (SHIPPED_PRIORS / "bounce_dressed_metric_physical.toml").read_text()
     # widen the potential fraction down to bounces that inflate for fewer e-folds than N_*
     text = text.replace("min = -11.75", "min = -12.6")
-    prior = prior_from_text(text, model_parameters=model.parameter_names,
-                            derived_parameters=model.derived_names,
-                            optional_parameters=model.optional_parameter_names)
+    prior = prior_from_text(text, model=model)
     lk = GaussianLikelihood.from_names(["planck2018_base", "bk18"])
     post = ModelPosterior(prior, model, lk)
     bad = np.array([-12.5, 1.28e-6, 57.0])
@@ -118,9 +116,7 @@ def test_failing_backgrounds_give_minus_infinity_with_counted_reasons(tmp_path, 
     # counted by the driver: a short run from walkers spread over the widened prior
     start = text.replace("walkers_centre = -11.45\nwalkers_spread = 0.05",
                          "walkers_centre = -11.9\nwalkers_spread = 0.3")
-    prior2 = prior_from_text(start, model_parameters=model.parameter_names,
-                             derived_parameters=model.derived_names,
-                             optional_parameters=model.optional_parameter_names)
+    prior2 = prior_from_text(start, model=model)
     settings = SamplerSettings(walkers=8, max_steps=6, min_steps=6, checkpoint_every=6, seed=3)
     r = run_sampler(ModelPosterior(prior2, model, lk), settings, tmp_path / "run",
                     show_progress=False)
@@ -131,7 +127,7 @@ def test_failing_backgrounds_give_minus_infinity_with_counted_reasons(tmp_path, 
 def test_phase_prior_drives_the_inflationary_efolds(model):
     # the shipped prior whose N_inflation carries the contracting-branch phase prior
     # (Linsefors & Barrau, Phys. Rev. D 87 (2013) 123509: ~140-145 e-folds for m = 1.21e-6)
-    prior = model_prior(model, SHIPPED_PRIORS / "bounce_dressed_metric_phase.toml")
+    prior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric_phase.toml", model)
     p = prior.get("N_inflation")
     assert p.distribution == "efolds_from_phase"
     grid = np.linspace(p.lower, p.upper, 201)
@@ -183,7 +179,7 @@ def test_sample_and_report_end_to_end(tmp_path, capsys):
     # N_* and a reheating equation of state together
     (lambda t: t.replace("[parameters.critical_density]", "[parameters.equation_of_state]\n"
                          "role = \"fixed\"\nvalue = 0.0\n\n[parameters.critical_density]"),
-     "needs [parameters.N_star], or both"),
+     "needs 'N_star', or both"),
 ])
 def test_bad_physical_priors_exit_2_and_write_nothing(tmp_path, capsys, edit, message):
     text = edit((SHIPPED_PRIORS / "bounce_dressed_metric_physical.toml").read_text())
@@ -203,7 +199,7 @@ def test_process_pool_gives_the_serial_chain(tmp_path, model):
     from bouncelike.parallel import ProcessPool
     from bouncelike.sampling.posterior import install_posterior
 
-    prior = model_prior(model, SHIPPED_PRIORS / "bounce_dressed_metric_phase.toml")
+    prior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric_phase.toml", model)
     post = ModelPosterior(prior, model, GaussianLikelihood.from_names(["planck2018_base"]))
     settings = SamplerSettings(walkers=8, max_steps=5, min_steps=5, checkpoint_every=5, seed=4,
                                prior_survey_draws=16)

@@ -139,7 +139,7 @@ def test_workers_zero_and_report_on_non_run(tmp_path, capsys, monkeypatch):
 
 
 def test_shipped_priors_load():
-    from bouncelike.sampling.parametric import PARAMETRIC_MODELS, model_prior, parametric_model
+    from bouncelike.models.registry import forward_model, samplable_models
     from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior
 
     names = sorted(p.stem for p in SHIPPED_PRIORS.glob("*.toml"))
@@ -151,9 +151,9 @@ def test_shipped_priors_load():
                      "quadratic_slow_roll", "starobinsky_slow_roll"]
     for n in names:
         prior = load_prior(SHIPPED_PRIORS / f"{n}.toml")
-        assert prior.model in PARAMETRIC_MODELS, n
-        model = parametric_model(prior.model)
-        full = model_prior(model, SHIPPED_PRIORS / f"{n}.toml")
+        assert prior.model in samplable_models(), n
+        model = forward_model(prior.model, sampled=True)
+        full = load_prior(SHIPPED_PRIORS / f"{n}.toml", model)
         assert set(full.sampled_names) <= set(model.parameter_names), n
 
 

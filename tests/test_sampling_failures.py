@@ -10,6 +10,7 @@ from sampling_targets import gaussian_prior
 
 from bouncelike.errors import InputError, NotEvaluable, NumericalFailure
 from bouncelike.likelihood.gaussian import GaussianLikelihood
+from bouncelike.models.registry import forward_model
 from bouncelike.sampling import chains
 from bouncelike.sampling.driver import SamplerSettings, run_sampler
 from bouncelike.sampling.failures import (
@@ -19,7 +20,6 @@ from bouncelike.sampling.failures import (
     NUMERICAL_FAILURE,
     load_failures,
 )
-from bouncelike.sampling.parametric import parametric_model
 from bouncelike.sampling.posterior import ModelPosterior, Posterior
 from bouncelike.sampling.priors import SHIPPED_PRIORS, ParameterPrior, Prior, load_prior
 
@@ -65,7 +65,7 @@ def test_kinds_and_reasons_of_failed_evaluations(how, kind, reason):
 
 def test_model_error_from_inside_the_package_names_what_and_where():
     # exp(1000) overflows in the power law's derived amplitude A_s = 1e-10 exp(ln(1e10 A_s))
-    model = parametric_model("power_law")
+    model = forward_model("power_law")
     prior = Prior("power_law", "wide", (
         ParameterPrior("ln_1e10_As", "sampled", "ln", "uniform", 2.0, 2000.0),
         ParameterPrior("n_s", "sampled", "n_s", "uniform", 0.9, 1.0),
@@ -77,7 +77,7 @@ def test_model_error_from_inside_the_package_names_what_and_where():
     failure = post(np.array([1000.0, 0.96]))[-1]
     assert failure.kind == MODEL_ERROR
     assert failure.reason == ("model error while computing the derived parameters: "
-                              "floating-point overflow in bouncelike/sampling/parametric.py:"
+                              "floating-point overflow in bouncelike/models/powerlaw.py:"
                               "derived")
     assert "OverflowError" in failure.message  # the raw text is kept for diagnosis only
     assert post(np.array([3.0, 0.96]))[-1] is None
@@ -104,9 +104,8 @@ def test_failed_proposals_listed_with_parameters_and_counted(tmp_path):
 def test_fit_quality_check_runs_once_per_evaluation(monkeypatch):
     import bouncelike.spectra.summary as summary
 
-    model = parametric_model("bounce_dressed_metric")
-    prior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric.toml", model.parameter_names,
-                       model.derived_names)
+    model = forward_model("bounce_dressed_metric")
+    prior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric.toml", model)
     lk = GaussianLikelihood.from_names(["planck2018_base", "bk18"])
     theta = np.array([3.044, 0.965, 0.01, -6.0])  # bounce far below the window: smooth
     expected = lk.log_likelihood(model.spectra(prior.full_parameters(theta)))
@@ -122,9 +121,8 @@ def test_fit_quality_check_runs_once_per_evaluation(monkeypatch):
 def test_capped_spectra_are_bounds_not_values(tmp_path):
     # deformed algebra: above k_LQC the Euclidean growth is capped at e^600 (physics notes,
     # section 4); with the bounce scale far below the window the whole window is capped
-    model = parametric_model("bounce_deformed_algebra")
-    prior = load_prior(SHIPPED_PRIORS / "bounce_deformed_algebra.toml", model.parameter_names,
-                       model.derived_names)
+    model = forward_model("bounce_deformed_algebra")
+    prior = load_prior(SHIPPED_PRIORS / "bounce_deformed_algebra.toml", model)
     lk = GaussianLikelihood.from_names(["planck2018_base", "bk18"])
     post = ModelPosterior(prior, model, lk, require_summary_fit=False)
     capped = post(np.array([3.044, 0.965, 0.01, -4.0]))

@@ -1,4 +1,4 @@
-"""Posterior runs of parametric models against published constraint sets, and verdicts."""
+"""Posterior runs of forward models against published constraint sets, and verdicts."""
 
 from __future__ import annotations
 
@@ -13,8 +13,8 @@ import pytest
 from cli_helpers import check_provenance
 
 from bouncelike.cli import main
+from bouncelike.models.registry import forward_model
 from bouncelike.reporting import evidence as V
-from bouncelike.sampling.parametric import parametric_model
 from bouncelike.sampling.priors import ParameterPrior, Prior
 
 
@@ -135,18 +135,6 @@ def test_quadratic_slow_roll_excluded_by_bk18_and_planck(quadratic_report, capsy
     assert "\\begin{tabular}" in (report / "marginals.tex").read_text()
 
 
-def test_slow_roll_formulas():
-    # Encyclopaedia Inflationaris (arXiv:1303.3787): quadratic n_s = 1 - 2/(N+1/2),
-    # r = 8/(N+1/2); Starobinsky n_s = 1 - 2/N, r = 12/N^2. Physics notes: A_s fixes
-    # m ~ 1.2-1.4e-6 m_Pl for N = 50-60.
-    q = parametric_model("slow_roll_quadratic")
-    d = q.derived({"N_star": 55.0, "ln_1e10_As": 3.044})
-    assert d["n_s"] == pytest.approx(1 - 2 / 55.5) and d["r"] == pytest.approx(8 / 55.5)
-    assert 1.2e-6 < d["mass"] < 1.4e-6
-    s = parametric_model("slow_roll_starobinsky").spectra({"N_star": 60.0, "ln_1e10_As": 3.0})
-    assert s.n_s == pytest.approx(1 - 2 / 60) and s.r == pytest.approx(12 / 3600)
-
-
 def test_savage_dickey_and_evidence_against_analytic():
     # Analytic: Gaussian likelihood exp(-x^2/(2 s^2)) with a flat prior on [-L, L] (L >> s):
     # Z = sqrt(2 pi) s / (2 L); the posterior is N(0, s), so the Savage-Dickey ratio at x0
@@ -189,7 +177,7 @@ def test_cli_resume_and_changed_configuration(tmp_path, capsys):
 
 
 def test_bounce_dressed_metric_model_and_short_run(tmp_path, capsys):
-    m = parametric_model("bounce_dressed_metric")
+    m = forward_model("bounce_dressed_metric")
     p = {"ln_1e10_As": math.log(21.0), "n_s": 0.965, "r": 8 / 55.5,
          "log10_k_lqc": math.log10(0.05), "critical_density": 0.40937}
     # Physics notes, section 5 (orientation for m^2 phi^2, m = 1.2e-6, N_* = 55):
@@ -221,9 +209,8 @@ def test_featured_spectrum_not_represented_by_summary_is_not_scored():
     from bouncelike.sampling.posterior import ModelPosterior
     from bouncelike.sampling.priors import SHIPPED_PRIORS, load_prior
 
-    m = parametric_model("bounce_dressed_metric")
-    prior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric.toml", m.parameter_names,
-                       m.derived_names)
+    m = forward_model("bounce_dressed_metric")
+    prior = load_prior(SHIPPED_PRIORS / "bounce_dressed_metric.toml", m)
     lk = GaussianLikelihood.from_names(["planck2018_base", "bk18"])
     theta = np.array([3.044, 0.965, 0.01, -1.0])  # bounce scale inside the window: features
     params = prior.full_parameters(theta)

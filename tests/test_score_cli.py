@@ -108,15 +108,15 @@ BAD = {
     "two amplitudes": (POWER_LAW.replace("n_s =", "A_s = 2e-9\nn_s ="), "A_s"),
     "bad n_t": (POWER_LAW.replace("r = 0.01", 'r = 0.01\nn_t = "free"'), "power_law.n_t"),
     "missing model": (POWER_LAW.replace('[model]\nspectra = "power_law"', ""), "model"),
-    "efolds zero": (
-        '[model]\nspectra = "slow_roll"\n[slow_roll]\npotential = "quadratic"\nefolds = 0\n'
-        "ln_1e10_As = 3.0\n", "slow_roll.efolds"),
-    "wrong scale key": (
-        '[model]\nspectra = "slow_roll"\n[slow_roll]\npotential = "starobinsky"\n'
-        "efolds = 55\nmass = 1e-6\n", "slow_roll.mass"),
-    "unknown potential": (
-        '[model]\nspectra = "slow_roll"\n[slow_roll]\npotential = "hilltop"\nefolds = 55\n'
-        "ln_1e10_As = 3.0\n", "slow_roll.potential"),
+    "N_star zero": (
+        '[model]\nspectra = "slow_roll_quadratic"\n[slow_roll]\nN_star = 0\n'
+        "ln_1e10_As = 3.0\n", "slow_roll.N_star"),
+    "two amplitudes in slow roll": (
+        '[model]\nspectra = "slow_roll_starobinsky"\n[slow_roll]\nN_star = 55\n'
+        "mass = 1e-6\nA_s = 2e-9\n", "exactly one amplitude"),
+    "unknown slow-roll model": (
+        '[model]\nspectra = "slow_roll_hilltop"\n[slow_roll]\nN_star = 55\n'
+        "ln_1e10_As = 3.0\n", "model.spectra"),
     "allow_overlap not boolean": (
         POWER_LAW.replace("[likelihood]", '[likelihood]\nallow_overlap = "yes"'),
         "likelihood.allow_overlap"),

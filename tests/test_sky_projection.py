@@ -109,7 +109,7 @@ def test_grid_doubling_bounce_transfer_model(doubled, log10_k_lqc):
 def featured_tables():
     """The shipped featured example and its k_LQC ~ 1e-3 Mpc^-1 variant (forward model)."""
     from bouncelike.config import Table, read_toml
-    from bouncelike.perturbations.forward import run_from_config
+    from bouncelike.models.bounce import run_from_config
 
     data = read_toml(ROOT / "examples" / "bounce_features_quadratic.toml")
     out = []

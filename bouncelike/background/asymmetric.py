@@ -59,7 +59,9 @@ from typing import Any
 import numpy as np
 from scipy.optimize import brentq
 
+from ..config import names_of
 from ..errors import InputError
+from ..quantities import BARBERO_IMMIRZI
 from ..units import IMMIRZI_DEFAULT
 from ..units import critical_density as lqc_critical_density
 from . import canonical as cn
@@ -111,21 +113,18 @@ class AsymmetricDynamics(cn.CanonicalDynamics):
     gamma: float = IMMIRZI_DEFAULT
 
     NAME = "asymmetric"
-    CONFIG_KEYS = ("gamma",)
+    CONFIG_PARAMETERS = (BARBERO_IMMIRZI,)
+    CONFIG_KEYS = names_of(CONFIG_PARAMETERS)
     #: |H| ~ 0.42 before the bounce, far above the inflaton mass: no oscillation (docstring)
     FIELD_OSCILLATES_BEFORE_BOUNCE = False
 
     def __post_init__(self) -> None:
         check_critical_density(self.critical_density)
-        if not (0 < self.gamma < 10):
-            raise InputError(
-                f"'background.asymmetric.gamma' = {self.gamma!r}; allowed: > 0 and < 10"
-            )
+        BARBERO_IMMIRZI.check(self.gamma, "background.asymmetric.gamma")
 
     @classmethod
     def from_config(cls, table: Any, critical_density: float) -> AsymmetricDynamics:
-        return cls(critical_density, table.number("gamma", IMMIRZI_DEFAULT, minimum=0.0,
-                                                   exclusive_minimum=True, maximum=10.0))
+        return cls(critical_density, BARBERO_IMMIRZI.read(table))
 
     @property
     def maximum_density(self) -> float:

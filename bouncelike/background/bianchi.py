@@ -68,6 +68,7 @@ from typing import Any
 
 import numpy as np
 
+from ..config import Parameter, names_of, read_parameters
 from ..errors import InputError
 from ..units import critical_density as lqc_critical_density
 from . import canonical as cn
@@ -80,6 +81,15 @@ from .systems import SYS_BIANCHI
 #: the initial surface is classical: rho_0 + rho_sigma below this fraction of rho_c
 CLASSICAL_FRACTION = 1e-2
 
+#: the keys of [background.bianchi_i], declared once (their upper bounds depend on rho_c)
+SHEAR_RATIO = Parameter("shear_ratio", "rho_sigma / rho on the reference surface", "", 0.0,
+                        None, default=0.0, why="a shear energy density is not negative")
+DIRECTION = Parameter("direction", "direction of the shear in the (beta_+, beta_-) plane",
+                      "degrees", default=0.0)
+REFERENCE_DENSITY = Parameter("reference_density", "density of the surface where shear_ratio "
+                              "is given", "Planck density", 0.0, None, lower_open=True,
+                              default=1e-16, why="a classical contracting branch")
+
 
 @dataclass(frozen=True)
 class BianchiIDynamics(cn.CanonicalDynamics):
@@ -91,37 +101,25 @@ class BianchiIDynamics(cn.CanonicalDynamics):
     reference_density: float = 1e-16
 
     NAME = "bianchi_i"
-    CONFIG_KEYS = ("shear_ratio", "direction", "reference_density")
+    CONFIG_PARAMETERS = (SHEAR_RATIO, DIRECTION, REFERENCE_DENSITY)
+    CONFIG_KEYS = names_of(CONFIG_PARAMETERS)
 
     def __post_init__(self) -> None:
         check_critical_density(self.critical_density)
-        if not (0 < self.reference_density < CLASSICAL_FRACTION * self.critical_density):
-            raise InputError(
-                f"'background.bianchi_i.reference_density' = {self.reference_density!r}; "
-                f"allowed: > 0 and < {CLASSICAL_FRACTION * self.critical_density:g} (1% of "
-                "rho_c: a classical surface)"
-            )
-        top = CLASSICAL_FRACTION * self.critical_density / self.reference_density
-        if not (math.isfinite(self.shear_ratio) and 0 <= self.shear_ratio < top):
-            raise InputError(
-                f"'background.bianchi_i.shear_ratio' = {self.shear_ratio!r} is out of range; "
-                f"allowed: >= 0 and < {top:.3g} (the shear density rho_sigma = shear_ratio x "
-                "reference_density on the reference surface must stay below 1% of rho_c: a "
-                "classical contracting branch)"
-            )
-        if not math.isfinite(self.direction):
-            raise InputError(
-                f"'background.bianchi_i.direction' = {self.direction!r}; allowed: finite degrees"
-            )
+        ceiling = CLASSICAL_FRACTION * self.critical_density
+        REFERENCE_DENSITY.check(self.reference_density, "background.bianchi_i.reference_density",
+                                upper=ceiling, reason="1% of rho_c: a classical surface")
+        SHEAR_RATIO.check(self.shear_ratio, "background.bianchi_i.shear_ratio",
+                          upper=ceiling / self.reference_density,
+                          reason="the shear density rho_sigma = shear_ratio x reference_density "
+                          "on the reference surface must stay below 1% of rho_c: a classical "
+                          "contracting branch")
+        DIRECTION.check(self.direction, "background.bianchi_i.direction")
 
     @classmethod
     def from_config(cls, table: Any, critical_density: float) -> BianchiIDynamics:
-        return cls(
-            critical_density=critical_density,
-            shear_ratio=table.number("shear_ratio", 0.0, minimum=0.0),
-            direction=table.number("direction", 0.0),
-            reference_density=table.positive("reference_density", 1e-16),
-        )
+        return cls(critical_density=critical_density,
+                   **read_parameters(table, cls.CONFIG_PARAMETERS))
 
     @property
     def gamma_lambda(self) -> float:

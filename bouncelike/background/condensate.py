@@ -42,6 +42,7 @@ from typing import Any
 
 import numpy as np
 
+from ..config import Parameter, names_of, read_parameters
 from ..errors import InputError
 from . import canonical as cn
 from . import engine
@@ -50,6 +51,14 @@ from .isotropic import IsotropicDynamics
 from .limits import check_critical_density, check_potential_fraction
 from .result import BackgroundTrajectory, RunSummary
 from .systems import SYS_LOOP
+
+#: the keys of [background.condensate], declared once
+RESCALE = Parameter("rescale", "critical density of the condensate bounce in units of rho_c",
+                    "", 0.0, None, lower_open=True, default=1.0,
+                    why="a positive density; the product with rho_c is checked too")
+CONDENSATE_TERM = Parameter("condensate_term", "the condensate term q of the effective "
+                            "Friedmann equation (module docstring)", "", 0.0, None, default=0.0,
+                            why="q >= 0 in the condensate cosmology")
 
 
 def bounce_field(potential: Any, density: float, fraction: float, sign: int,
@@ -75,27 +84,20 @@ class CondensateDynamics(cn.CanonicalDynamics):
     canonical: bool = False  # the loop system in its own variables even without the extra term
 
     NAME = "condensate"
-    CONFIG_KEYS = ("rescale", "condensate_term")
+    CONFIG_PARAMETERS = (RESCALE, CONDENSATE_TERM)
+    CONFIG_KEYS = names_of(CONFIG_PARAMETERS)
 
     def __post_init__(self) -> None:
         check_critical_density(self.critical_density)
-        if not (self.rescale > 0 and math.isfinite(self.rescale)):
-            raise InputError(f"'background.condensate.rescale' = {self.rescale!r}; allowed: > 0")
+        RESCALE.check(self.rescale, "background.condensate.rescale")
         check_critical_density(self.rescale * self.critical_density,
                                "background.condensate.rescale x background.critical_density")
-        if not (self.condensate_term >= 0 and math.isfinite(self.condensate_term)):
-            raise InputError(
-                f"'background.condensate.condensate_term' = {self.condensate_term!r}; "
-                "allowed: >= 0"
-            )
+        CONDENSATE_TERM.check(self.condensate_term, "background.condensate.condensate_term")
 
     @classmethod
     def from_config(cls, table: Any, critical_density: float) -> CondensateDynamics:
-        return cls(
-            critical_density=critical_density,
-            rescale=table.positive("rescale", 1.0),
-            condensate_term=table.number("condensate_term", 0.0, minimum=0.0),
-        )
+        return cls(critical_density=critical_density,
+                   **read_parameters(table, cls.CONFIG_PARAMETERS))
 
     @property
     def effective_critical_density(self) -> float:

@@ -3,7 +3,8 @@
 A dynamics is a small immutable object with
 
 * ``NAME``: its registry name;
-* ``CONFIG_KEYS``: the keys allowed in its own sub-table ``[background.<NAME>]``;
+* ``CONFIG_PARAMETERS``: the declarations (:class:`bouncelike.config.Parameter`) of the keys of
+  its own sub-table ``[background.<NAME>]``, and ``CONFIG_KEYS``, their names;
 * ``from_config(table, critical_density)`` (classmethod): build it from that sub-table
   (:class:`bouncelike.config.Table`) and the critical density set in ``[background]``;
 * ``evolve(potential, initial, settings) -> BackgroundTrajectory``: evolve one initial datum
@@ -20,17 +21,43 @@ Modules are imported lazily so that ``bouncelike --help`` stays fast.
 
 from __future__ import annotations
 
-import importlib
+from collections.abc import Callable
 from typing import Any
 
 from ..errors import InputError
 
-#: name -> "module:Class" inside bouncelike.background
-DYNAMICS_REGISTRY: dict[str, str] = {
-    "isotropic": "isotropic:IsotropicDynamics",
-    "condensate": "condensate:CondensateDynamics",
-    "bianchi_i": "bianchi:BianchiIDynamics",
-    "asymmetric": "asymmetric:AsymmetricDynamics",
+
+def _isotropic() -> Any:
+    from .isotropic import IsotropicDynamics
+
+    return IsotropicDynamics
+
+
+def _condensate() -> Any:
+    from .condensate import CondensateDynamics
+
+    return CondensateDynamics
+
+
+def _bianchi_i() -> Any:
+    from .bianchi import BianchiIDynamics
+
+    return BianchiIDynamics
+
+
+def _asymmetric() -> Any:
+    from .asymmetric import AsymmetricDynamics
+
+    return AsymmetricDynamics
+
+
+#: name -> loader of the class (plain imports, done on first use: a configuration selects a
+#: name from this fixed table and never names a module)
+DYNAMICS_REGISTRY: dict[str, Callable[[], Any]] = {
+    "isotropic": _isotropic,
+    "condensate": _condensate,
+    "bianchi_i": _bianchi_i,
+    "asymmetric": _asymmetric,
 }
 
 
@@ -41,5 +68,4 @@ def dynamics_class(name: str) -> Any:
             f"'background.dynamics' = '{name}' is not known; allowed: "
             + ", ".join(sorted(DYNAMICS_REGISTRY))
         )
-    module, cls = DYNAMICS_REGISTRY[name].split(":")
-    return getattr(importlib.import_module(f"{__package__}.{module}"), cls)
+    return DYNAMICS_REGISTRY[name]()

@@ -7,10 +7,11 @@ with the oscillation phase delta drawn flat on [0, 2 pi) (physics notes, section
 Barrau, Phys. Rev. D 87 (2013) 123509). The phase is the energy angle of
 :class:`~bouncelike.background.initial.ContractingStart`. Two prescriptions for rho_0:
 
-* ``decades = 0``: one fixed surface rho_0 = ``density``. Because the density grows in a
+* ``decades = 0``: one fixed surface rho_0 = ``start_density``. Because the density grows in a
   staircase over each oscillation, "flat in delta" on one surface is not flat on another, and the
   distribution is spiky with a position that wanders by several e-folds as rho_0 moves.
-* ``decades > 0`` (default, 2): rho_0 log-uniform over ``decades`` decades below ``density``
+* ``decades > 0`` (default, 2): rho_0 log-uniform over ``start_density_decades`` decades below
+  ``start_density``
   (default 1e-16, where H/m ~ 0.024 for m = 1.21e-6: the field oscillates many times per Hubble
   time throughout). This smears the staircase and gives a smooth distribution.
 
@@ -58,6 +59,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..progress import progress as progress_bar
+from ..quantities import POTENTIAL_FRACTION, START_DENSITY, START_DENSITY_DECADES
 from ..units import critical_density as default_critical_density
 from .initial import BounceStart, ContractingStart, IntegrationSettings
 from .result import STATUSES
@@ -83,10 +85,11 @@ class PhasePrior:
 
     def __post_init__(self) -> None:
         if not (math.isfinite(self.density) and 0 < self.density):
-            raise InputError(f"'efolds.density' = {self.density!r} is out of range; allowed: > 0")
+            raise InputError(f"'efolds.start_density' = {self.density!r} is out of range; "
+                             "allowed: > 0")
         if not (math.isfinite(self.decades) and 0 <= self.decades <= 10):
             raise InputError(
-                f"'efolds.density_decades' = {self.decades!r} is out of range; "
+                f"'efolds.start_density_decades' = {self.decades!r} is out of range; "
                 "allowed: >= 0 and <= 10"
             )
 
@@ -94,14 +97,15 @@ class PhasePrior:
         phase = rng.uniform(0.0, 2.0 * math.pi, n)
         position = rng.uniform(0.0, 1.0, n)
         return {"phase": phase, "position": position,
-                "density": self.density * 10.0 ** (-self.decades * position)}
+                "start_density": self.density * 10.0 ** (-self.decades * position)}
 
     def initial(self, draws: dict[str, np.ndarray], i: int, shift: float = 0.0) -> Any:
-        return ContractingStart(float(draws["density"][i] * 10.0**-shift),
+        return ContractingStart(float(draws["start_density"][i] * 10.0**-shift),
                                 float(draws["phase"][i]))
 
     def describe(self) -> dict[str, Any]:
-        return {"name": self.name, "density": self.density, "density_decades": self.decades,
+        return {"name": self.name, "start_density": self.density,
+                "start_density_decades": self.decades,
                 "window": [self.density * 10.0**-self.decades, self.density],
                 "prescription": "fixed surface" if self.decades == 0 else "log-uniform smearing"}
 
@@ -341,10 +345,11 @@ def efolds_distribution(
         ratio = hubble_to_frequency(potential, lowest)
         if math.isfinite(ratio) and ratio > 0 and 1.0 / (3.0 * math.pi * ratio) > MAX_OSCILLATIONS:
             raise InputError(
-                f"'efolds.density' = {prior.density:g}: at rho_0 = {lowest:.3g} the field would "
-                f"oscillate about {1.0 / (3.0 * math.pi * ratio):.2g} times before the bounce "
-                f"(H/omega = {ratio:.2g}); raise 'efolds.density' (H/omega of 0.01-0.03 at the "
-                "top of the window is enough) or narrow 'efolds.density_decades'"
+                f"'efolds.start_density' = {prior.density:g}: at rho_0 = {lowest:.3g} the field "
+                f"would oscillate about {1.0 / (3.0 * math.pi * ratio):.2g} times before the "
+                f"bounce (H/omega = {ratio:.2g}); raise 'efolds.start_density' (H/omega of "
+                "0.01-0.03 at the top of the window is enough) or narrow "
+                "'efolds.start_density_decades'"
             )
     rng = np.random.default_rng(seed)
     draws = prior.draw(rng, int(n_samples))
@@ -425,22 +430,39 @@ def efolds_distribution(
     )
 
 
-def prior_from_config(table: Any) -> Any:
-    """Prior from the ``[efolds]`` table (keys prior, density, density_decades, fraction_*)."""
+def start_density_ceiling(dynamics: Any) -> float | None:
+    """The critical density the contracting branch must start below (the effective one of a
+    dynamics that rescales it; None when the dynamics has none)."""
+    rho_c = getattr(dynamics, "effective_critical_density",
+                    getattr(dynamics, "critical_density", None))
+    return float(rho_c) if rho_c is not None else None
+
+
+def prior_from_config(table: Any, critical_density: float | None = None) -> Any:
+    """Prior from the ``[efolds]`` table (keys prior, start_density, start_density_decades,
+    fraction_*); with ``critical_density``, the start density must lie below it."""
     name = table.string("prior", "phase", choices=("phase", "bounce_fraction"))
     if name == "phase":
         for key in ("fraction_min", "fraction_max", "fraction_scale"):
             if key in table:
-                raise InputError(f"'efolds.{key}' applies only to prior = 'bounce_fraction'")
+                raise InputError(f"'{table.key(key)}' applies only to prior = 'bounce_fraction'")
         return PhasePrior(
-            table.positive("density", 1e-16),
-            table.number("density_decades", 2.0, minimum=0.0, maximum=10.0),
+            START_DENSITY.read(table, upper=critical_density,
+                               reason=f"the contracting branch starts below the critical "
+                               f"density rho_c = {critical_density:.5g}"
+                               if critical_density is not None else ""),
+            START_DENSITY_DECADES.read(table),
         )
-    for key in ("density", "density_decades"):
+    for key in ("start_density", "start_density_decades"):
         if key in table:
-            raise InputError(f"'efolds.{key}' applies only to prior = 'phase'")
+            raise InputError(f"'{table.key(key)}' applies only to prior = 'phase'")
+
+    def fraction(key: str, default: float) -> float:
+        if key not in table:
+            return default
+        return POTENTIAL_FRACTION.check(table.raw(key), table.key(key))
+
     return BounceFractionPrior(
-        table.number("fraction_min", 1e-13, minimum=0.0, maximum=1.0),
-        table.number("fraction_max", 1e-9, minimum=0.0, maximum=1.0),
+        fraction("fraction_min", 1e-13), fraction("fraction_max", 1e-9),
         table.string("fraction_scale", "log", choices=("log", "linear")),
     )

@@ -105,6 +105,7 @@ class IsotropicDynamics:
     """
 
     NAME = "isotropic"
+    CONFIG_PARAMETERS: tuple = ()
     CONFIG_KEYS: tuple[str, ...] = ()
 
     def __init__(self, critical_density: float | None = None):

@@ -15,40 +15,25 @@
 
 from __future__ import annotations
 
-import math
+from ..quantities import CRITICAL_DENSITY, POTENTIAL_FRACTION, QUADRATIC_MASS
 
-from ..errors import InputError
-
-CRITICAL_DENSITY_RANGE = (1e-10, 1e6)
-MAXIMUM_MASS = 0.1
+#: the declared ranges (:mod:`bouncelike.quantities`, one declaration per quantity)
+CRITICAL_DENSITY_RANGE = (CRITICAL_DENSITY.lower, CRITICAL_DENSITY.upper)
+MAXIMUM_MASS = QUADRATIC_MASS.upper
 
 
 def check_critical_density(value: float, key: str = "background.critical_density") -> float:
-    """``value`` if it lies in :data:`CRITICAL_DENSITY_RANGE`, else an InputError naming ``key``."""
-    lo, hi = CRITICAL_DENSITY_RANGE
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"'{key}' = {value!r} is not a number") from None
-    if not (math.isfinite(value) and lo <= value <= hi):
-        raise InputError(f"'{key}' = {value!r} is out of range; allowed: {lo:g} <= rho_c <= "
-                         f"{hi:g} (Planck units; effective bounces near the Planck density)")
-    return value
+    """``value`` if it lies in the declared range, else an InputError naming ``key``."""
+    return CRITICAL_DENSITY.check(value, key)
 
 
 def check_mass(value: float, key: str = "potential.mass", zero: bool = True) -> float:
     """An inflaton mass in [0, 0.1] m_Pl ((0, 0.1] without ``zero``)."""
-    ok = math.isfinite(value) and (value >= 0 if zero else value > 0) and value <= MAXIMUM_MASS
-    if not ok:
-        low = ">= 0" if zero else "> 0"
-        raise InputError(f"'{key}' = {value!r} is out of range; allowed: {low} and <= "
-                         f"{MAXIMUM_MASS:g} (m_Pl units; an inflaton far below the Planck mass)")
-    return value
+    return QUADRATIC_MASS.check(value, key, lower=None if zero else 0.0,
+                                reason="" if zero else "a massless field never inflates")
 
 
 def check_potential_fraction(value: float,
                              key: str = "background.bounce.potential_fraction") -> float:
-    if not (math.isfinite(value) and 0.0 <= value <= 1.0):
-        raise InputError(f"'{key}' = {value!r} is out of range; allowed: >= 0 and <= 1 "
-                         "(V(phi_B)/rho_c at the bounce)")
-    return value
+    """V(phi_B)/rho_c at the bounce, in [0, 1]."""
+    return POTENTIAL_FRACTION.check(value, key)

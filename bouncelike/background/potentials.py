@@ -46,10 +46,24 @@ from typing import Any, ClassVar
 
 import numpy as np
 
-from ..config import Table
+from ..config import Parameter, Table, check_parameters, names_of, read_parameters
 from ..errors import InputError
+from ..quantities import QUADRATIC_MASS, STAROBINSKY_MASS
 from ..units import REDUCED_PLANCK_MASS
 from .limits import check_mass
+
+#: parameters of the monomial and linear potentials (declared once; module docstring)
+AMPLITUDE = Parameter("amplitude", "lambda of V = lambda |phi|^p", "Planck units", 0.0, None,
+                      lower_open=True, why="a potential that rises away from phi = 0")
+POWER = Parameter("power", "power p of V = lambda |phi|^p", "", 0.0, 10.0, lower_open=True,
+                  why="the flattened family p = 2/3, 1, 4/3 up to steep monomials; p > 10 has "
+                  "no slow roll to speak of")
+SLOPE = Parameter("slope", "lambda of V = lambda |phi|", "Planck units", 0.0, None,
+                  lower_open=True, why="a potential that rises away from phi = 0")
+SMOOTHING = Parameter("smoothing", "smoothing scale s at phi = 0 (module docstring)", "m_Pl",
+                      0.0, 1e-2, lower_open=True, upper_open=True,
+                      why="far below the field amplitudes of the contracting branch",
+                      default=1e-10)
 
 #: kernel codes understood by the compiled integrator
 KERNEL_QUADRATIC, KERNEL_STAROBINSKY, KERNEL_MONOMIAL, KERNEL_PYTHON = 0, 1, 2, 3
@@ -68,7 +82,7 @@ class Quadratic:
 
     mass: float
     name: ClassVar[str] = "quadratic"
-    PARAMETERS: ClassVar[tuple[str, ...]] = ("mass",)
+    PARAMETERS: ClassVar[tuple[Parameter, ...]] = (QUADRATIC_MASS,)
 
     def __post_init__(self) -> None:
         check_mass(self.mass)
@@ -103,7 +117,7 @@ class Starobinsky:
 
     mass: float
     name: ClassVar[str] = "starobinsky"
-    PARAMETERS: ClassVar[tuple[str, ...]] = ("mass",)
+    PARAMETERS: ClassVar[tuple[Parameter, ...]] = (STAROBINSKY_MASS,)
 
     def __post_init__(self) -> None:
         check_mass(self.mass, zero=False)
@@ -155,19 +169,10 @@ class Monomial:
     power: float
     smoothing: float = 1e-10
     name: ClassVar[str] = "monomial"
-    PARAMETERS: ClassVar[tuple[str, ...]] = ("amplitude", "power", "smoothing")
+    PARAMETERS: ClassVar[tuple[Parameter, ...]] = (AMPLITUDE, POWER, SMOOTHING)
 
     def __post_init__(self) -> None:
-        checks = (
-            ("amplitude", self.amplitude, self.amplitude > 0, "> 0"),
-            ("power", self.power, 0 < self.power <= 10, "> 0 and <= 10"),
-            ("smoothing", self.smoothing, 0 < self.smoothing < 1e-2, "> 0 and < 0.01"),
-        )
-        for key, value, ok, allowed in checks:
-            if not (math.isfinite(value) and ok):
-                raise InputError(
-                    f"'potential.{key}' = {value!r} is out of range; allowed: {allowed}"
-                )
+        check_parameters(self.parameters, self.PARAMETERS, "potential")
 
     @property
     def parameters(self) -> dict[str, float]:
@@ -209,11 +214,10 @@ class Linear(Monomial):
     slope: float = 1e-12
     smoothing: float = 1e-10
     name: ClassVar[str] = "linear"
-    PARAMETERS: ClassVar[tuple[str, ...]] = ("slope", "smoothing")
+    PARAMETERS: ClassVar[tuple[Parameter, ...]] = (SLOPE, SMOOTHING)
 
     def __post_init__(self) -> None:
-        if not (math.isfinite(self.slope) and self.slope > 0):
-            raise InputError(f"'potential.slope' = {self.slope!r} is out of range; allowed: > 0")
+        SLOPE.check(self.slope, "potential.slope")
         object.__setattr__(self, "amplitude", self.slope)
         object.__setattr__(self, "power", 1.0)
         super().__post_init__()
@@ -282,7 +286,9 @@ class RegisteredPotential:
     def build(self, table: Table) -> CustomPotential:
         values = []
         for key, (lo, hi) in self.parameters:
-            values.append((key, table.number(key, minimum=lo, maximum=hi)))
+            declared = Parameter(key, f"parameter of the registered potential '{self.name}'",
+                                 lower=lo, upper=hi, why=f"declared by {self.origin}")
+            values.append((key, declared.read(table)))
         try:
             target = self.factory(**dict(values))
         except (TypeError, ValueError, ArithmeticError) as exc:
@@ -397,20 +403,5 @@ def potential_from_config(config: Table) -> Any:
         table = Table(raw, "potential", ("name",) + tuple(k for k, _ in reg.parameters))
         return reg.build(table)
     cls = POTENTIALS[name]
-    table = Table(raw, "potential", ("name",) + cls.PARAMETERS)
-    if name == "quadratic":
-        return Quadratic(table.number("mass", minimum=0.0))
-    if name == "starobinsky":
-        return Starobinsky(table.positive("mass"))
-    if name == "monomial":
-        return Monomial(
-            table.positive("amplitude"),
-            table.number("power", minimum=0.0, maximum=10.0, exclusive_minimum=True),
-            table.number("smoothing", 1e-10, minimum=0.0, maximum=1e-2,
-                         exclusive_minimum=True, exclusive_maximum=True),
-        )
-    return Linear(
-        slope=table.positive("slope"),
-        smoothing=table.number("smoothing", 1e-10, minimum=0.0, maximum=1e-2,
-                               exclusive_minimum=True, exclusive_maximum=True),
-    )
+    table = Table(raw, "potential", ("name",) + names_of(cls.PARAMETERS))
+    return cls(**read_parameters(table, cls.PARAMETERS))

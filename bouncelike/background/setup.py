@@ -13,7 +13,7 @@ Configuration (all keys optional except the potential and the chosen start's req
     start = "contracting"          # contracting | bounce | classical
 
     [background.contracting]
-    density = 1e-16                # rho_0 (Planck units), must be < rho_c
+    start_density = 1e-16          # rho_0 (Planck units), must be < rho_c
     phase = 0.0                    # delta (radians): energy angle of the oscillation
 
     [background.bounce]
@@ -47,7 +47,7 @@ from typing import Any
 
 from ..config import Table
 from ..errors import InputError
-from ..units import IMMIRZI_DEFAULT
+from ..quantities import BARBERO_IMMIRZI, CRITICAL_DENSITY, POTENTIAL_FRACTION, START_DENSITY
 from ..units import critical_density as critical_density_from_gamma
 from .dynamics import DYNAMICS_REGISTRY, dynamics_class
 from .initial import BounceStart, ClassicalStart, ContractingStart, IntegrationSettings
@@ -91,10 +91,9 @@ def critical_density_from_config(table: Table) -> float:
             "give either 'background.gamma' or 'background.critical_density', not both"
         )
     if "critical_density" in table:
-        return table.positive("critical_density")
-    gamma = table.number("gamma", IMMIRZI_DEFAULT, minimum=0.0, maximum=100.0,
-                         exclusive_minimum=True)
-    return critical_density_from_gamma(gamma)
+        return CRITICAL_DENSITY.read(table)
+    return CRITICAL_DENSITY.check(critical_density_from_gamma(BARBERO_IMMIRZI.read(table)),
+                                  table.key("gamma") + " -> rho_c")
 
 
 def settings_from_config(table: Table) -> IntegrationSettings:
@@ -117,9 +116,10 @@ def settings_from_config(table: Table) -> IntegrationSettings:
 def initial_from_config(table: Table, start: str, critical_density: float) -> Any:
     """The initial datum of the chosen ``start`` from its sub-table."""
     if start == "contracting":
-        sub = table.table("contracting", ("density", "phase"))
-        density = sub.number("density", 1e-16, minimum=0.0, maximum=critical_density,
-                             exclusive_minimum=True, exclusive_maximum=True)
+        sub = table.table("contracting", ("start_density", "phase"))
+        density = START_DENSITY.read(sub, upper=critical_density,
+                                     reason="the contracting branch starts below the critical "
+                                     f"density rho_c = {critical_density:.5g}")
         return ContractingStart(density, sub.number("phase", 0.0))
     if start == "bounce":
         sub = table.table("bounce", ("potential_fraction", "phidot_sign", "field_sign"))
@@ -131,8 +131,7 @@ def initial_from_config(table: Table, start: str, critical_density: float) -> An
         if side not in (-1, 0, 1):
             raise InputError(f"'background.bounce.field_sign' = {side} is not allowed; "
                              "allowed: 1, -1, 0 (the sign of phidot)")
-        return BounceStart(sub.number("potential_fraction", minimum=0.0, maximum=1.0), sign,
-                           side)
+        return BounceStart(POTENTIAL_FRACTION.read(sub), sign, side)
     sub = table.table("classical", ("phi", "phidot"))
     return ClassicalStart(sub.number("phi"), sub.number("phidot", 0.0))
 

@@ -31,6 +31,7 @@ from scipy.interpolate import CubicSpline
 from scipy.optimize import brentq
 
 from ..errors import InputError, NumericalFailure
+from ..quantities import bounce_scale
 from . import engine, problem
 from .initial import IntegrationSettings
 from .systems import SYS_ISOTROPIC
@@ -130,8 +131,7 @@ class BackgroundTable:
     def k_lqc(self) -> float:
         """k_LQC = sqrt(a''/a) at the bounce = a_B sqrt(8 pi (rho_c - V_B)) (physics notes s.4)."""
         i = self.bounce_index()
-        return float(math.exp(self.ln_a[i]) * math.sqrt(8 * math.pi * (self.critical_density
-                                                                         - self.V[i])))
+        return bounce_scale(self.critical_density, float(self.V[i]), math.exp(self.ln_a[i]))
 
     def conformal_time(self) -> np.ndarray:
         """eta(t) - eta(t_0) by integration of dt/a along the table (cubic spline)."""

@@ -14,8 +14,8 @@ the dynamics of ``[background]`` is not used: the cases name theirs) and ``[comp
     bins = 40
     workers = 1               # local processes, 1..256 (MPI ranks under mpiexec)
     prior = "phase"           # prior keys as in [efolds]: phase | bounce_fraction
-    density = 1e-16
-    density_decades = 2.0
+    start_density = 1e-16
+    start_density_decades = 2.0
     cases = [                 # each: label, dynamics, and that dynamics' own keys
       { label = "LQC", dynamics = "isotropic" },
       { label = "condensate rho_c/2", dynamics = "condensate", rescale = 0.5 },
@@ -46,7 +46,7 @@ OPTIONS = Options(config="[potential], [background] and [compare]",
 FILES = {"table": "compare_table.csv", "figure_pdf": "compare.pdf",
          "figure_png": "compare.png", "summary": "compare_summary.json"}
 
-PRIOR_KEYS = ("prior", "density", "density_decades", "fraction_min", "fraction_max",
+PRIOR_KEYS = ("prior", "start_density", "start_density_decades", "fraction_min", "fraction_max",
               "fraction_scale")
 COMPARE_KEYS = ("n_samples", "seed", "threshold", "bins", "workers", "cases", "shear_ratios",
                 "shear_direction") + PRIOR_KEYS
@@ -148,9 +148,18 @@ def make_figure(results: list[tuple[str, Any]], threshold: float, title: str) ->
 
 
 def run(args: Any, session: Any) -> CommandResult:
-    from ..background.efolds import efolds_distribution, prior_from_config
+    from ..background.dynamics import DYNAMICS_REGISTRY
+    from ..background.efolds import (
+        efolds_distribution,
+        prior_from_config,
+        start_density_ceiling,
+    )
     from ..background.potentials import potential_from_config
-    from ..background.setup import critical_density_from_config, settings_from_config
+    from ..background.setup import (
+        BACKGROUND_KEYS,
+        critical_density_from_config,
+        settings_from_config,
+    )
     from ..config import Table
     from ..errors import InputError
     from ..io import (
@@ -166,6 +175,8 @@ def run(args: Any, session: Any) -> CommandResult:
     raw_bg = config.raw("background", {}) or {}
     if not isinstance(raw_bg, dict):
         raise InputError("[background] must be a table of keys")
+    # every key of [background] is checked (the dynamics and start are the cases' business)
+    Table(raw_bg, "background", BACKGROUND_KEYS + tuple(DYNAMICS_REGISTRY))
     bg = Table({k: v for k, v in raw_bg.items() if k in ("gamma", "critical_density",
                                                          "integration")},
                "background", ("gamma", "critical_density", "integration"))
@@ -178,9 +189,10 @@ def run(args: Any, session: Any) -> CommandResult:
     threshold = table.number("threshold", 60.0, minimum=0.0)
     bins = table.integer("bins", 40, minimum=2, maximum=10**4)
     workers = session.workers(table)
-    prior = prior_from_config(Table({k: v for k, v in table.data.items() if k in PRIOR_KEYS},
-                                    "compare", PRIOR_KEYS))
     cases = cases_from_config(table, rho_c)
+    ceilings = [c for c in (start_density_ceiling(d) for _, d in cases) if c is not None]
+    prior = prior_from_config(Table({k: v for k, v in table.data.items() if k in PRIOR_KEYS},
+                                    "compare", PRIOR_KEYS), min(ceilings) if ceilings else None)
     out_dir = session.output_folder(FILES.values())
 
     from .efolds import warm_up

@@ -101,6 +101,7 @@ def run(args: argparse.Namespace, session: Any) -> CommandResult:
 
     from ..io import json_safe, output_set, write_json_atomic, write_text_atomic
     from ..likelihood.gaussian import GaussianLikelihood
+    from ..models.registry import forward_model
     from ..parallel import make_pool
     from ..reporting.evidence import comparison_text, evidence_text
     from ..reporting.goodness import goodness_text
@@ -112,7 +113,6 @@ def run(args: argparse.Namespace, session: Any) -> CommandResult:
     from ..reporting.tables import outcome_text
     from ..sampling.convergence import result_summary
     from ..sampling.driver import run_sampler
-    from ..sampling.parametric import parametric_model
     from ..sampling.posterior import install_posterior
     from ..sampling.priors import resolve_prior_path
     from ..sampling.setup import build_run
@@ -121,7 +121,7 @@ def run(args: argparse.Namespace, session: Any) -> CommandResult:
     out = session.output_folder(("score.json",), default=DEFAULT_OUTPUT)
     say = session.say
     # 1. score one point of the scenario
-    model = parametric_model("slow_roll_starobinsky")
+    model = forward_model("slow_roll_starobinsky")
     likelihood = GaussianLikelihood.from_names(SETS)
     provenance = session.provenance(likelihood.sets)
     point = {"N_star": 55.0, "ln_1e10_As": 3.044}

@@ -8,8 +8,8 @@ Reads ``[potential]``, ``[background]`` (dynamics, critical density, integration
     seed = 0                  # one generator, drawn up front: identical for any worker count
     threshold = 60.0          # e-folds observations need (fraction above is reported)
     prior = "phase"           # phase | bounce_fraction
-    density = 1e-16           # phase prior: top of the rho_0 window (Planck units)
-    density_decades = 2.0     # phase prior: log-uniform width below density (0: fixed surface)
+    start_density = 1e-16     # phase prior: top of the rho_0 window (Planck units), < rho_c
+    start_density_decades = 2.0  # phase prior: log-uniform width below it (0: fixed surface)
     # fraction_min = 1e-13    # bounce_fraction prior: x = V_B / rho_c range
     # fraction_max = 1e-9
     # fraction_scale = "log"  # log | linear
@@ -42,7 +42,8 @@ OPTIONS = Options(config="[potential], [background] and [efolds]",
 FILES = {"samples": "efolds_samples.csv", "figure_pdf": "efolds.pdf",
          "figure_png": "efolds.png", "summary": "efolds_summary.json"}
 
-EFOLDS_KEYS = ("n_samples", "seed", "threshold", "prior", "density", "density_decades",
+EFOLDS_KEYS = ("n_samples", "seed", "threshold", "prior", "start_density",
+               "start_density_decades",
                "fraction_min", "fraction_max", "fraction_scale", "workers", "bins",
                "convergence_samples")
 
@@ -51,7 +52,8 @@ def add_arguments(parser: Any) -> None:
     """No options of its own: CONFIG, --output, --workers, --json, --quiet are shared."""
 
 
-def _options(config: Any, session: Any) -> dict[str, Any]:
+def _options(config: Any, session: Any, critical_density: float | None = None
+             ) -> dict[str, Any]:
     from ..background.efolds import prior_from_config
 
     table = config.table("efolds", EFOLDS_KEYS)
@@ -62,7 +64,7 @@ def _options(config: Any, session: Any) -> dict[str, Any]:
         "workers": session.workers(table),
         "bins": table.integer("bins", 60, minimum=2, maximum=10**4),
         "convergence_samples": table.integer("convergence_samples", 100, minimum=0),
-        "prior": prior_from_config(table),
+        "prior": prior_from_config(table, critical_density),
     }
 
 
@@ -77,7 +79,7 @@ def summary_lines(dist: Any, setup: Any) -> list[str]:
     oscillates = getattr(dist, "field_oscillates", True)
     if prior["name"] == "phase":
         lo, hi = prior["window"]
-        where = (f"rho_0 = {hi:.3g} (fixed surface)" if prior["density_decades"] == 0
+        where = (f"rho_0 = {hi:.3g} (fixed surface)" if prior["start_density_decades"] == 0
                  else f"rho_0 log-uniform in [{lo:.3g}, {hi:.3g}]")
         if oscillates:
             prior_text = (f"flat phase on [0, 2 pi), {where}; "
@@ -120,7 +122,7 @@ def summary_lines(dist: Any, setup: Any) -> list[str]:
     lines.extend(dynamics_lines(getattr(dist, "dynamics", {})))
     if prior["name"] == "phase" and oscillates and not (dist.hubble_to_frequency < 0.1):
         lines.append("  warning: H/omega at the top of the rho_0 window is not small; lower "
-                     "'efolds.density'")
+                     "'efolds.start_density'")
     return lines
 
 
@@ -194,7 +196,7 @@ def make_figure(dist: Any, title: str) -> Any:
 
 
 def run(args: Any, session: Any) -> CommandResult:
-    from ..background.efolds import efolds_distribution
+    from ..background.efolds import efolds_distribution, start_density_ceiling
     from ..background.setup import background_from_config
     from ..io import (
         json_safe,
@@ -207,7 +209,7 @@ def run(args: Any, session: Any) -> CommandResult:
 
     config = session.config()
     setup = background_from_config(config)
-    opts = _options(config, session)
+    opts = _options(config, session, start_density_ceiling(setup.dynamics))
     out_dir = session.output_folder(FILES.values())
 
     warm_up(setup.dynamics, setup.potential, opts["prior"])

@@ -14,7 +14,7 @@ from typing import Any
 from ._layer import CommandResult, Options
 
 NAME = "sample"
-HELP = "sample the posterior of a parametric model against constraint sets (emcee)"
+HELP = "sample the posterior of a forward model against constraint sets (emcee)"
 OPTIONS = Options(config="a [sampling] section",
                   output="<chains_dir>/<run_name> from [sampling]",
                   workers="[sampling] workers", compiles=True)

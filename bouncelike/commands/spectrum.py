@@ -116,7 +116,7 @@ def run(args: Any, session: Any) -> CommandResult:
         write_csv_atomic,
         write_json_atomic,
     )
-    from ..perturbations.forward import run_from_config
+    from ..models.bounce import run_from_config
 
     config = session.config()
     out = session.output_folder(FILES)

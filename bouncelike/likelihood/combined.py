@@ -56,9 +56,10 @@ from ..spectra.oscillations import PeriodMeanView, knows_oscillations
 from ..spectra.powerlaw import PowerLawSpectra
 from ..spectra.summary import DEFAULT_HALF_WIDTH, DEFAULT_TOLERANCE, PivotSummary
 from .bounds import spectra_cap
-from .gaussian import GaussianLikelihood, Score, verdict_from_p
+from .gaussian import GaussianLikelihood
 from .lowell import LowEllTemperature
 from .lowell_calibration import P_FLOOR
+from .score import Score, verdict_from_p
 from .sets import QUANTITIES, ConstraintSet
 
 COMBINED_RULE = (
@@ -210,7 +211,8 @@ class CombinedLikelihood:
         notes: list[str] = []
         fit_quality: list[dict[str, Any]] = []
         if g is not None:
-            notes += self.gaussian.notes(view, g.summaries, rule=None, fit_warnings=False)
+            notes += self.gaussian.notes(view, g.summaries, rule=None, fit_warnings=False,
+                                         other_terms=True)
             for f, sm in zip(g.fit_quality, g.summaries, strict=True):
                 fit_quality.append({**f, "fit_ok": True, "rms_scalar": sm.rms_scalar,
                                     "rms_ratio": sm.rms_ratio,

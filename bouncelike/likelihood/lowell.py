@@ -138,7 +138,7 @@ class LowEllScore:
 
     def terms(self) -> list[Any]:
         """One :class:`~.gaussian.Term` per multipole (quantity ``D_<ell>``)."""
-        from .gaussian import Term
+        from .score import Term
 
         out = []
         for i, ell in enumerate(self.ells):

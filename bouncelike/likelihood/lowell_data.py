@@ -43,6 +43,7 @@ import numpy as np
 
 from ..config import Table, read_toml
 from ..errors import InputError
+from ..quantities import PIVOT
 
 KIND = "temperature_low_ell"
 COLUMNS = ("ell", "D_measured", "minus_68", "plus_68", "D_reference")
@@ -171,7 +172,7 @@ def parse_low_ell_set(data: dict[str, Any], path: str = "") -> LowEllData:
         raise InputError("'overlap' must be a non-empty list of data tags (e.g. [\"planck\"])")
     ref = top.table("reference", REFERENCE_KEYS, required=True)
     model = {"ln_1e10_As": ref.number("ln_1e10_As"), "n_s": ref.number("n_s"),
-             "r": ref.number("r", 0.0, minimum=0.0), "pivot": ref.positive("pivot", 0.05)}
+             "r": ref.number("r", 0.0, minimum=0.0), "pivot": ref.positive("pivot", PIVOT)}
     ref_cite = f"{_text(ref, 'citation')} (arXiv:{_text(ref, 'arxiv')}), {_text(ref, 'table')}"
     arrays = [np.ascontiguousarray(arr[:, i]) for i in range(len(COLUMNS))]
     arrays[0] = arrays[0].astype(int)

@@ -53,8 +53,9 @@ from typing import Any
 
 from scipy.stats import norm
 
-from ..config import Table, read_toml
+from ..config import Parameter, Table, read_toml
 from ..errors import InputError
+from ..quantities import PIVOT_SCALE, SPECTRAL
 
 #: Quantities a constraint set may constrain (names of :class:`PivotSummary` fields).
 QUANTITIES = ("ln_1e10_As", "n_s", "running", "running_of_running", "r")
@@ -67,6 +68,13 @@ QUANTITY_LABELS = {
     "r": "r",
 }
 KINDS = ("gaussian", "upper_limit")
+#: declared ranges of the constrained quantities (means and limits must lie inside)
+DECLARED = {p.name: p for p in SPECTRAL}
+#: the 68 % error of a gaussian term
+ERROR = Parameter(
+    "sigma", "68 % error of a gaussian term", "", 1e-8, 1e3,
+    why="five decades below the most precise forecast error (~1e-3) and above any width the "
+    "quantities' ranges allow; a smaller error would make the chi-square overflow")
 #: Kinds of set file (the second one is read by lowell_data.py).
 SET_FILE_KINDS = ("pivot_summary", "temperature_low_ell")
 
@@ -212,8 +220,8 @@ def _parse_term(raw: Any, index: int) -> ConstraintTerm:
         for key in ("limit", "confidence"):
             if key in t:
                 raise InputError(f"'{t.key(key)}' applies only to kind = \"upper_limit\"")
-        mean = t.number("mean")
-        sigma = t.positive("sigma")
+        mean = DECLARED[quantity].check(t.number("mean"), t.key("mean"))
+        sigma = ERROR.read(t)
         return ConstraintTerm(quantity, kind, mean, sigma)
     for key in ("mean", "sigma"):
         if key in t:
@@ -226,7 +234,7 @@ def _parse_term(raw: Any, index: int) -> ConstraintTerm:
             f"'{t.key('kind')}' = \"upper_limit\" is allowed only for quantity \"r\" "
             "(a half-Gaussian in r >= 0)"
         )
-    limit = t.positive("limit")
+    limit = DECLARED["r"].check(t.positive("limit"), t.key("limit"))
     confidence = t.number(
         "confidence", minimum=0.0, maximum=1.0, exclusive_minimum=True, exclusive_maximum=True
     )
@@ -281,7 +289,7 @@ def parse_constraint_set(data: dict[str, Any], path: str = "") -> ConstraintSet:
         arxiv=_text(top, "arxiv"),
         table=_text(top, "table"),
         data_combination=_text(top, "data_combination"),
-        pivot=top.positive("pivot"),
+        pivot=PIVOT_SCALE.check(top.positive("pivot"), "pivot"),
         is_forecast=top.boolean("forecast"),
         terms=terms,
         overlap_tags=tuple(tags),

@@ -9,7 +9,6 @@ modes          symplectic numba integrator + WKB jumps across adiabatic eras (Mo
 states         initial states by name (STATES) and Bogoliubov rotations
 spectra        P_s(k), P_t(k) in bounce units (a_B = 1)
 mapping        bounce units -> comoving Mpc^-1 via N_* (given or Liddle & Leach)
-forward        [perturbations] / [reheating] -> TabulatedSpectra ("bounce" model)
 transfer       cached transfer T(k/k_LQC, D) (Bogoliubov decomposition after the bounce,
                D = k_LQC x conformal time to the end of inflation): the concept and its
                measured accuracy; re-exports transfer_decomposition (exact alpha, rho, theta),

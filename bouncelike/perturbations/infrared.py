@@ -44,6 +44,8 @@ import math
 import numpy as np
 from scipy.integrate import quad
 
+from ..quantities import bounce_scale
+
 EULER_GAMMA = 0.5772156649015329
 
 
@@ -69,7 +71,7 @@ def crossing_integral(critical_density: float, prescription: str = "dressed_metr
 def infrared_mean_transfer(x, critical_density: float,
                            prescription: str = "dressed_metric") -> np.ndarray:
     """T_mean(k) = 1 + (2/pi^2)(2L - J)^2 at x = k/k_LQC (module docstring; a_B = 1)."""
-    k = np.asarray(x, dtype=float) * math.sqrt(8 * math.pi * critical_density)
+    k = np.asarray(x, dtype=float) * bounce_scale(critical_density)
     L = np.log(k / 2) + EULER_GAMMA
     J = crossing_integral(critical_density, prescription)
     return 1 + (2 / math.pi**2) * (2 * L - J) ** 2

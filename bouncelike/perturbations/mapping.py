@@ -19,7 +19,7 @@ g_th the number of relativistic degrees of freedom thermalised at the end of reh
 entropy then, s ~ g_th T^3, is what today's radiation is compared with). Default
 ``G_TH_DEFAULT`` = 106.75, all Standard Model particles relativistic (Kolb & Turner, The Early
 Universe, ch. 3; the usual choice for reheating above the electroweak scale); allowed
-``G_TH_RANGE`` = 1-1e5 (g_th = 1000, a large extension, moves N_* by a further -0.19).
+1-1e5 (g_th = 1000, a large extension, moves N_* by a further -0.19).
 The term is -0.39 e-folds at the default (-0.58 at g_th = 1000); with V_* solved along it,
 k_LQC in Mpc^-1 moves down by a factor ~1.5 (measured 1.48 at the default, 1.78 at 1000).
 """
@@ -32,14 +32,22 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ..quantities import (
+    EQUATION_OF_STATE,
+    LOG10_REHEATING_DENSITY,
+    PIVOT,
+    THERMAL_DEGREES_OF_FREEDOM,
+)
 from ..units import hubble_radius_wavenumber
 from .background import BackgroundTable
 
 #: Observable window of comoving wavenumbers (Mpc^-1), common practice (physics notes s.5).
 OBSERVABLE_WINDOW = (1e-4, 0.2)
-#: relativistic degrees of freedom at thermalisation: default and allowed range (module doc)
-G_TH_DEFAULT = 106.75
-G_TH_RANGE = (1.0, 1e5)
+#: Wavenumbers (Mpc^-1) the bounce model always tabulates around the window: (from, to, count).
+WINDOW_GRID = (1e-5, 1.0, 40)
+#: relativistic degrees of freedom at thermalisation, default (module doc; declared with its
+#: allowed range in :data:`bouncelike.quantities.THERMAL_DEGREES_OF_FREEDOM`)
+G_TH_DEFAULT = THERMAL_DEGREES_OF_FREEDOM.default
 
 
 @dataclass(frozen=True)
@@ -92,7 +100,7 @@ def _exit_index_quantities(tab: BackgroundTable, ln_a_end: float, n: float):
     return ln_a, V, ln_aH
 
 
-def liddle_leach_n_star(tab: BackgroundTable, w: float, rho_reh: float, pivot: float = 0.05,
+def liddle_leach_n_star(tab: BackgroundTable, w: float, rho_reh: float, pivot: float = PIVOT,
                         h0: float | None = None, g_th: float = G_TH_DEFAULT) -> float:
     """Solve the Liddle & Leach estimate for N_* on this background (Planck units rho_reh).
 
@@ -101,18 +109,16 @@ def liddle_leach_n_star(tab: BackgroundTable, w: float, rho_reh: float, pivot: f
     """
     if not np.isfinite(tab.t_inflation_end):
         raise InputError("reheating: inflation does not end within the background; give "
-                         "reheating.n_star directly")
-    if not -1 / 3 < w <= 1:
-        raise InputError("reheating.equation_of_state must lie in (-1/3, 1]")
-    lo, hi = G_TH_RANGE
-    if not lo <= g_th <= hi:
-        raise InputError(f"reheating.thermal_degrees_of_freedom must lie in [{lo:g}, {hi:g}], "
-                         f"got {g_th:g}")
+                         "reheating.N_star directly")
+    EQUATION_OF_STATE.check(w, "reheating.equation_of_state")
+    THERMAL_DEGREES_OF_FREEDOM.check(g_th, "reheating.thermal_degrees_of_freedom")
     i_end = int(np.argmin(np.abs(tab.t - tab.t_inflation_end)))
     rho_end = float(tab.rho[i_end])
     if not 0 < rho_reh <= rho_end:
-        raise InputError(f"reheating.density must lie in (0, rho_end = {rho_end:.3g}] "
-                         "(Planck units)")
+        LOG10_REHEATING_DENSITY.check(
+            math.log10(rho_reh) if rho_reh > 0 else -math.inf,
+            "reheating.log10_reheating_density", upper=math.log10(rho_end) * (1 - 1e-15),
+            reason=f"reheating ends after inflation: rho_reh <= rho_end = {rho_end:.3g}")
     ln_a_end = float(tab.ln_a[i_end])
     mp4 = 1 / (8 * math.pi) ** 2
     k0 = hubble_radius_wavenumber(h0)
@@ -128,7 +134,7 @@ def liddle_leach_n_star(tab: BackgroundTable, w: float, rho_reh: float, pivot: f
     return n
 
 
-def scale_map(tab: BackgroundTable, n_star: float, pivot: float = 0.05) -> ScaleMap:
+def scale_map(tab: BackgroundTable, n_star: float, pivot: float = PIVOT) -> ScaleMap:
     """Map bounce units to Mpc^-1 given N_* (e-folds from the pivot's exit to the end)."""
     if not np.isfinite(tab.t_inflation_end):
         raise InputError("inflation does not end within the background: cannot place N_*")
@@ -136,7 +142,7 @@ def scale_map(tab: BackgroundTable, n_star: float, pivot: float = 0.05) -> Scale
     ln_a_end = float(tab.ln_a[i_end])
     ln_a_b = float(tab.ln_a[tab.bounce_index()]) if tab.has_bounce else 0.0
     if n_star <= 0 or ln_a_end - n_star <= ln_a_b:
-        raise InputError(f"reheating.n_star = {n_star:.3g} does not fit: the background has "
+        raise InputError(f"reheating.N_star = {n_star:.3g} does not fit: the background has "
                          f"{ln_a_end - ln_a_b:.3g} e-folds from the bounce to the end of inflation")
     ln_a, _, ln_aH = _exit_index_quantities(tab, ln_a_end, n_star)
     ln_factor = math.log(pivot) - ln_aH

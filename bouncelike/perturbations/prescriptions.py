@@ -50,7 +50,7 @@ Forms (Omega = 1 - 2 rho/rho_c)
     a field thrown up its potential still climbs after the bounce, and on alternate
     half-oscillations in the contracting branch.
 
-  The two differ only where V_phi != 0 and phidot H > 0; forward.py reports by how much P_s
+  The two differ only where V_phi != 0 and phidot H > 0; models/bounce.py reports how much P_s
   changes with the other convention.
 * ``scalar_deformed`` (deformed algebra, Cailleteau, Mielczarek, Barrau & Grain 2012; Bolliet
   et al. arXiv:1508.06786): v'' + (Omega k^2 - z_S''/z_S) v = 0, z_S = a phidot/H, singular
@@ -73,6 +73,8 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy.integrate import quad
+from scipy.interpolate import CubicSpline
 
 from ..errors import InputError
 from .background import BackgroundTable, _cumulative
@@ -249,3 +251,31 @@ def mode_system(tab: BackgroundTable, field_: str, prescription: str,
             "potential elsewhere (difference O(rho/rho_c) there)")
     return ModeSystem(tab, field_, prescription, "classical", (qform, rform), form_of_node, desc,
                       {"switch_density": switch_density})
+
+
+def euclidean_growth_rate(tab: BackgroundTable) -> float:
+    """2 int sqrt(-Omega) d eta over the Euclidean phase (WKB growth exponent per unit k).
+
+    Omega and ln a are splined on the nodes around the phase, its edges are the roots of the
+    Omega spline, and the integral is taken with the square-root edges as quadrature weights
+    (a trapezoid on the nodes misses them: relative error 3.5e-4 on the usual grids). The
+    massless bounce gives 2 k_LQC int sqrt(-Omega) d eta = 1.59419 in units of k/k_LQC.
+    """
+    neg = np.nonzero(tab.Omega < 0)[0]
+    if not len(neg):
+        return 0.0
+    sel = slice(max(int(neg[0]) - 4, 0), min(int(neg[-1]) + 5, len(tab.t)))
+    om = CubicSpline(tab.t[sel], tab.Omega[sel])
+    ln_a = CubicSpline(tab.t[sel], tab.ln_a[sel])
+    roots = om.roots(extrapolate=False)
+    t0 = roots[roots <= tab.t[neg[0]]].max() if np.any(roots <= tab.t[neg[0]]) else tab.t[0]
+    t1 = roots[roots >= tab.t[neg[-1]]].min() if np.any(roots >= tab.t[neg[-1]]) else tab.t[-1]
+
+    def smooth(t):  # sqrt(-Omega) / a divided by the square-root edge factors
+        d = (t - t0) * (t1 - t)
+        # at an edge, -Omega / d -> |dOmega/dt| / (t1 - t0)
+        q = -float(om(t)) / d if d > 0 else abs(float(om(t, 1))) / (t1 - t0)
+        return math.sqrt(max(q, 0.0)) * math.exp(-float(ln_a(t)))
+
+    val = quad(smooth, t0, t1, weight="alg", wvar=(0.5, 0.5), limit=200)[0]
+    return 2 * val

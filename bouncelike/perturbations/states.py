@@ -84,6 +84,7 @@ import numpy as np
 from scipy.interpolate import make_interp_spline
 
 from ..errors import InputError, NumericalFailure
+from ..quantities import bounce_scale
 
 STATES = ("remote_past", "bounce_adiabatic4", "non_oscillating", "low_energy")
 #: eps = rate/W at which the remote-past state is set (spectra converged to < 2e-5 there).
@@ -114,7 +115,7 @@ def remote_past_density(x_min: float, critical_density: float,
     ``tolerance``/3 at this density (a margin of 27 in density), for a_B = 1 and
     k = x_min sqrt(8 pi rho_c).
     """
-    k = x_min * math.sqrt(8 * math.pi * critical_density)
+    k = x_min * bounce_scale(critical_density)
     c = 2 * math.sqrt(8 * math.pi / 3) * critical_density ** (1 / 6)
     return (tolerance / 3 * k / c) ** 3
 

@@ -146,7 +146,7 @@ class BounceSpectraModel:
         a_s = math.exp(params["ln_1e10_As"]) * 1e-10
         r = params.get("r", 0.0)
         # deformed algebra far above k_LQC: a common cap e^600 on the transfer keeps P_t/P_s
-        # (both grow with the same exponent G; see forward.py)
+        # (both grow with the same exponent G; see bouncelike.models.bounce_ultraviolet)
         top = np.maximum(lt["scalar"], lt["tensor"])
         capped = top + lt["growth"] > CAP_EXPONENT
         ls = np.where(capped, lt["scalar"] - top + CAP_EXPONENT, lt["scalar"] + lt["growth"])

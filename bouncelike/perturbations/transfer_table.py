@@ -11,6 +11,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import NumericalFailure
+from .prescriptions import euclidean_growth_rate
 from .transfer_decomposition import (
     FIELDS,
     X_GRID,
@@ -257,8 +258,6 @@ def build_transfer(prescription: str = "dressed_metric", state: str = "remote_pa
             tilt_range[f] = (float(min(alltilts)), float(max(alltilts)))
     growth = 0.0
     if prescription == "deformed_algebra":
-        from .forward import euclidean_growth_rate
-
         tab = fam.background(*fam.calibration[0])
         growth = euclidean_growth_rate(tab) * tab.k_lqc
     from .prescriptions import DEFAULT_SIGN_CONVENTION

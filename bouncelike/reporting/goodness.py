@@ -81,7 +81,7 @@ def best_fit_goodness(chi2: float, n_terms: int, dimensionality: float,
     ``n_terms``), ``p_of(statistic, gaussian_terms)`` is its calibrated p-value
     (:meth:`~bouncelike.likelihood.lowell.LowEllTemperature.p_value`) and the rule is
     :data:`COMBINED_P_VALUE_RULES` ``best_fit_combined``."""
-    from ..likelihood.gaussian import verdict_from_p
+    from ..likelihood.score import verdict_from_p
 
     fitted = len(constrained)
     if math.isfinite(dimensionality):

@@ -26,9 +26,9 @@ from typing import Any
 
 import numpy as np
 
+from ..quantities import PIVOT
 from . import notation, style
 
-PIVOT = 0.05
 REFERENCE_MODELS = (("slow_roll_quadratic", r"$m^2\phi^2$", "s"),
                     ("slow_roll_starobinsky", "Starobinsky", "D"))
 REFERENCE_N = (50.0, 60.0)
@@ -37,11 +37,11 @@ LEVELS = (0.68, 0.95)
 
 def reference_marks() -> list[dict[str, Any]]:
     """n_s and r of the shipped slow-roll models at N_* = 50 and 60."""
-    from ..sampling.parametric import parametric_model
+    from ..models.registry import forward_model
 
     out = []
     for name, label, marker in REFERENCE_MODELS:
-        model = parametric_model(name)
+        model = forward_model(name)
         for n in REFERENCE_N:
             d = model.derived({"N_star": n, "ln_1e10_As": 3.044})
             out.append({"model": name, "label": label, "marker": marker, "N_star": n,

@@ -18,7 +18,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..likelihood.combined import COMBINED_RULE
-from ..likelihood.gaussian import VERDICT_RULE
+from ..likelihood.score import VERDICT_RULE
 from ..sampling import chains
 from ..sampling.setup import rebuild_from_manifest
 from . import evidence as E

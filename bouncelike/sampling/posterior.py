@@ -125,7 +125,7 @@ class SummarisedSpectra:
 
 
 class ModelPosterior(Posterior):
-    """Posterior of a parametric model (:mod:`bouncelike.sampling.parametric`) scored by a
+    """Posterior of a forward model (:mod:`bouncelike.models`) scored by a
     likelihood object with ``.summaries(spectra)``, ``.pivots`` and
     ``.log_likelihood(spectra)`` (:mod:`bouncelike.likelihood`).
 

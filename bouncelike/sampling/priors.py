@@ -1,10 +1,10 @@
 """Prior files for posterior runs: loading, validation, densities and draws.
 
 A prior file is TOML with one ``[prior]`` table and one ``[parameters.<name>]`` table per
-parameter of the parametric model (see :mod:`bouncelike.sampling.parametric`)::
+parameter of the forward model (see :mod:`bouncelike.models`)::
 
     [prior]
-    model = "power_law"               # parametric model this prior belongs to
+    model = "power_law"               # forward model this prior belongs to
     title = "Power-law primordial spectra"
 
     [parameters.n_s]
@@ -12,7 +12,8 @@ parameter of the parametric model (see :mod:`bouncelike.sampling.parametric`)::
     distribution = "uniform"          # uniform | log_uniform | gaussian | efolds_from_phase
     min = 0.85
     max = 1.10
-    label = 'n_s'                     # LaTeX, without dollar signs
+    label = 'n_s'                     # optional: LaTeX without dollar signs (default: the
+                                      # model's declaration of the parameter)
     walkers_centre = 0.965            # optional: centre of the ball the walkers start in
     walkers_spread = 0.01             # optional: its standard deviation (reflected at the
                                       # support's bounds); default 1% of the range
@@ -21,28 +22,28 @@ parameter of the parametric model (see :mod:`bouncelike.sampling.parametric`)::
     [parameters.r]
     role = "fixed"
     value = 0.0
-    label = 'r'
 
     [parameters.A_s]
     role = "derived"                  # computed by the model, stored with the samples
-    label = 'A_s'
 
 ``gaussian`` takes ``mean`` and ``sigma`` (optional ``min``/``max`` truncate it);
 ``log_uniform`` needs ``0 < min < max``. ``efolds_from_phase`` is the duration-of-inflation
 distribution obtained by evolving a flat prior on the oscillation phase of the contracting
 branch through the bounce (physics notes, section 2); it takes ``min``/``max`` and a
-``[parameters.<name>.phase]`` sub-table handed to
+``[parameters.<name>.phase]`` sub-table (:mod:`.phase_prior`) handed to
 :func:`bouncelike.background.efolds.efolds_distribution` (``potential``, ``mass``,
-``dynamics``, ``critical_density``, ``density`` and ``density_decades`` of the contracting-branch
-surface where the phase is flat, ``n_samples``, ``seed``). Its density is a Gaussian kernel
-density estimate of the computed e-fold samples restricted to ``[min, max]``.
+``dynamics``, ``critical_density``, ``start_density`` and ``start_density_decades`` of the
+contracting-branch window where the phase is flat, ``n_samples``, ``seed``). Its density is a
+Gaussian kernel density estimate of the computed e-fold samples restricted to ``[min, max]``.
 
-Every problem raises :class:`~bouncelike.errors.InputError` with one line naming the key.
+Validated against the model's declared parameters (:class:`bouncelike.config.Parameter`): the
+names, the range [min, max] of a sampled parameter and the value of a fixed one must lie in
+the declared range (a gaussian prior is truncated to it). Every problem raises
+:class:`~bouncelike.errors.InputError` with one line naming the key.
 """
 
 from __future__ import annotations
 
-import importlib
 import math
 from dataclasses import dataclass, field
 from importlib import resources
@@ -51,8 +52,9 @@ from typing import Any
 
 import numpy as np
 
-from ..config import Table, read_toml, tomllib
+from ..config import Parameter, Table, read_toml, tomllib
 from ..errors import InputError
+from .phase_prior import PHASE_KEYS, RENAMED_PHASE_KEYS, efolds_kde, kde_density
 
 ROLES = ("sampled", "fixed", "derived")
 DISTRIBUTIONS = ("uniform", "log_uniform", "gaussian", "efolds_from_phase")
@@ -62,8 +64,6 @@ PARAMETER_KEYS = (
 )
 #: Keys of earlier prior files and the keys that replaced them.
 RENAMED_KEYS = {"start": "walkers_centre", "start_width": "walkers_spread"}
-PHASE_KEYS = ("potential", "mass", "dynamics", "critical_density", "density",
-              "density_decades", "n_samples", "seed")
 
 #: Folder of the prior files shipped with the package (package data, installed with it).
 SHIPPED_PRIORS = Path(str(resources.files("bouncelike") / "priors"))
@@ -107,10 +107,7 @@ class ParameterPrior:
             z = (x[inside] - self.mean) / self.sigma
             out[inside] = -0.5 * z * z - math.log(self.sigma * math.sqrt(2 * math.pi)) - mass
         elif self.distribution == "efolds_from_phase":
-            pts = np.asarray(self.kde_points)
-            h = self.kde_bandwidth
-            z = (x[inside][:, None] - pts[None, :]) / h
-            dens = np.exp(-0.5 * z * z).sum(axis=1) / (len(pts) * h * math.sqrt(2 * math.pi))
+            dens = kde_density(x[inside], self.kde_points, self.kde_bandwidth)
             with np.errstate(divide="ignore"):
                 out[inside] = np.log(dens / self.kde_norm)
         return out
@@ -236,7 +233,7 @@ class Prior:
         return np.column_stack(cols)
 
     def full_parameters(self, theta: np.ndarray) -> dict[str, float]:
-        """Sampled values plus fixed values, as the parametric model expects them."""
+        """Sampled values plus fixed values, as the forward model expects them."""
         params = dict(self.fixed)
         for p, x in zip(self.sampled, theta, strict=False):
             params[p.name] = float(x)
@@ -267,45 +264,57 @@ def resolve_prior_path(name: str, base: Path | None = None) -> Path:
     raise InputError(f"prior file '{name}' not found; give a path or one of: {shipped}")
 
 
-def load_prior(path: str | Path, model_parameters: tuple[str, ...] | None = None,
-               derived_parameters: tuple[str, ...] | None = None,
-               optional_parameters: tuple[str, ...] = ()) -> Prior:
-    """Read and validate a prior file.
-
-    Parameters
-    ----------
-    path : path of the TOML file.
-    model_parameters : when given, every sampled or fixed parameter must be one of these and
-        each of them must appear in the file.
-    derived_parameters : when given, every derived parameter must be one of these.
-    optional_parameters : model parameters the file may leave out.
-    """
+def load_prior(path: str | Path, model: Any = None, **kw: Any) -> Prior:
+    """Read and validate a prior file (for ``model``, a registered forward model: its
+    declared parameters, derived numbers and :meth:`check_prior`; see :func:`parse_prior`)."""
     path = Path(path)
     data = read_toml(path, "prior file")
-    return parse_prior(data, str(path), path.read_text(encoding="utf-8"), model_parameters,
-                       derived_parameters, optional_parameters)
+    return parse_prior(data, str(path), path.read_text(encoding="utf-8"), model, **kw)
 
 
-def prior_from_text(text: str, source: str = "<text>", **kw: Any) -> Prior:
+def prior_from_text(text: str, source: str = "<text>", model: Any = None, **kw: Any) -> Prior:
     """A prior from the text of a prior file (as stored in a run's manifest; pass
     ``renamed_keys_allowed=True`` to read the keys of earlier prior files)."""
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"prior file '{source}' is not valid TOML: {exc}") from None
-    return parse_prior(data, source, text, **kw)
+    return parse_prior(data, source, text, model, **kw)
 
 
-def parse_prior(data: dict[str, Any], source: str, text: str = "",
-                model_parameters: tuple[str, ...] | None = None,
-                derived_parameters: tuple[str, ...] | None = None,
+def parse_prior(data: dict[str, Any], source: str, text: str = "", model: Any = None,
+                model_parameters: tuple[Parameter | str, ...] | None = None,
+                derived_parameters: tuple[Parameter | str, ...] | None = None,
                 optional_parameters: tuple[str, ...] = (),
                 renamed_keys_allowed: bool = False) -> Prior:
-    """Validate the parsed contents of a prior file."""
+    """Validate the parsed contents of a prior file.
+
+    Parameters
+    ----------
+    model : a forward model (:class:`bouncelike.models.base.ForwardModel`); gives the three
+        lists below and its own ``check_prior``.
+    model_parameters : when given, every sampled or fixed parameter must be one of these and
+        each of them must appear in the file (declarations also bound the ranges and give the
+        default labels).
+    derived_parameters : when given, every derived parameter must be one of these.
+    optional_parameters : model parameters the file may leave out.
+    renamed_keys_allowed : read the keys of earlier prior files under their new names (a
+        prior text stored in the manifest of an earlier run).
+    """
+    if model is not None:
+        model_parameters = tuple(model.parameters)
+        derived_parameters = tuple(model.derived_parameters)
+        optional_parameters = tuple(model.optional_parameter_names)
+    declared = {d.name: d for d in (*(model_parameters or ()), *(derived_parameters or ()))
+                if isinstance(d, Parameter)}
+    model_names = None if model_parameters is None else tuple(
+        d.name if isinstance(d, Parameter) else d for d in model_parameters)
+    derived_names = None if derived_parameters is None else tuple(
+        d.name if isinstance(d, Parameter) else d for d in derived_parameters)
     path = source
     top = Table(data, "", ("prior", "parameters"))
     head = top.table("prior", ("model", "title", "description"), required=True)
-    model = head.string("model")
+    model_name = head.string("model")
     title = head.string("title", "")
     head.string("description", "")
     raw = top.raw("parameters")
@@ -317,28 +326,39 @@ def parse_prior(data: dict[str, Any], source: str, text: str = "",
         raise InputError(f"prior file '{path}': [parameters] is empty; give one table per "
                          "parameter")
     params_tab = top.table("parameters", names, required=True)
-    params = tuple(_parameter(_renamed(params_tab, n, renamed_keys_allowed), n)
+    for n in names:  # names first: a misspelt parameter is named as such
+        role = raw[n].get("role") if isinstance(raw[n], dict) else None
+        if role in ("sampled", "fixed") and model_names is not None and n not in model_names:
+            raise InputError(
+                f"'parameters.{n}' is not a parameter of model '{model_name}'; allowed: "
+                f"{', '.join(model_names)}")
+    params = tuple(_parameter(_renamed(params_tab, n, renamed_keys_allowed), n, declared.get(n))
                    for n in names)
     if not any(p.role == "sampled" for p in params):
         raise InputError(f"prior file '{path}': no parameter has role = 'sampled'")
-    if model_parameters is not None:
-        for p in params:
-            if p.role != "derived" and p.name not in model_parameters:
-                raise InputError(
-                    f"'parameters.{p.name}' is not a parameter of model '{model}'; allowed: "
-                    f"{', '.join(model_parameters)}")
+    if model_names is not None:
         given = {p.name for p in params}
-        for n in model_parameters:
+        for n in model_names:
             if n not in given and n not in optional_parameters:
-                raise InputError(f"missing table '[parameters.{n}]' (model '{model}' needs "
+                raise InputError(f"missing table '[parameters.{n}]' (model '{model_name}' needs "
                                  "it: give role = 'sampled' or 'fixed')")
-    if derived_parameters is not None:
+    if derived_names is not None:
         for p in params:
-            if p.role == "derived" and p.name not in derived_parameters:
+            if p.role == "derived" and p.name not in derived_names:
                 raise InputError(
-                    f"'parameters.{p.name}.role' = 'derived' but model '{model}' derives only: "
-                    f"{', '.join(derived_parameters) or 'nothing'}")
-    return Prior(model=model, title=title, parameters=params, source=str(path), text=text)
+                    f"'parameters.{p.name}.role' = 'derived' but model '{model_name}' derives "
+                    f"only: {', '.join(derived_names) or 'nothing'}")
+    prior = Prior(model=model_name, title=title, parameters=params, source=str(path), text=text)
+    if model is not None:
+        check_model_prior(model, prior)
+    return prior
+
+
+def check_model_prior(model: Any, prior: Prior) -> None:
+    """The model's own check of the chosen parameters (e.g. one background choice)."""
+    check = getattr(model, "check_prior", None)
+    if check is not None:
+        check(tuple(p.name for p in prior.parameters if p.role != "derived"))
 
 
 def _renamed(params: Table, name: str, allowed: bool) -> Table:
@@ -351,15 +371,19 @@ def _renamed(params: Table, name: str, allowed: bool) -> Table:
                 raise InputError(f"'parameters.{name}.{old}' is no longer a prior key: "
                                  f"write '{new}' instead (keys now: walkers_centre, "
                                  "walkers_spread for the walkers' starting ball)")
-        if allowed and any(k in raw for k in RENAMED_KEYS):
+        phase = raw.get("phase")
+        if allowed and (any(k in raw for k in RENAMED_KEYS) or (
+                isinstance(phase, dict) and any(k in phase for k in RENAMED_PHASE_KEYS))):
             data = {RENAMED_KEYS.get(k, k): v for k, v in raw.items()}
+            if isinstance(phase, dict):
+                data["phase"] = {RENAMED_PHASE_KEYS.get(k, k): v for k, v in phase.items()}
             return Table(data, params.key(name), PARAMETER_KEYS)
     return params.table(name, PARAMETER_KEYS)
 
 
-def _parameter(t: Table, name: str) -> ParameterPrior:
+def _parameter(t: Table, name: str, declared: Parameter | None = None) -> ParameterPrior:
     role = t.string("role", choices=ROLES)
-    label = t.string("label", name)
+    label = t.string("label", declared.tex if declared is not None else name)
     if role == "derived":
         for k in t.data:
             if k not in ("role", "label"):
@@ -371,13 +395,25 @@ def _parameter(t: Table, name: str) -> ParameterPrior:
             if k not in ("role", "label", "value"):
                 raise InputError(f"'{t.key(k)}' is not allowed for a fixed parameter "
                                  "(allowed: role, label, value)")
-        return ParameterPrior(name=name, role=role, label=label, value=t.number("value"))
+        value = t.number("value")
+        if declared is not None:
+            declared.check(value, t.key("value"))
+        return ParameterPrior(name=name, role=role, label=label, value=value)
     dist = t.string("distribution", choices=DISTRIBUTIONS)
     if dist != "gaussian":
         _required(t, "min")
         _required(t, "max")
     lower = t.number("min") if "min" in t else -math.inf
     upper = t.number("max") if "max" in t else math.inf
+    if declared is not None:
+        for key, bound in (("min", lower), ("max", upper)):
+            if key in t:
+                declared.check(bound, t.key(key))
+        if dist == "gaussian":  # truncated to the declared range
+            if declared.lower is not None and "min" not in t:
+                lower = declared.lower
+            if declared.upper is not None and "max" not in t:
+                upper = declared.upper
     if not lower < upper:
         raise InputError(f"'{t.key('max')}' = {upper:g} must be larger than "
                          f"'{t.key('min')}' = {lower:g}")
@@ -401,7 +437,7 @@ def _parameter(t: Table, name: str) -> ParameterPrior:
         raise InputError(f"'{t.key('nested_value')}' = {nested:g} lies outside [min, max]")
     kde: dict[str, Any] = {}
     if dist == "efolds_from_phase":
-        kde = _efolds_from_phase(t.table("phase", PHASE_KEYS, required=True), lower, upper)
+        kde = efolds_kde(t.table("phase", PHASE_KEYS, required=True), lower, upper)
     elif "phase" in t:
         raise InputError(f"'{t.key('phase')}' is only allowed for an efolds_from_phase prior")
     return ParameterPrior(name=name, role=role, label=label, distribution=dist, lower=lower,
@@ -414,53 +450,3 @@ def _required(t: Table, key: str) -> Any:
         raise InputError(f"missing key '{t.key(key)}' (uniform and log_uniform priors need "
                          "min and max)")
     return None
-
-
-def _efolds_from_phase(t: Table, lower: float, upper: float) -> dict[str, Any]:
-    """Build the e-fold prior from the background lane's phase-prior distribution.
-
-    Uses :func:`bouncelike.background.efolds.efolds_distribution` when that module is part of
-    the installed package; otherwise the prior file cannot be used and says why.
-    """
-    try:
-        efolds = importlib.import_module("bouncelike.background.efolds")
-        dist_fn = efolds.efolds_distribution
-    except (ImportError, AttributeError):
-        raise InputError(
-            f"'{t.where}': distribution 'efolds_from_phase' needs "
-            "bouncelike.background.efolds.efolds_distribution, which this build does not have; "
-            "use uniform, log_uniform or gaussian") from None
-    samples = _compute_efolds(t, dist_fn)
-    samples = samples[np.isfinite(samples)]
-    if samples.size < 10:
-        raise InputError(f"'{t.where}': fewer than 10 finite e-fold samples were produced")
-    # Scott's rule bandwidth (scipy.stats.gaussian_kde default)
-    h = float(np.std(samples) * samples.size ** (-1 / 5)) or 1e-3
-    pts = tuple(float(x) for x in samples)
-    probe = ParameterPrior("N", "sampled", "N", "efolds_from_phase", lower, upper,
-                           kde_points=pts, kde_bandwidth=h, kde_norm=1.0)
-    grid = np.linspace(lower, upper, 2001)
-    mass = float(np.trapezoid(np.exp(probe.log_density(grid)), grid))
-    if not mass > 0:
-        raise InputError(f"'{t.where}': the computed e-folds (median {np.median(samples):.4g}) "
-                         f"fall outside [min, max] = [{lower:g}, {upper:g}]")
-    return {"kde_points": pts, "kde_bandwidth": h, "kde_norm": mass}
-
-
-def _compute_efolds(t: Table, dist_fn: Any) -> np.ndarray:
-    """E-folds of inflation over a flat phase prior, by the background package."""
-    setup_mod = importlib.import_module("bouncelike.background.setup")
-    efolds_mod = importlib.import_module("bouncelike.background.efolds")
-    background: dict[str, Any] = {"dynamics": t.string("dynamics", "isotropic")}
-    if "critical_density" in t:
-        background["critical_density"] = t.positive("critical_density")
-    config = Table({"potential": {"name": t.string("potential", "quadratic"),
-                                  "mass": t.positive("mass", 1.21e-6)},
-                    "background": background}, "", ("potential", "background"))
-    setup = setup_mod.background_from_config(config)
-    phase = efolds_mod.PhasePrior(t.positive("density", 1e-16),
-                                  t.number("density_decades", 2.0, minimum=0.0, maximum=10.0))
-    result = dist_fn(setup.dynamics, setup.potential, phase,
-                     t.integer("n_samples", 200, minimum=10), t.integer("seed", 0, minimum=0),
-                     settings=setup.settings, convergence_samples=0)
-    return np.asarray(result.usable(), dtype=float)

@@ -5,7 +5,7 @@ The ``[sampling]`` section::
     [sampling]
     prior = "power_law"          # shipped prior name (priors/<name>.toml) or a path, relative
                                  # to the configuration file
-    model = "power_law"          # parametric model; default: the prior file's [prior] model
+    model = "power_law"          # forward model; default: the prior file's [prior] model
     walkers = 24                 # >= 2 x sampled parameters
     max_steps = 4000             # hard stop
     min_steps = 200              # no convergence claim before this many steps
@@ -46,13 +46,13 @@ from typing import Any
 from .. import __version__
 from ..config import Table, load_run_config, read_toml, tomllib
 from ..errors import InputError
+from ..models.registry import forward_model
 from ..parallel import resolve_workers
 from ..provenance import constraint_sets_of, provenance
 from ..reporting.settings import report_settings
 from .driver import MAX_STEPS, MAX_SURVEY_DRAWS, MAX_WALKERS, SamplerSettings
-from .parametric import PARAMETRIC_MODELS, check_model_prior, model_prior, parametric_model
 from .posterior import ModelPosterior
-from .priors import Prior, prior_from_text, resolve_prior_path
+from .priors import Prior, load_prior, prior_from_text, resolve_prior_path
 
 SAMPLING_KEYS = ("prior", "model", "walkers", "max_steps", "min_steps", "tau_multiple",
                  "tau_tolerance", "checkpoint_every", "seed", "run_name", "chains_dir",
@@ -142,13 +142,14 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
     # the prior file names its model; [sampling] model may restate it
     head = Table(read_toml(prior_path, "prior file"), "", ("prior", "parameters"))
     head_model = head.table("prior", ("model", "title", "description"), required=True).string(
-        "model", choices=PARAMETRIC_MODELS)
-    model_name = t.string("model", head_model, choices=PARAMETRIC_MODELS)
+        "model")
+    forward_model(head_model, "prior.model", sampled=True)
+    model_name = t.string("model", head_model)
     if model_name != head_model:
         raise InputError(f"'sampling.model' = '{model_name}' but prior file '{prior_path}' is "
                          f"for model '{head_model}'")
-    model = parametric_model(model_name)
-    prior = model_prior(model, prior_path)
+    model = forward_model(model_name, "sampling.model", sampled=True)
+    prior = load_prior(prior_path, model)
     if settings.walkers < 2 * prior.ndim:
         raise InputError(f"'sampling.walkers' = {settings.walkers} is too small; allowed: >= "
                          f"{2 * prior.ndim} (2 x the {prior.ndim} sampled parameters)")
@@ -255,13 +256,9 @@ def likelihood_from_manifest(manifest: dict[str, Any]) -> Any:
 def rebuild_from_manifest(manifest: dict[str, Any]) -> tuple[Prior, Any, Any, ModelPosterior]:
     """Prior, model, likelihood and posterior of a finished run, from its manifest alone."""
     config = Table(manifest["config"], "", tuple(manifest["config"]))
-    model = parametric_model(manifest["model"])
+    model = forward_model(manifest["model"], "model", sampled=True)
     prior = prior_from_text(manifest["prior_file_text"], manifest["prior"].get("source", ""),
-                            model_parameters=model.parameter_names,
-                            derived_parameters=model.derived_names,
-                            optional_parameters=getattr(model, "optional_parameter_names", ()),
-                            renamed_keys_allowed=True)
-    check_model_prior(model, prior)
+                            model, renamed_keys_allowed=True)
     report_settings(config.data, prior.sampled_names, stored=True)  # a bad [report] fails now
     likelihood = likelihood_from_manifest(manifest)
     require_fit = bool(manifest.get("require_summary_fit", True))

@@ -2,10 +2,11 @@
 
 Every spectra object answers ``.scalar(k)`` and ``.tensor(k)`` for arrays of comoving wavenumbers
 in Mpc^-1 (astropy quantities accepted). :func:`summarize` reduces any of them to the numbers
-published bounds constrain at a pivot.
+published bounds constrain at a pivot. The forward models that produce them from parameters
+live in :mod:`bouncelike.models`.
 """
 
-from .powerlaw import PowerLawSpectra, power_law_from_config
+from .powerlaw import PowerLawSpectra
 from .summary import PivotSummary, summarize
 from .tabulated import TabulatedSpectra
 
@@ -13,6 +14,5 @@ __all__ = [
     "PivotSummary",
     "PowerLawSpectra",
     "TabulatedSpectra",
-    "power_law_from_config",
     "summarize",
 ]

@@ -22,23 +22,10 @@ from typing import Any
 
 import numpy as np
 
-from ..config import Table
 from ..errors import InputError
+from ..quantities import PIVOT
 from ..units import wavenumber_in_mpc
-
-#: Pivot scale k_* in Mpc^-1 used when none is given (Planck 2018 convention).
-DEFAULT_PIVOT = 0.05
-
-POWER_LAW_KEYS = (
-    "ln_1e10_As",
-    "A_s",
-    "n_s",
-    "running",
-    "running_of_running",
-    "r",
-    "n_t",
-    "pivot",
-)
+from .summary import DEFAULT_TOLERANCE, PivotSummary
 
 
 def _finite(name: str, value: Any) -> float:
@@ -106,7 +93,7 @@ class PowerLawSpectra:
     running_of_running: float = 0.0
     r: float = 0.0
     n_t: float | None = None
-    pivot: float = DEFAULT_PIVOT
+    pivot: float = PIVOT
     label: str = "power law"
     notes: tuple[str, ...] = field(default=())
 
@@ -188,8 +175,6 @@ class PowerLawSpectra:
 
     def summary_at(self, pivot: float):
         """Exact :class:`~bouncelike.spectra.summary.PivotSummary` at ``pivot`` (no fit)."""
-        from .summary import DEFAULT_TOLERANCE, PivotSummary
-
         moved = self.at_pivot(pivot)
         return PivotSummary(
             pivot=moved.pivot,
@@ -219,54 +204,3 @@ class PowerLawSpectra:
             "pivot": self.pivot,
             "label": self.label,
         }
-
-
-def amplitude_from_table(table: Table) -> float:
-    """ln(1e10 A_s) from exactly one of the keys ``ln_1e10_As`` or ``A_s`` (A_s > 0)."""
-    has_ln = "ln_1e10_As" in table
-    has_as = "A_s" in table
-    if has_ln and has_as:
-        raise InputError(
-            f"give only one of '{table.key('ln_1e10_As')}' and '{table.key('A_s')}', not both"
-        )
-    if has_ln:
-        return table.number("ln_1e10_As")
-    if has_as:
-        return math.log(1e10 * table.positive("A_s", what="a positive amplitude"))
-    raise InputError(
-        f"missing amplitude in [{table.where}]: give 'ln_1e10_As' (e.g. 3.044) or 'A_s' (> 0)"
-    )
-
-
-def power_law_from_config(config: Table) -> PowerLawSpectra:
-    """Build :class:`PowerLawSpectra` from the ``[power_law]`` table of a run configuration.
-
-    Keys: ``ln_1e10_As`` or ``A_s`` (one of them), ``n_s`` (required), ``running``,
-    ``running_of_running`` (default 0), ``r`` (>= 0, default 0), ``n_t`` (a number or
-    ``"consistency"``, the default, meaning n_t = -r/8), ``pivot`` (Mpc^-1, default 0.05).
-    """
-    table = config.table("power_law", POWER_LAW_KEYS, required=True)
-    ln_as = amplitude_from_table(table)
-    n_s = table.number("n_s")
-    running = table.number("running", 0.0)
-    runrun = table.number("running_of_running", 0.0)
-    r = table.number("r", 0.0, minimum=0.0)
-    raw_nt = table.raw("n_t", "consistency")
-    if isinstance(raw_nt, str):
-        if raw_nt != "consistency":
-            raise InputError(
-                f"'{table.key('n_t')}' must be a number or \"consistency\", got {raw_nt!r}"
-            )
-        n_t = None
-    else:
-        n_t = table.number("n_t", what='a number or "consistency"')
-    pivot = table.positive("pivot", DEFAULT_PIVOT)
-    return PowerLawSpectra(
-        ln_1e10_As=ln_as,
-        n_s=n_s,
-        running=running,
-        running_of_running=runrun,
-        r=r,
-        n_t=n_t,
-        pivot=pivot,
-    )
