@@ -196,3 +196,24 @@ def test_starobinsky_remote_past_refused_where_the_state_is_not_set():
     s = m.spectra({**p, "log10_k_lqc": -3.8})  # window starts at 0.63 k_LQC: evaluable
     with pytest.raises(NotEvaluable, match="remote-past state is not set"):
         term.predict(s)
+
+
+def test_points_the_term_cannot_score_are_recorded_as_not_evaluable(tmp_path, monkeypatch):
+    """The remote-past state is not set below 0.363 k_LQC on Starobinsky bounces: posterior
+    points whose low multipoles would read those modes are recorded in failures.csv as not
+    evaluable with the term's reason, and their prior fraction is in the manifest."""
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "run.toml").write_text(
+        f'[likelihood]\nsets = {json.dumps(SETS)}\n\n[sampling]\n'
+        'prior = "bounce_dressed_metric_physical_starobinsky"\nwalkers = 12\nmax_steps = 30\n'
+        'min_steps = 30\ntau_multiple = 5\ntau_tolerance = 0.5\ncheckpoint_every = 30\n'
+        'seed = 2\nprogress = false\nprior_survey_draws = 60\n')
+    assert main(["sample", "run.toml", "--quiet"]) == 0
+    manifest = json.loads((tmp_path / "chains" / "run" / "manifest.json").read_text())
+    rows = manifest["run"]["failure_summary"]["by_reason"]
+    term = [r for r in rows if r["reason"].startswith("large-scale temperature term")]
+    assert term and all(r["kind"] == "not_evaluable" for r in term)
+    assert "remote-past state is not set" in term[0]["reason"]
+    assert sum(r["survey_count"] for r in term) > 0  # a prior fraction is measured
+    failures = (tmp_path / "chains" / "run" / "failures.csv").read_text()
+    assert "large-scale temperature term" in failures
