@@ -48,7 +48,9 @@ def constraint_sets_of(likelihood: Any) -> tuple[Any, ...]:
     sets = tuple(getattr(likelihood, "sets", ()) or ())
     low = getattr(likelihood, "low_ell", None)
     data = getattr(low, "data", None)
-    return sets + ((data,) if data is not None else ())
+    if data is None or any(s is data for s in sets):  # a combined likelihood lists it itself
+        return sets
+    return sets + (data,)
 
 
 def describe_set(s: Any) -> dict[str, Any]:

@@ -9,7 +9,7 @@ from scipy.stats import chi2, halfnorm, multivariate_normal, norm
 from bouncelike.config import Table
 from bouncelike.errors import InputError, NumericalFailure
 from bouncelike.likelihood import GaussianLikelihood, likelihood_from_config
-from bouncelike.likelihood.gaussian import verdict_from_p
+from bouncelike.likelihood.score import verdict_from_p
 from bouncelike.spectra import PowerLawSpectra
 
 

@@ -61,7 +61,7 @@ def test_score_shows_the_term(tmp_path, capsys):
     assert code == 0
     for text in ("large-scale temperature, ell 2-29", "largest pulls", "D_2 ",
                  "anchoring error estimate per multipole (%): 2:", "this term alone: p =",
-                 "numerical convolution", "counts the low-ell temperature twice",
+                 "numerical convolution", "the low multipoles counted once",
                  "cancel to first order", "verdict: allowed"):
         assert text in out, text
     # the pivot table lists only the pivot terms

@@ -137,3 +137,14 @@ def test_a_bound_at_the_edge_of_the_not_evaluable_region_is_not_a_data_bound(
     assert emap["codes"]["not evaluable"] > 0
     assert emap["recorded_refusals"]["not_evaluable"] > 0
     assert math.isfinite(v["best_fit"]["chi2"])
+
+
+def test_report_without_the_term_says_so_and_shows_it_for_comparison(quadratic):
+    v = json.loads((quadratic / "verdicts.json").read_text())
+    assert v["large_scale_term"]["used"] is False
+    assert "pivot constraints alone" in (quadratic / "verdicts.md").read_text()
+    d = json.loads((quadratic / "dell.json").read_text())
+    assert d["used_in_likelihood"] is False and d["set"] == "planck2018_lowell_tt"
+    assert "NOT part of the run's likelihood" in (quadratic / "dell.caption.txt").read_text()
+    # the shipped sets are rescored one by one, the large-scale temperature set among them
+    assert "planck2018_lowell_tt" in {r["set"] for r in v["by_set"]}

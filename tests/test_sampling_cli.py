@@ -144,10 +144,14 @@ def test_shipped_priors_load():
 
     names = sorted(p.stem for p in SHIPPED_PRIORS.glob("*.toml"))
     assert names == ["bounce_deformed_algebra", "bounce_deformed_algebra_physical",
+                     "bounce_deformed_algebra_physical_starobinsky",
                      "bounce_dressed_metric", "bounce_dressed_metric_low_energy",
                      "bounce_dressed_metric_non_oscillating", "bounce_dressed_metric_phase",
                      "bounce_dressed_metric_physical", "bounce_dressed_metric_physical_low_energy",
-                     "bounce_dressed_metric_physical_non_oscillating", "power_law",
+                     "bounce_dressed_metric_physical_low_energy_starobinsky",
+                     "bounce_dressed_metric_physical_non_oscillating",
+                     "bounce_dressed_metric_physical_non_oscillating_starobinsky",
+                     "bounce_dressed_metric_physical_starobinsky", "power_law",
                      "quadratic_slow_roll", "starobinsky_slow_roll"]
     for n in names:
         prior = load_prior(SHIPPED_PRIORS / f"{n}.toml")

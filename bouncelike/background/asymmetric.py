@@ -179,7 +179,7 @@ class AsymmetricDynamics(cn.CanonicalDynamics):
         if isinstance(initial, BounceStart):
             rho_b = self.maximum_density
             phi, phidot = bounce_field(potential, rho_b, initial.potential_fraction,
-                                       initial.phidot_sign)
+                                       initial.phidot_sign, initial.field_side)
             theta_b = math.asin(math.sqrt(1.0 / (2.0 * (1.0 + self.gamma**2))))
             return np.array([math.log(theta_b), 0.0, phi, phidot]), cn.POST
         if isinstance(initial, ClassicalStart):  # expanding, general-relativity branch

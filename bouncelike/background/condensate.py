@@ -61,12 +61,15 @@ CONDENSATE_TERM = Parameter("condensate_term", "the condensate term q of the eff
                             why="q >= 0 in the condensate cosmology")
 
 
-def bounce_field(potential: Any, density: float, fraction: float, sign: int) -> tuple[float, float]:
+def bounce_field(potential: Any, density: float, fraction: float, sign: int,
+                 field_side: float | None = None) -> tuple[float, float]:
     """(phi, phidot) at a bounce of density ``density`` with V / rho = ``fraction``; the field
-    sits on the side it is thrown up (sign(phi) = sign(phidot))."""
+    sits on the side ``field_side`` (default: the side it is thrown up, sign(phi) =
+    sign(phidot))."""
     check_potential_fraction(fraction)
     phase = math.asin(math.sqrt(fraction))
-    phi, phidot = cn.field_from_phase(potential, density, phase if sign >= 0 else -phase)
+    side = (1.0 if sign >= 0 else -1.0) if field_side is None else field_side
+    phi, phidot = cn.field_from_phase(potential, density, phase if side >= 0 else -phase)
     return phi, abs(phidot) * (1.0 if sign >= 0 else -1.0)
 
 
@@ -138,7 +141,8 @@ class CondensateDynamics(cn.CanonicalDynamics):
                     "'background.condensate.condensate_term' > 0; allowed: contracting"
                 )
             phi, phidot = bounce_field(
-                potential, rho_c, initial.potential_fraction, initial.phidot_sign
+                potential, rho_c, initial.potential_fraction, initial.phidot_sign,
+                initial.field_side
             )
             return np.array([math.log(0.5 * math.pi), 0.0, phi, phidot]), cn.POST
         raise InputError(

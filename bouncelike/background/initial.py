@@ -4,7 +4,9 @@ Three ways to start (Planck units, m_Pl = 1):
 
 * :class:`BounceStart` -- at the bounce (rho = rho_c, H = 0), by the fraction of the energy
   density in the potential, x_V = V(phi_B)/rho_c, and the sign of phidot (the sign of phi_B is
-  chosen so that the field sits on the side of the potential it is thrown up; see the dynamics).
+  chosen so that the field sits on the side of the potential it is thrown up, unless
+  ``field_sign`` says otherwise: a Starobinsky bounce whose field climbs from the steep side
+  towards the plateau has phi_B < 0 and phidot > 0).
 * :class:`ContractingStart` -- in the contracting branch at a density rho_0 << rho_c with the
   oscillation phase delta. For V = m^2 phi^2/2 the phase is the one of
   x = sqrt(rho/rho_c) sin(delta), y = sqrt(rho/rho_c) cos(delta) with x = m phi/sqrt(2 rho_c),
@@ -23,10 +25,19 @@ from dataclasses import dataclass
 
 @dataclass(frozen=True)
 class BounceStart:
-    """Start at the bounce with V(phi_B)/rho_c = ``potential_fraction`` and sign(phidot)."""
+    """Start at the bounce with V(phi_B)/rho_c = ``potential_fraction``, sign(phidot) and the
+    side of the field, sign(phi_B) = ``field_sign`` (0: the side it is thrown up,
+    sign(phi_B) = sign(phidot))."""
 
     potential_fraction: float
     phidot_sign: int = 1
+    field_sign: int = 0
+
+    @property
+    def field_side(self) -> float:
+        """sign(phi_B) as +-1.0."""
+        s = self.field_sign if self.field_sign != 0 else self.phidot_sign
+        return 1.0 if s >= 0 else -1.0
 
 
 @dataclass(frozen=True)

@@ -146,11 +146,12 @@ class IsotropicDynamics:
 
     # -- initial data -----------------------------------------------------------------------
     def bounce_state(self, potential: Any, initial: BounceStart) -> tuple[float, float]:
-        """(phi_B, phidot_B) of a bounce start: V(phi_B) = x rho_c, sign(phi_B) = sign(phidot)."""
+        """(phi_B, phidot_B) of a bounce start: V(phi_B) = x rho_c, sign(phi_B) =
+        ``initial.field_side`` (by default sign(phidot))."""
         rho_c = self.critical_density
         x = check_potential_fraction(float(initial.potential_fraction))
         sign = 1.0 if initial.phidot_sign >= 0 else -1.0
-        phi = potential.field_at(x * rho_c, sign)
+        phi = potential.field_at(x * rho_c, initial.field_side)
         kinetic = max(rho_c - float(potential.V(phi)), 0.0)
         return phi, sign * math.sqrt(2.0 * kinetic)
 

@@ -19,6 +19,9 @@ Configuration (all keys optional except the potential and the chosen start's req
     [background.bounce]
     potential_fraction = 1e-11     # V(phi_B) / rho_c in [0, 1]
     phidot_sign = 1                # +1 or -1
+    field_sign = 0                 # sign of phi_B: +1, -1, or 0 = that of phidot (the field
+                                   # on the side it is thrown up); a Starobinsky bounce that
+                                   # climbs the steep side towards the plateau: -1
 
     [background.classical]
     phi = 3.0                      # m_Pl units
@@ -119,12 +122,16 @@ def initial_from_config(table: Table, start: str, critical_density: float) -> An
                                      f"density rho_c = {critical_density:.5g}")
         return ContractingStart(density, sub.number("phase", 0.0))
     if start == "bounce":
-        sub = table.table("bounce", ("potential_fraction", "phidot_sign"))
+        sub = table.table("bounce", ("potential_fraction", "phidot_sign", "field_sign"))
         sign = sub.integer("phidot_sign", 1)
         if sign not in (-1, 1):
             raise InputError(f"'background.bounce.phidot_sign' = {sign} is not allowed; "
                              "allowed: 1, -1")
-        return BounceStart(POTENTIAL_FRACTION.read(sub), sign)
+        side = sub.integer("field_sign", 0)
+        if side not in (-1, 0, 1):
+            raise InputError(f"'background.bounce.field_sign' = {side} is not allowed; "
+                             "allowed: 1, -1, 0 (the sign of phidot)")
+        return BounceStart(POTENTIAL_FRACTION.read(sub), sign, side)
     sub = table.table("classical", ("phi", "phidot"))
     return ClassicalStart(sub.number("phi"), sub.number("phidot", 0.0))
 

@@ -13,7 +13,7 @@ OPTIONS = Options(output="RUN_DIR/report", compiles=True)
 JSON_KEYS = ("run_name", "model", "run_folder", "constraint_sets", "marginals", "best_fit",
              "allowed_prior_fraction", "allowed_posterior_fraction", "savage_dickey",
              "evidence", "comparisons", "by_set", "failures", "not_evaluable", "p_value_rules",
-             "methods")
+             "methods", "large_scale_term", "bounce")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -67,6 +67,10 @@ def summary_text(v: dict, written: list) -> str:
              "evidence: " + evidence_text(v["evidence"])]
     lines += [f"  {e['name']}: {interval_text(e)}" for e in v["marginals"]]
     lines += [f"  note: {n}" for n in coincidence_notes(v)]
+    if v.get("bounce"):
+        from ..reporting.lowell import bounce_text
+
+        lines.append(bounce_text(v["bounce"]))
     excl = [r["set"] + (" (forecast)" if r["forecast"] else "") for r in v["by_set"]
             if r["best_fit_verdict"] == "excluded"]
     lines.append("best fit excluded by: " + (", ".join(excl) if excl else "no single set"))

@@ -1,6 +1,7 @@
 """Published constraint sets (cited TOML data files) and the Gaussian likelihood."""
 
-from .gaussian import GaussianLikelihood, Score, Term, likelihood_from_config
+from .gaussian import GaussianLikelihood, likelihood_from_config
+from .score import Score, Term
 from .sets import ConstraintSet, available_sets, load_constraint_set
 
 __all__ = [

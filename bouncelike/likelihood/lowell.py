@@ -56,7 +56,7 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import InputError
+from ..errors import InputError, NotEvaluable
 from ..sky.projection import SkyProjection, load_projection
 from ..spectra.oscillations import split_rows
 from ..spectra.powerlaw import PowerLawSpectra
@@ -66,6 +66,9 @@ from .lowell_data import LowEllData
 
 #: Floor of the share of D_ell the projection leaves out, in the anchoring-error estimate.
 MISSING_FLOOR = 0.03
+#: Largest share of a multipole's reference power that may come from wavenumbers where the
+#: spectra are not a prediction (``unrepresented_below`` of a table); beyond it: not evaluable.
+UNREPRESENTED_SHARE = 1e-3
 
 ANCHORING_NOTE = (
     "large-scale temperature (ell {lo}-{hi}): D_ell = D_ell^bestfit x K_ell[P] / "
@@ -120,6 +123,9 @@ class LowEllScore:
     notes: tuple[str, ...] = field(default=())
     p_value_alone: float = math.nan
     p_value_alone_is_bound: bool = False
+    #: T of the power law of the pivot summary, subtracted in the log-likelihood when the pivot
+    #: sets already hold the low multipoles' information on it (likelihood/combined.py)
+    counterpart_total: float = math.nan
 
     @property
     def pulls(self) -> np.ndarray:
@@ -132,7 +138,7 @@ class LowEllScore:
 
     def terms(self) -> list[Any]:
         """One :class:`~.gaussian.Term` per multipole (quantity ``D_<ell>``)."""
-        from .gaussian import Term
+        from .score import Term
 
         out = []
         for i, ell in enumerate(self.ells):
@@ -155,6 +161,7 @@ class LowEllScore:
             "p_value_alone": self.p_value_alone,
             "p_value_alone_is_bound": self.p_value_alone_is_bound,
             "difference_to_reference": self.total - self.reference_total,
+            "counterpart_statistic": self.counterpart_total,
             "multipoles": [int(x) for x in self.ells],
             "anchoring_error": [float(x) for x in self.anchoring_error],
             "sampling_spread": (None if self.sampling_spread is None
@@ -227,6 +234,9 @@ class LowEllTemperature:
         isw_share = np.abs(1.0 - ref_sw / self.reference_unanchored)
         self.anchoring_scale = missing / isw_share
         self.reference_total = self.chi2(self.reference_dell)
+        # share of each multipole's reference power below each node (for unrepresented_below)
+        c = self._ws * ps + self._wt * pt
+        self._reference_share_below = np.cumsum(c, axis=1) / c.sum(axis=1, keepdims=True)
 
     # -- construction --------------------------------------------------------------------
     @classmethod
@@ -249,15 +259,41 @@ class LowEllTemperature:
         return self.data.source
 
     # -- evaluation ----------------------------------------------------------------------
+    def _power(self, spectra: Any) -> tuple[np.ndarray, np.ndarray]:
+        """P_s, P_t on the projection's nodes; NotEvaluable when more than
+        UNREPRESENTED_SHARE of a multipole's power comes from where the spectra are not a
+        prediction (their ``unrepresented_below``)."""
+        below = getattr(spectra, "unrepresented_below", None)
+        if below is not None:
+            k0, why = below
+            j = int(np.searchsorted(self.projection.k, k0))
+            if j > 0:
+                share = self._reference_share_below[:, j - 1]
+                i = int(np.argmax(share))
+                if share[i] > UNREPRESENTED_SHARE:
+                    raise NotEvaluable(
+                        f"large-scale temperature term: ell = {int(self.ells[i])} takes "
+                        f"{share[i]:.2%} of its power from k < {k0:.3g} Mpc^-1, where the "
+                        f"spectra are not a prediction ({why}); at most "
+                        f"{UNREPRESENTED_SHARE:.1%} is allowed")
+        return self.projection.power_on_nodes(spectra)
+
     def predict(self, spectra: Any) -> np.ndarray:
         """Anchored D_ell (micro-K^2) at :attr:`ells`."""
-        ps, pt = self.projection.power_on_nodes(spectra)
+        ps, pt = self._power(spectra)
         return self._anchor * (self._ws @ ps + self._wt @ pt)
+
+    def contributions(self, spectra: Any) -> np.ndarray:
+        """Anchored contribution of each projection node (``projection.k``) to each D_ell
+        (micro-K^2, rows :attr:`ells`; the rows sum to :meth:`predict`): where in k each
+        multipole takes its power from."""
+        ps, pt = self._power(spectra)
+        return self._anchor[:, None] * (self._ws * ps + self._wt * pt)
 
     def prediction(self, spectra: Any, sampling: bool = True) -> LowEllPrediction:
         """Anchored D_ell with the anchoring-error estimate (and, for a plain table whose rows
         zigzag, the spread between projecting its even and its odd rows)."""
-        ps, pt = self.projection.power_on_nodes(spectra)
+        ps, pt = self._power(spectra)
         tensor = self._wt @ pt
         raw = self._ws @ ps + tensor
         dell = self._anchor * raw

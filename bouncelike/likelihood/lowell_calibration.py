@@ -96,6 +96,14 @@ class NullDistribution:
         p = min(self.survival(t), 1.0)
         return (P_FLOOR, True) if p < P_FLOOR else (p, False)
 
+    def isf(self, p: float) -> float:
+        """The smallest grid value t with P(X >= t) <= p (the threshold at which a statistic
+        is excluded at level p; exact to one grid step)."""
+        v = self.values()
+        tail = np.cumsum(self.mass[::-1])[::-1]  # P(X >= v_i)
+        above = np.nonzero(tail <= p)[0]
+        return float(v[above[0]]) if above.size else T_MAX
+
     @property
     def mean(self) -> float:
         return float(np.sum(self.mass * self.values()))

@@ -1,13 +1,18 @@
 """Bounce models in physical parameters, background included: the one chain
 background -> e-folds -> N_* -> N_B* -> k_LQC -> pivot spectrum -> transfer.
 
-One evaluation goes, for V = m^2 phi^2 / 2 on the effective isotropic bounce:
+One evaluation goes, for V = m^2 phi^2 / 2 or the Starobinsky plateau
+V = (3/4) M^2 M_Pl^2 (1 - exp(-sqrt(2/3) phi/M_Pl))^2 on the effective isotropic bounce (every
+shipped potential with a transfer cache, :mod:`bouncelike.perturbations.transfer_backgrounds`):
 
-1. background: the engine from the bounce, x_V = V(phi_B)/rho_c (phidot > 0), to the end of
-   inflation, read through its table view (:mod:`.inflation_search`; for a given N_inflation
-   the potential fraction is found there by a secant search). A background that fails or does
-   not inflate, whose inflation does not end (2000 e-fold cap), or that inflates for fewer
-   e-folds after the bounce than N_* raises :class:`~bouncelike.errors.NumericalFailure`
+1. background: the engine from the bounce, x_V = V(phi_B)/rho_c (phidot > 0; m^2 phi^2:
+   phi_B > 0; Starobinsky: phi_B < 0, the field climbing the steep side towards the plateau --
+   the only bounces with 50-170 e-folds to the end of inflation, transfer_backgrounds.py), to
+   the end of inflation, read through its table view (:mod:`.inflation_search`; for a given
+   N_inflation the potential fraction is found there by a secant search). A background that
+   fails or does not inflate, whose inflation does not end (2000 e-fold cap), or that
+   inflates for fewer e-folds after the bounce than N_* raises
+   :class:`~bouncelike.errors.NumericalFailure`
    (log-likelihood -inf, reason counted); a mass or critical density outside its declared
    range is an :class:`~bouncelike.errors.InputError`;
 2. e-folds: bounce -> end of inflation, N_* given or from the reheating history
@@ -17,10 +22,12 @@ One evaluation goes, for V = m^2 phi^2 / 2 on the effective isotropic bounce:
 3. the standard (no-bounce) spectrum at the pivot's exit k_* = a_* H_*, at next-to-leading
    order in the Hubble-flow parameters (Stewart & Lyth; :mod:`.pivot`);
 4. spectra: that power law times the cached transfer of the bounce
-   (:class:`bouncelike.perturbations.transfer_model.BounceSpectraModel`), handed the power-law
-   numbers, log10 k_LQC, the bounce potential fraction and any background quantity its
-   ``parameter_names`` ask for (the conformal duration of the bounce-to-end stretch,
-   ``log10_conformal_duration``).
+   (:class:`bouncelike.perturbations.transfer_model.BounceSpectraModel` of the potential's
+   family), handed the power-law numbers, log10 k_LQC, the bounce potential fraction and any
+   background quantity its ``parameter_names`` ask for (the conformal duration of the
+   bounce-to-end stretch, ``log10_conformal_duration``). A background the cache does not cover
+   (its D, tilts or x_V outside the calibrated ranges, a window below where the state is set)
+   is not evaluable.
 
 Parameters (a prior file gives each as sampled or fixed; a configuration gives them in
 ``[bounce_physical]`` and ``[reheating]``)
@@ -29,7 +36,7 @@ background (exactly one)  ``log10_potential_fraction``  log10 V(phi_B)/rho_c
                           ``N_inflation``  inflationary e-folds; this is what a prior from
                           the oscillation phase of the contracting branch constrains
                           (``efolds_from_phase``)
-inflaton                  ``mass`` (m_Pl units)
+inflaton                  ``mass`` (m_Pl units): m of m^2 phi^2, M of the Starobinsky plateau
 bounce                    ``critical_density`` (Planck units; 0.40937 for gamma = 0.2375)
 reheating (one choice)    ``N_star``, or ``equation_of_state`` w and ``log10_reheating_density``
                           (log10 rho_reh, Planck units) and optionally
@@ -49,7 +56,7 @@ from pathlib import Path
 from typing import Any
 
 from ..background.limits import check_critical_density, check_mass
-from ..background.potentials import Quadratic
+from ..background.potentials import Quadratic, Starobinsky
 from ..config import Table, read_parameters
 from ..errors import InputError, NumericalFailure
 from ..perturbations.mapping import scale_map
@@ -71,6 +78,7 @@ from ..quantities import (
     PIVOT,
     QUADRATIC_MASS,
     REHEATING,
+    STAROBINSKY_MASS,
     TENSOR_RATIO,
     TILT,
     WINDOW_IN_BOUNCE_UNITS,
@@ -88,6 +96,9 @@ _SUPPLIED = ("ln_1e10_As", "n_s", "r", "log10_k_lqc")
 class _PhysicalBounce(ForwardModel):
     prescription = ""
     state = "remote_past"
+    #: the potential (its transfer-cache family) and the side of the field at the bounce
+    potential: Any = Quadratic
+    field_sign = 1
     parameters = (LOG10_POTENTIAL_FRACTION, N_INFLATION, QUADRATIC_MASS, CRITICAL_DENSITY,
                   *REHEATING)
     optional_parameter_names = ("log10_potential_fraction", "N_inflation",
@@ -103,7 +114,7 @@ class _PhysicalBounce(ForwardModel):
         """``[bounce_physical]`` gives the background (``log10_potential_fraction`` or
         ``N_inflation``), ``mass`` and ``critical_density``; ``[reheating]`` gives N_* or the
         reheating history, with the same keys as a prior file."""
-        own = (LOG10_POTENTIAL_FRACTION, N_INFLATION, QUADRATIC_MASS, CRITICAL_DENSITY)
+        own = self.parameters[:4]
         table = config.table("bounce_physical", [q.name for q in own], required=True)
         values = read_parameters(table, own[2:])
         values.update(read_parameters(table, own[:2], present_only=True))
@@ -139,7 +150,8 @@ class _PhysicalBounce(ForwardModel):
     def _fast(self) -> Any:
         if self._fast_model is None:
             self._fast_model = BounceSpectraModel(prescription=self.prescription, pivot=PIVOT,
-                                                  state=self.state)
+                                                  state=self.state,
+                                                  potential=self.potential.name)
         return self._fast_model
 
     def spectra(self, p: dict[str, float]) -> Any:
@@ -160,13 +172,13 @@ class _PhysicalBounce(ForwardModel):
     def _compute(self, p: dict[str, float]) -> tuple[dict[str, float], dict[str, float]]:
         mass = check_mass(float(p["mass"]), "mass", zero=False)
         rho_c = check_critical_density(p["critical_density"], "critical_density")
-        pot = Quadratic(mass=mass)
+        pot = self.potential(mass=mass)
         dyn = dynamics_for(rho_c)
         if "N_inflation" in p:
-            lx = potential_fraction_for(dyn, pot, p["N_inflation"])
+            lx = potential_fraction_for(dyn, pot, p["N_inflation"], self.field_sign)
         else:
             lx = p["log10_potential_fraction"]
-        tab = bounce_background(dyn, pot, lx)
+        tab = bounce_background(dyn, pot, lx, self.field_sign)
         if "N_star" in p:
             n_star = p["N_star"]
         else:
@@ -231,3 +243,44 @@ class PhysicalBounceLowEnergy(PhysicalBounceDressedMetric):
     state = "low_energy"
 
 
+class _Plateau:
+    """The Starobinsky plateau: the field on the steep side at the bounce (phi_B < 0)
+    climbing towards the plateau (transfer_backgrounds.py: the only such bounces with 50-170
+    e-folds to the end of inflation); cache family "starobinsky" (x_V = 1e-8 to 10^-6.9, M =
+    1.5e-6 to 4e-6)."""
+
+    potential = Starobinsky
+    field_sign = -1
+    parameters = (LOG10_POTENTIAL_FRACTION, N_INFLATION, STAROBINSKY_MASS, CRITICAL_DENSITY,
+                  *REHEATING)
+
+
+class PhysicalBounceStarobinsky(_Plateau, PhysicalBounceDressedMetric):
+    """Remote-past state: not set below 0.363 k_LQC on these bounces (a window or a
+    large-scale term reaching there is not evaluable)."""
+
+    name = "bounce_physical_dressed_metric_starobinsky"
+    title = "Bounce in physical parameters, Starobinsky plateau, dressed metric, remote past"
+
+
+class PhysicalBounceStarobinskyNonOscillating(_Plateau, PhysicalBounceNonOscillating):
+    """Non-oscillating vacuum (cached and certified from 0.01 k_LQC on these bounces)."""
+
+    name = "bounce_physical_dressed_metric_non_oscillating_starobinsky"
+    title = ("Bounce in physical parameters, Starobinsky plateau, dressed metric, "
+             "non-oscillating state")
+
+
+class PhysicalBounceStarobinskyLowEnergy(_Plateau, PhysicalBounceLowEnergy):
+    """State of low energy (cached and certified from 0.1 k_LQC on these bounces)."""
+
+    name = "bounce_physical_dressed_metric_low_energy_starobinsky"
+    title = ("Bounce in physical parameters, Starobinsky plateau, dressed metric, state of "
+             "low energy")
+
+
+class PhysicalBounceStarobinskyDeformedAlgebra(_Plateau, PhysicalBounceDeformedAlgebra):
+    """Deformed algebra (cached from 3 k_LQC only on these bounces)."""
+
+    name = "bounce_physical_deformed_algebra_starobinsky"
+    title = "Bounce in physical parameters, Starobinsky plateau, deformed algebra"

@@ -20,7 +20,8 @@ never chooses code to import.
 ``bounce_dressed_metric_low_energy``
 ``bounce_physical_dressed_metric``,       background -> e-folds -> N_* -> N_B* -> k_LQC ->
 ``bounce_physical_deformed_algebra``,     pivot spectrum (Stewart-Lyth) -> cached transfer
-``bounce_physical_dressed_metric_non_oscillating``, ``..._low_energy``
+``bounce_physical_dressed_metric_non_oscillating``, ``..._low_energy``; each also on the
+``..._starobinsky``                       Starobinsky plateau (``bounce_physical_*_starobinsky``)
 ``table``                                 spectra read from a CSV file (``[table] file``,
                                           relative to the configuration's folder); scored only
 ========================================  ====================================================
@@ -41,6 +42,10 @@ from .bounce_physical import (
     PhysicalBounceDressedMetric,
     PhysicalBounceLowEnergy,
     PhysicalBounceNonOscillating,
+    PhysicalBounceStarobinsky,
+    PhysicalBounceStarobinskyDeformedAlgebra,
+    PhysicalBounceStarobinskyLowEnergy,
+    PhysicalBounceStarobinskyNonOscillating,
 )
 from .bounce_transfer import (
     BounceDeformedAlgebra,
@@ -70,7 +75,8 @@ MODELS: dict[str, type[ForwardModel]] = {cls.name: cls for cls in (
     PowerLawModel, QuadraticSlowRoll, StarobinskySlowRoll, BounceModel, BounceDressedMetric,
     BounceDeformedAlgebra, BounceDressedMetricNonOscillating, BounceDressedMetricLowEnergy,
     PhysicalBounceDressedMetric, PhysicalBounceDeformedAlgebra, PhysicalBounceNonOscillating,
-    PhysicalBounceLowEnergy, TableModel)}
+    PhysicalBounceLowEnergy, PhysicalBounceStarobinsky, PhysicalBounceStarobinskyNonOscillating,
+    PhysicalBounceStarobinskyLowEnergy, PhysicalBounceStarobinskyDeformedAlgebra, TableModel)}
 
 
 

@@ -131,8 +131,14 @@ class BounceSpectraModel:
             period_mean = self._powers(params, self.table.ln_mean_transfer(x, d, split=True),
                                        lk)[:2]
             period = math.pi / (x * d)
+        floor, why = represented_floor(self.table)
+        t = self.table
+        below = ((floor * 10 ** params["log10_k_lqc"],
+                  f"k < {floor:.3g} k_LQC: {why}; {t.prescription}, {t.state}, {t.family} "
+                  "bounces") if why else None)
         return TabulatedSpectra(self.k, ps, pt, notes=notes, label="bounce transfer model",
-                                period_mean=period_mean, oscillation_period=period)
+                                period_mean=period_mean, oscillation_period=period,
+                                unrepresented_below=below)
 
     @staticmethod
     def _powers(params: dict, lt: dict, lk: np.ndarray):

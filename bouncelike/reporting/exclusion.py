@@ -15,9 +15,10 @@ lattice has (grid - 1) 2^refine + 1 points per axis, evaluated only near the bou
 region smaller than a coarse cell that touches no coarse corner can be missed; raise ``grid``
 to see it).
 
-Each set's boundary is drawn where its chi-square crosses its 95% threshold (the chi-square
-quantile for its number of terms, i.e. p = 0.05 for that set alone), interpolated linearly
-between lattice points.
+Each set's boundary is drawn where its statistic crosses its 95% threshold (p = 0.05 for that
+set alone: the chi-square quantile for its number of terms; for the large-scale temperature
+set the quantile of the calibrated law of its statistic), interpolated linearly between
+lattice points.
 """
 
 from __future__ import annotations
@@ -41,12 +42,12 @@ HEAD = 3
 
 def point_status(spectra_of: Callable[[dict], Any], likelihood: Any, singles: Sequence[Any],
                  params: dict[str, float]) -> np.ndarray:
-    """[combined code, combined chi2 minus its 95% and 99.7% thresholds, then per set chi2
-    minus its own 95% threshold (> 0: excluded at 95% by that set alone)]; NaN where the point
-    cannot be scored. Thresholds: chi-square quantiles for the number of terms (p = 0.05 and
-    0.003, one configuration)."""
-    from scipy.stats import chi2 as chi2_dist
-
+    """[combined code, combined statistic minus its 95% and 99.7% thresholds, then per set
+    statistic minus its own 95% threshold (> 0: excluded at 95% by that set alone)]; NaN where
+    the point cannot be scored. Thresholds (one configuration, p = 0.05 and 0.003): chi-square
+    quantiles for the number of terms, or, with the large-scale temperature term, quantiles of
+    its calibrated law (:func:`~bouncelike.likelihood.combined.statistic_threshold`)."""
+    from ..likelihood.combined import statistic_threshold
     from .proportions import evaluate_point, score_outcome
 
     out = np.full(HEAD + len(singles), np.nan)
@@ -60,13 +61,12 @@ def point_status(spectra_of: Callable[[dict], Any], likelihood: Any, singles: Se
         out[0] = ALLOWED
     else:
         out[0] = EXCLUDED_997 if sc.excluded_at and sc.excluded_at > 0.99 else EXCLUDED_95
-    if sc.low_ell is None:  # the combined statistic with the low-ell term has its own p
-        out[1] = sc.chi2 - float(chi2_dist.isf(0.05, sc.dof))
-        out[2] = sc.chi2 - float(chi2_dist.isf(0.003, sc.dof))
+    out[1] = sc.chi2 - statistic_threshold(likelihood, sc, 0.05)
+    out[2] = sc.chi2 - statistic_threshold(likelihood, sc, 0.003)
     for k, lk in enumerate(singles):
         o, s1 = score_outcome(lk, spec)
         if o in ("allowed", "excluded"):
-            out[HEAD + k] = s1.chi2 - float(chi2_dist.isf(0.05, s1.dof))
+            out[HEAD + k] = s1.chi2 - statistic_threshold(lk, s1, 0.05)
     return out
 
 

@@ -23,11 +23,13 @@ DRAWING_AS = float(np.exp(3.044) * 1e-10)
 
 
 def spectra_figure(k: np.ndarray, best: Any, band_scalar: np.ndarray,
-                   band_tensor: np.ndarray | None, sets: Sequence[Any], title: str
-                   ) -> tuple[Any, dict[str, Any]]:
+                   band_tensor: np.ndarray | None, sets: Sequence[Any], title: str,
+                   k_ranges: dict[str, Any] | None = None) -> tuple[Any, dict[str, Any]]:
     """Best-fit P_s and P_t with 68/95% posterior bands (equal-tailed, per k), the observable
-    window and the constraint bands of the sets (amplitude and tilt as a wedge, r limits as
-    arrows); returns the figure and the band quantiles it draws."""
+    window, the constraint bands of the sets (amplitude and tilt as a wedge, r limits as
+    arrows) and, with ``k_ranges`` (:func:`.lowell.multipole_k_ranges`), the k each multipole
+    of the large-scale temperature term probes (ticks at the top of the scalar panel); returns
+    the figure and the numbers it draws."""
     n_panels = 2 if band_tensor is not None else 1
     data: dict[str, Any] = {"k_per_Mpc": k, "quantiles": [0.025, 0.16, 0.5, 0.84, 0.975]}
     with style.styled() as plt:
@@ -46,6 +48,11 @@ def spectra_figure(k: np.ndarray, best: Any, band_scalar: np.ndarray,
             ax.plot(k, best.scalar(k) if kind == "scalar" else best.tensor(k),
                     color=style.BEST_FIT, lw=1.4)
             _constraint_bands(ax, kind, sets, k)
+            if k_ranges is not None and kind == "scalar":
+                from .lowell import mark_k_ranges
+
+                mark_k_ranges(ax, k_ranges)
+                data["multipole_k_ranges"] = k_ranges
             ax.set_xscale("log")
             ax.set_yscale("log")
             ax.set_xlabel(notation.WAVENUMBER)

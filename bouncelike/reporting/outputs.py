@@ -9,12 +9,16 @@ caption (data-set citations, interval definitions and rules) and the numbers it 
 ``ns_r``                     the n_s - r plane: published regions, posterior, slow-roll marks
 ``exclusion_map``            combined verdict over two sampled parameters, each set's boundary
 ``not_evaluable``            where the model could not be evaluated (when it could not)
-``spectra``                  P_s and P_t with posterior bands and the sets' constraints
+``spectra``                  P_s and P_t with posterior bands and the sets' constraints, the k
+                             each multipole of the large-scale temperature term probes
+``dell``                     D_ell at multipoles 2-29: data, best-fit LCDM, the model's best fit
+                             and posterior bands (the term, its approximation and sources)
 ``efolds``                   prior and posterior of an e-fold number (when the model has one)
 ==========================  ===================================================================
 
 Figures come as ``.pdf`` and ``.png`` with ``.caption.txt``; the triangle plot, the n_s - r
-plane, the exclusion map and the spectra also write the numbers they draw as ``.json``.
+plane, the exclusion map, the spectra and the D_ell figure also write the numbers they draw as
+``.json``.
 """
 
 from __future__ import annotations
@@ -27,7 +31,7 @@ from . import exclusion, figures, notation, nsr, proportions, refusals, style, t
 from .goodness import P_VALUE_RULES
 from .marginals import INTERVAL_DEFINITION
 
-FIGURES = ("triangle", "ns_r", "exclusion_map", "not_evaluable", "spectra", "efolds")
+FIGURES = ("triangle", "ns_r", "exclusion_map", "not_evaluable", "spectra", "dell", "efolds")
 
 
 def write_report(folder: str | Path, data: dict[str, Any],
@@ -58,9 +62,10 @@ def write_report(folder: str | Path, data: dict[str, Any],
     written += _exclusion_map(out, data, v, cite, model)
     written += _not_evaluable(out, data, v, cite, model)
     fd = data["figures"]
+    kr = fd["dell"]["k_ranges"]
     fig, drawn = figures.spectra_figure(fd["k"], fd["best"], fd["scalar"], fd["tensor"],
                                         list(data["constraint_sets"]),
-                                        f"{model}: best fit and posterior bands")
+                                        f"{model}: best fit and posterior bands", kr)
     written += style.save_with_caption(
         fig, out / "spectra",
         "Primordial scalar and tensor power spectra P_s and P_t (comoving k in Mpc^-1): best "
@@ -68,7 +73,12 @@ def write_report(folder: str | Path, data: dict[str, Any],
         f"{len(fd['scalar'])} posterior samples at each k), the observable window 1e-4 to "
         "0.2 Mpc^-1 (common practice), the 68% bands of amplitude and tilt of the sets "
         "(errors combined as independent) and their 95% upper limits on r drawn as tensor "
-        "amplitudes r_lim x A_s with the Planck 2018 A_s.\n" + cite, drawn)
+        "amplitudes r_lim x A_s with the Planck 2018 A_s. Ticks at the top of the scalar "
+        f"panel: the median k of each multipole {kr['ells'][0]}-{kr['ells'][-1]} of the "
+        "large-scale temperature term; bars: the k range holding the central "
+        f"{kr['mass']:.0%} of the power of ell = {kr['ells'][0]} and {kr['ells'][-1]} (for the "
+        "reference power law; see dell.caption.txt).\n" + cite, drawn)
+    written += _dell(out, data, v, cite, model)
     if fd["efold"] is not None:
         e = fd["efold"]
         fig = figures.efolds_figure(e["posterior"], e["prior"], e["name"], e["label"],
@@ -77,6 +87,17 @@ def write_report(folder: str | Path, data: dict[str, Any],
             fig, out / "efolds", f"Prior and posterior distribution of {e['name']} "
             f"(histograms, {len(e['posterior'])} posterior samples).\n" + cite)
     return written
+
+
+def _dell(out: Path, data: dict[str, Any], v: dict[str, Any], cite: str, model: str
+          ) -> list[Path]:
+    """The D_ell figure of the large-scale temperature term (every report)."""
+    from . import lowell
+
+    d = data["figures"]["dell"]
+    fig = lowell.dell_figure(d, f"{model}: temperature power at the largest scales")
+    return style.save_with_caption(fig, out / "dell",
+                                   lowell.caption(d, v["large_scale_term"], cite), d)
 
 
 def _triangle(out: Path, data: dict[str, Any], v: dict[str, Any], cite: str, model: str
@@ -126,7 +147,7 @@ def _exclusion_map(out: Path, data: dict[str, Any], v: dict[str, Any], cite: str
     fd = data["figures"]
     m = fd["map"]
     fixed = ", ".join(f"{k} = {val:.4g}" for k, val in fd["map_fixed"].items())
-    set_labels = [notation.set_label(s) for s in data["constraint_sets"]]
+    set_labels = [notation.set_label(s) for s in v["constraint_set_citations"]]  # every set
     fig, drawn = exclusion.exclusion_map_figure(
         m, set_labels, fd["map_axes"], fd["map_samples"], fd.get("map_refused") or {},
         fd["map_best"], f"{model}: exclusion map")

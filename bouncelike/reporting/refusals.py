@@ -12,7 +12,12 @@ be evaluated while the data do not disfavour the evaluable ones: their mean like
 least :data:`DATA_RATIO` of the mean likelihood of the samples they were moved from (or none
 is evaluable). Where the evaluable points beyond are disfavoured, the bound is a data bound
 even if some points there cannot be evaluated. Only sampled parameters are probed (a derived
-one cannot be moved on its own).
+one cannot be moved on its own); a bound of a derived parameter (N_B*, k_LQC of a physical
+bounce) is judged by the sampled parameter that carries it (:func:`derived_coincidences`):
+the one most correlated with it over the posterior, if |correlation| >=
+:data:`CARRIER_CORRELATION`, whose bound on the corresponding side (the same side for a
+positive correlation, the other for a negative one) decides; with no such carrier, or no bound
+of the carrier on that side, the derived bound is reported as not judged.
 """
 
 from __future__ import annotations
@@ -30,11 +35,14 @@ REFUSED = ("not_evaluable", "numerical_failure", "model_error")
 COINCIDENCE_FRACTION = 0.25
 DATA_RATIO = 0.5
 PROBES = 60
+CARRIER_CORRELATION = 0.5
 RULE = ("a bound coincides with a not-evaluable region when, of posterior samples moved across "
         "it (the parameter redrawn uniformly on the ruled-out side, the others kept), at least "
         f"{COINCIDENCE_FRACTION:.0%} cannot be evaluated and the evaluable ones keep at least "
         f"{DATA_RATIO:.0%} of the mean likelihood of the samples they were moved from (the data "
-        "do not disfavour that side); it is then not a data bound")
+        "do not disfavour that side); it is then not a data bound. A bound of a derived "
+        "parameter is judged by the sampled parameter most correlated with it (|r| >= "
+        f"{CARRIER_CORRELATION:g}), through that parameter's bound on the corresponding side")
 
 
 def _sides(entry: dict[str, Any], lower: float, upper: float) -> list[tuple[str, float, float]]:
@@ -88,6 +96,42 @@ def coincidences(marginals: Sequence[dict[str, Any]], bounds: dict[str, tuple[fl
                          "coincides": bool(n > 0 and k >= COINCIDENCE_FRACTION * n
                                            and undisfavoured)})
     return rows
+
+
+def derived_coincidences(marginals: Sequence[dict[str, Any]], rows: Sequence[dict[str, Any]],
+                         columns: dict[str, np.ndarray], sampled: Sequence[str]
+                         ) -> list[dict[str, Any]]:
+    """Each bound of a derived parameter judged by its carrier (module docstring): ``rows``
+    are the sampled parameters' rows of :func:`coincidences`, ``columns`` the posterior
+    samples by name. ``coincides`` is True, False or None (not judged)."""
+    out = []
+    for e in marginals:
+        name = e["name"]
+        if name in sampled or name not in columns:
+            continue
+        sides = [side for side, _, _ in _sides(e, -math.inf, math.inf)]
+        if not sides:
+            continue
+        x = np.asarray(columns[name], dtype=float)
+        best, corr = None, 0.0
+        for c in sampled:
+            y = np.asarray(columns[c], dtype=float)
+            ok = np.isfinite(x) & np.isfinite(y)
+            if ok.sum() > 2 and np.std(x[ok]) > 0 and np.std(y[ok]) > 0:
+                r = float(np.corrcoef(x[ok], y[ok])[0, 1])
+                if abs(r) > abs(corr):
+                    best, corr = c, r
+        for side in sides:
+            row = None
+            if best is not None and abs(corr) >= CARRIER_CORRELATION:
+                carried = side if corr > 0 else ("above" if side == "below" else "below")
+                row = next((r for r in rows if r["parameter"] == best
+                            and r["side"] == carried), None)
+            out.append({"parameter": name, "side": side, "bound": bound_text(e, side),
+                        "carrier": best, "correlation": corr,
+                        "carrier_bound": row["bound"] if row else None,
+                        "coincides": bool(row["coincides"]) if row else None})
+    return out
 
 
 def recorded_refusals(folder: Any, names: Sequence[str]) -> dict[str, np.ndarray]:
@@ -171,8 +215,15 @@ def refusals_figure(posterior: np.ndarray, names: Sequence[str], labels: dict[st
 
 
 def coincidence_notes(v: dict[str, Any]) -> list[str]:
-    """One line per bound that coincides with a not-evaluable region."""
-    rows = (v.get("not_evaluable") or {}).get("coincidences", [])
-    return [f"{c['bound']} coincides with the edge of the region where the model is not "
-            f"evaluable ({c['not_evaluable']} of {c['probes']} samples moved beyond it are "
-            "not evaluable): not a data bound" for c in rows if c["coincides"]]
+    """One line per bound that coincides with a not-evaluable region (derived bounds through
+    their carrier)."""
+    ne = v.get("not_evaluable") or {}
+    rows = ne.get("coincidences", [])
+    notes = [f"{c['bound']} coincides with the edge of the region where the model is not "
+             f"evaluable ({c['not_evaluable']} of {c['probes']} samples moved beyond it are "
+             "not evaluable): not a data bound" for c in rows if c["coincides"]]
+    notes += [f"{d['bound']} coincides with the edge of the region where the model is not "
+              f"evaluable (carried by {d['carrier_bound']}, correlation "
+              f"{d['correlation']:+.2f}): not a data bound"
+              for d in ne.get("derived", []) if d["coincides"]]
+    return notes

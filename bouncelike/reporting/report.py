@@ -17,11 +17,13 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError
-from ..likelihood.gaussian import VERDICT_RULE
+from ..likelihood.combined import COMBINED_RULE
+from ..likelihood.score import VERDICT_RULE
 from ..sampling import chains
 from ..sampling.setup import rebuild_from_manifest
 from . import evidence as E
 from . import exclusion, goodness, nsr, proportions, refusals
+from . import lowell as lowell_report
 from .marginals import INTERVAL_DEFINITION, marginal_statistics
 from .settings import report_settings
 
@@ -58,15 +60,18 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
     best_params = params_of(best_theta)
     best_spectra = model.spectra(best_params)
     best_score = likelihood.score(best_spectra)
+    low_ell = getattr(likelihood, "low_ell", None)
     fit = goodness.best_fit_goodness(
         best_score.chi2, best_score.dof,
         goodness.model_dimensionality(frame["log_likelihood"].to_numpy()), sampled,
         goodness.constrained_parameters(x, prior.draw(rng, 4000), sampled),
-        bound=bool(getattr(best_score, "bound", False)))
+        bound=bool(getattr(best_score, "bound", False)),
+        low_ell_terms=len(low_ell.ells) if low_ell is not None else 0,
+        p_of=low_ell.p_value if low_ell is not None else None)
     subset_idx = rng.choice(len(x), size=min(rs["rescore_samples"], len(x)), replace=False)
     subset = [params_of(x[i]) for i in subset_idx]
     by_set = goodness.rescore_by_set(model.spectra, best_params, subset,
-                                     _all_sets(likelihood))
+                                     _all_sets(likelihood), likelihood)
     prior_points = [params_of(t) for t in prior.draw(rng, rs["prior_draws"])]
     prior_outcomes = proportions.classify_points(model.spectra, likelihood, prior_points)
     allowed_prior = proportions.outcome_fractions(prior_outcomes)
@@ -83,10 +88,10 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
         return out[1] if math.isfinite(out[0]) else -math.inf
 
     ev = E.log_evidence(log_like, prior, x, n=rs["evidence_draws"], seed=rs["seed"])
-    sets = [s.as_dict() for s in likelihood.sets]
-    low_ell = getattr(likelihood, "low_ell", None)
-    if low_ell is not None:  # the large-scale temperature set of a combined likelihood
-        sets.append(low_ell.data.as_dict())
+    sets = [s.as_dict() for s in likelihood.sets]  # pivot sets and any low-ell set
+    rules = dict(goodness.P_VALUE_RULES)
+    if low_ell is not None:
+        rules.update(goodness.COMBINED_P_VALUE_RULES)
     verdict = {
         "run_name": manifest.get("run_name", folder.name), "model": manifest["model"],
         "model_title": prior.title or manifest["model"],
@@ -102,8 +107,9 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
         "savage_dickey": sd,
         "evidence": ev,
         "by_set": by_set,
-        "verdict_rule": VERDICT_RULE,
-        "p_value_rules": goodness.P_VALUE_RULES,
+        "verdict_rule": COMBINED_RULE if low_ell is not None else VERDICT_RULE,
+        "p_value_rules": rules,
+        "large_scale_term": lowell_report.term_statement(likelihood),
         "failures": manifest.get("run", {}).get("failures", {}),
         "failure_summary": manifest.get("run", {}).get("failure_summary", {}),
         "loading_notes": loading_notes,
@@ -115,6 +121,7 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
                 _prober(model, likelihood, x, frame["log_likelihood"].to_numpy(), sampled,
                         params_of, rs["seed"])),
             "rule": refusals.RULE,
+            "derived": [],
             "run_reasons": refusals.survey_rows(
                 manifest.get("run", {}).get("failure_summary", {}) or {})},
         "methods": {
@@ -125,15 +132,21 @@ def compute_report(folder: str | Path) -> dict[str, Any]:
                                 "evaluate are counted as not evaluable, never as excluded",
             "nested": "Savage-Dickey density ratio at the prior file's nested_value",
             "evidence": ev["method"] + "; " + E.RELIABILITY_RULE,
-            "p_values": goodness.P_VALUE_RULES,
+            "p_values": rules,
         },
     }
+    ne = verdict["not_evaluable"]
+    ne["derived"] = refusals.derived_coincidences(
+        marg, ne["coincidences"], {n: frame[n].to_numpy() for n in params_all}, sampled)
+    verdict["bounce"] = lowell_report.bounce_bounds(
+        {n: frame[n].to_numpy() for n in params_all}, verdict)
     verdict["comparisons"] = _comparisons(verdict, rs, manifest)
     fig_data = _figure_data(folder, prior, model, likelihood, frame, x, best_spectra, rs, rng,
                             params_of, best_theta)
     return {"verdicts": verdict, "figures": fig_data, "settings": rs, "prior": prior,
             "frame": frame, "sampled": sampled, "derived": derived, "manifest": manifest,
-            "constraint_sets": likelihood.sets, "best_params": best_params,
+            "constraint_sets": _pivot_sets(likelihood),
+            "best_params": best_params,
             "best_row": {n: float(frame[n].iloc[i_best]) for n in params_all}}
 
 
@@ -164,12 +177,21 @@ def _prober(model: Any, likelihood: Any, x: np.ndarray, log_like: np.ndarray,
 
 
 def _all_sets(likelihood: Any) -> list[Any]:
-    """Every shipped set, plus the run's own set files (rescored one by one)."""
+    """Every shipped set (pivot and large-scale temperature), plus the run's own set files
+    (rescored one by one)."""
+    from ..likelihood.lowell_data import available_low_ell_sets
     from ..likelihood.sets import available_sets, load_constraint_set
 
     shipped = [load_constraint_set(n) for n in available_sets()]
     names = {s.name for s in shipped}
+    shipped += [load_constraint_set(n) for n in available_low_ell_sets()]
+    names = {s.name for s in shipped}
     return shipped + [s for s in likelihood.sets if s.name not in names]
+
+
+def _pivot_sets(likelihood: Any) -> tuple[Any, ...]:
+    """The pivot constraint sets of a likelihood (the figures of amplitude, tilt and r)."""
+    return tuple(getattr(likelihood, "pivot_sets", likelihood.sets))
 
 
 def _comparisons(verdict: dict[str, Any], rs: dict[str, Any], manifest: dict[str, Any]
@@ -216,12 +238,13 @@ def _figure_data(folder: Path, prior: Any, model: Any, likelihood: Any, frame: A
                  x: np.ndarray,
                  best_spectra: Any, rs: dict[str, Any], rng: np.random.Generator,
                  params_of: Any, best_theta: np.ndarray) -> dict[str, Any]:
-    from ..likelihood.gaussian import GaussianLikelihood
+    from ..likelihood.combined import single_set_likelihood
     from ..spectra.summary import summarize
 
     k = np.logspace(-5, 0, 160)
     idx = rng.choice(len(x), size=min(rs["band_samples"], len(x)), replace=False)
-    scal, tens, ns_r = [], [], []
+    term, term_used = lowell_report.term_for_figure(likelihood)
+    scal, tens, ns_r, dells = [], [], [], []
     for i in idx:
         outcome, s, sc = proportions.evaluate_point(model.spectra, likelihood,
                                                     params_of(x[i]))
@@ -229,6 +252,9 @@ def _figure_data(folder: Path, prior: Any, model: Any, likelihood: Any, frame: A
             continue  # a failed sample is left out of the bands
         scal.append(s.scalar(k))
         tens.append(s.tensor(k))
+        dell = _dell_or_none(term, s, sc, term_used)
+        if dell is not None:
+            dells.append(dell)
         summ = next((m for m in sc.summaries if m.pivot == nsr.PIVOT), None)
         if summ is None:
             summ = summarize(s, nsr.PIVOT)
@@ -247,7 +273,7 @@ def _figure_data(folder: Path, prior: Any, model: Any, likelihood: Any, frame: A
         span = hi - lo
         return max(p.lower, lo - 0.6 * span), min(p.upper, hi + 0.6 * span)
 
-    singles = [GaussianLikelihood([s]) for s in likelihood.sets]
+    singles = [single_set_likelihood(s, likelihood) for s in likelihood.sets]
 
     def status(va: float, vb: float) -> np.ndarray:
         theta = best_theta.copy()
@@ -267,7 +293,20 @@ def _figure_data(folder: Path, prior: Any, model: Any, likelihood: Any, frame: A
             "ns_r_points": np.array(ns_r).reshape(-1, 2),
             "ns_r_best": ((best_summary.n_s, best_summary.r) if best_summary.fit_ok
                           else None),
-            "efold": _efold_data(prior, model, frame, names, rng, params_of)}
+            "efold": _efold_data(prior, model, frame, names, rng, params_of),
+            "dell": lowell_report.figure_data(term, best_spectra, np.array(dells), term_used)}
+
+
+def _dell_or_none(term: Any, spectra: Any, score: Any, used: bool) -> np.ndarray | None:
+    """A sample's anchored D_ell for the D_ell figure: its score's when the run's likelihood
+    has the term (None when it could not score the sample), else predicted here (None when
+    the projection cannot read the spectra)."""
+    if used:
+        return score.low_ell.predicted if getattr(score, "low_ell", None) is not None else None
+    try:
+        return term.predict(spectra)
+    except Exception:  # noqa: BLE001 - e.g. a table not covering the projection's k range
+        return None
 
 
 def _efold_data(prior: Any, model: Any, frame: Any, names: list[str],

@@ -109,12 +109,17 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
     out.append("**Posterior samples allowed**: "
                + outcome_text(v["allowed_posterior_fraction"], "posterior samples") + ".")
     ne = v.get("not_evaluable") or {}
-    edge = {(c["parameter"]) for c in ne.get("coincidences", []) if c["coincides"]}
+    edge = {(c["parameter"]) for c in (*ne.get("coincidences", []), *ne.get("derived", []))
+            if c["coincides"]}
     out += ["", "## Marginal constraints", ""]
     out.extend(f"- {e['name']}: {interval_text(e)}"
                + (" -- coincides with a region where the model is not evaluable (below); "
                   "not a data bound" if e["name"] in edge else "") for e in v["marginals"])
     out += ["", f"Intervals: {INTERVAL_DEFINITION}."]
+    if v.get("bounce"):
+        from .lowell import bounce_text
+
+        out += ["", "## Where the bounce may sit", "", bounce_text(v["bounce"]) + "."]
     if v.get("savage_dickey"):
         out += ["", "## Nested settings (Savage-Dickey density ratio)", ""]
         for name, sd in v["savage_dickey"].items():
@@ -150,8 +155,18 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
                        f"{proportions.fraction_text(r['prior_fraction'], 'survey draws')}"
                        for r in ne["run_reasons"])
             out.append("")
-        if not any(c["coincides"] for c in ne.get("coincidences", [])):
-            out.append("No bound of a sampled parameter coincides with a not-evaluable region.")
+        derived = [d for d in ne.get("derived", []) if d["coincides"] is not None]
+        if derived:
+            out.append("Bounds of derived parameters, judged through the sampled parameter "
+                       "that carries them:")
+            out.append("")
+            out.extend(f"- {d['bound']}: carried by {d['carrier']} (correlation "
+                       f"{d['correlation']:+.2f}; {d['carrier_bound']}): "
+                       + ("coincides with the not-evaluable edge, not a data bound"
+                          if d["coincides"] else "a data bound") for d in derived)
+            out.append("")
+        if not any(c["coincides"] for c in (*ne.get("coincidences", []), *derived)):
+            out.append("No bound coincides with a not-evaluable region.")
         out.append(f"Rule: {ne['rule']}.")
     ev = v.get("evidence")
     if ev:
@@ -169,6 +184,8 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
         verdict = r["best_fit_verdict"] + (f" ({r['best_fit_excluded_at']:.1%})"
                                            if r.get("best_fit_excluded_at") else "")
         chi2 = ("> " if r.get("best_fit_bound") else "") + _num(r["best_fit_chi2"], 3)
+        if r.get("kind") == "temperature_low_ell":
+            chi2 = f"T = {chi2}"  # the low-ell statistic, with its calibrated p
         excl = r.get("posterior_excluded")
         frac = (proportions.fraction_text(excl, "scored") if excl
                 else _num(r["posterior_fraction_excluded_95"], 3))
@@ -177,6 +194,11 @@ def verdicts_markdown(v: dict[str, Any]) -> str:
         out.append(f"| {r.get('label', r['set'])} ({r['set']}) | "
                    f"{'yes' if r['forecast'] else 'no'} | {chi2} ({r.get('best_fit_dof', '')}) "
                    f"| {verdict} | {frac} | arXiv:{r['arxiv']} |")
+    if v.get("large_scale_term"):
+        from .lowell import statement_lines
+
+        out += ["", "## Large-scale temperature term", ""]
+        out.extend(statement_lines(v["large_scale_term"]))
     out += ["", "## Rules", ""]
     out.append(f"- {v['verdict_rule']}.")
     for name, rule in v.get("p_value_rules", goodness.P_VALUE_RULES).items():

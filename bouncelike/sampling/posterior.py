@@ -112,6 +112,11 @@ class SummarisedSpectra:
     def summary_at(self, pivot: float) -> Any:
         return self.summaries[pivot]
 
+    @property
+    def unrepresented_below(self) -> Any:
+        """Where the wrapped spectra stop being a prediction (TabulatedSpectra), if known."""
+        return getattr(self.spectra, "unrepresented_below", None)
+
     def averaged_power(self, k: Any, resolution: float | None) -> Any:
         """Period-mean protocol of the wrapped spectra (bouncelike.spectra.oscillations)."""
         from ..spectra.oscillations import averaged_power

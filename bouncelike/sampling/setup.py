@@ -188,7 +188,8 @@ def build_run(config_path: str | Path, *, workers: int | None = None,
         "likelihood_sources": likelihood_sources(likelihood),
         "likelihood_settings": {"allow_overlap": likelihood.allow_overlap,
                                 "fit_tolerance": likelihood.tolerance,
-                                "fit_half_width": likelihood.half_width},
+                                "fit_half_width": likelihood.half_width,
+                                "low_ell_range": _ell_range_of(likelihood)},
         "fingerprint": fingerprint,
         "loading": "pandas.read_csv('<run>/samples.csv') (burn-in removed, thinned) or "
                    "chain.csv (every step; drop step <= run.burn_in)",
@@ -205,11 +206,12 @@ def likelihood_sources(likelihood: Any) -> list[dict[str, Any]]:
     from importlib import resources
 
     data_dir = Path(str(resources.files("bouncelike.likelihood") / "data")).resolve()
+    shipped_dirs = (data_dir, data_dir / "low_ell")
     out = []
-    for s in likelihood.sets:
+    for s in likelihood.sets:  # pivot sets and the large-scale temperature set
         path = Path(s.path).resolve()
         data = path.read_bytes()
-        out.append({"name": s.name, "path": str(path), "shipped": path.parent == data_dir,
+        out.append({"name": s.name, "path": str(path), "shipped": path.parent in shipped_dirs,
                     "sha256": hashlib.sha256(data).hexdigest(),
                     "text": data.decode("utf-8")})
     return out
@@ -222,7 +224,9 @@ def likelihood_from_manifest(manifest: dict[str, Any]) -> Any:
     if sources is None:
         config = Table(manifest["config"], "", tuple(manifest["config"]))
         return likelihood_of(config, Path(manifest.get("config_file", ".")).parent)
-    from ..likelihood.gaussian import GaussianLikelihood
+    from ..likelihood.combined import likelihood_from_sets
+    from ..likelihood.lowell_data import KIND as LOW_ELL_KIND
+    from ..likelihood.lowell_data import parse_low_ell_set
     from ..likelihood.sets import parse_constraint_set
 
     where = "run manifest"
@@ -233,11 +237,16 @@ def likelihood_from_manifest(manifest: dict[str, Any]) -> Any:
             if hashlib.sha256(text.encode("utf-8")).hexdigest() != src["sha256"]:
                 raise InputError(f"{where}: the stored text of constraint set "
                                  f"'{src['name']}' does not match its SHA-256 (damaged)")
-            sets.append(parse_constraint_set(tomllib.loads(text), str(src["path"])))
+            data = tomllib.loads(text)
+            parse = (parse_low_ell_set if data.get("kind") == LOW_ELL_KIND
+                     else parse_constraint_set)
+            sets.append(parse(data, str(src["path"])))
         opts = manifest["likelihood_settings"]
-        return GaussianLikelihood(sets, bool(opts["allow_overlap"]),
-                                  tolerance=float(opts["fit_tolerance"]),
-                                  half_width=float(opts["fit_half_width"]))
+        ell_range = opts.get("low_ell_range")
+        return likelihood_from_sets(sets, bool(opts["allow_overlap"]),
+                                    tolerance=float(opts["fit_tolerance"]),
+                                    half_width=float(opts["fit_half_width"]),
+                                    ell_range=tuple(ell_range) if ell_range else None)
     except (KeyError, TypeError, tomllib.TOMLDecodeError) as exc:
         raise InputError(f"{where}: the record of the constraint sets is damaged "
                          f"({type(exc).__name__}: {exc}); rewrite it with 'bouncelike sample "
@@ -254,6 +263,13 @@ def rebuild_from_manifest(manifest: dict[str, Any]) -> tuple[Prior, Any, Any, Mo
     likelihood = likelihood_from_manifest(manifest)
     require_fit = bool(manifest.get("require_summary_fit", True))
     return prior, model, likelihood, ModelPosterior(prior, model, likelihood, require_fit)
+
+
+def _ell_range_of(likelihood: Any) -> list[int] | None:
+    """The multipole range of a large-scale temperature term (None: all of its set's, or no
+    such term)."""
+    r = getattr(likelihood, "ell_range", None)
+    return None if r is None else [int(r[0]), int(r[1])]
 
 
 def _fingerprint(prior_text: str, model: str, likelihood: Any, s: SamplerSettings) -> str:

@@ -61,6 +61,10 @@ class TabulatedSpectra:
     oscillation_period : array or None
         Local period of the oscillations in ln k on the same ``k`` (inf where there are none);
         used with ``period_mean``.
+    unrepresented_below : (float, str) or None
+        (k in Mpc^-1, why): below this k the table's values are not a prediction of the model
+        (e.g. a state not set there). Consumers that read the spectra there (the large-scale
+        temperature term) refuse them as not evaluable; the values are kept for display.
     """
 
     k: np.ndarray
@@ -71,6 +75,7 @@ class TabulatedSpectra:
     extrapolate: bool = False
     period_mean: tuple[np.ndarray, np.ndarray] | None = None
     oscillation_period: np.ndarray | None = None
+    unrepresented_below: tuple[float, str] | None = None
 
     def __init__(
         self,
@@ -82,6 +87,7 @@ class TabulatedSpectra:
         extrapolate: bool = False,
         period_mean: tuple[Any, Any] | None = None,
         oscillation_period: Any = None,
+        unrepresented_below: tuple[float, str] | None = None,
     ):
         k_arr = _as_positive_array("k", k, allow_zero=False)
         ps = _as_positive_array("scalar", scalar, allow_zero=False)
@@ -131,6 +137,9 @@ class TabulatedSpectra:
         object.__setattr__(self, "period_mean", mean)
         object.__setattr__(self, "oscillation_period", period)
         object.__setattr__(self, "_smoothed", {})
+        if unrepresented_below is not None:
+            unrepresented_below = (float(unrepresented_below[0]), str(unrepresented_below[1]))
+        object.__setattr__(self, "unrepresented_below", unrepresented_below)
 
     @property
     def k_min(self) -> float:
