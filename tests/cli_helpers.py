@@ -38,9 +38,21 @@ def check_provenance(block: dict, command: str, config: str | Path | None = None
     assert isinstance(block["plugins"], list)
 
 
+def error_text(err: str) -> str:
+    """Standard error without the progress notices a cold run prints before it (the kernel
+    compile notice appears only when the kernel cache is empty, e.g. on a fresh machine)."""
+    return "\n".join(line for line in err.strip().splitlines()
+                     if not line.startswith(PROGRESS_PREFIXES)).strip()
+
+
+# progress lines a command may print on stderr before failing (bouncelike/kernel_cache.py)
+PROGRESS_PREFIXES = ("bouncelike: compiling kernels",)
+
+
 def one_line_error(err: str, needle: str = "") -> str:
-    """The stderr of a failed command: exactly one line, ``bouncelike: error: ...``."""
-    text = err.strip()
+    """The stderr of a failed command: exactly one line, ``bouncelike: error: ...``, after
+    any progress notices."""
+    text = error_text(err)
     assert text.startswith("bouncelike: error: ") and "\n" not in text, err
     assert "Traceback" not in err
     assert needle in text, text

@@ -9,6 +9,7 @@ import math
 import os
 
 import pytest
+from cli_helpers import one_line_error
 
 from bouncelike.cli import main
 
@@ -285,8 +286,7 @@ def test_bounce_model_failures_name_the_values_and_the_reason(mass, fraction, n_
     cfg = tmp_path / "run.toml"
     cfg.write_text(BOUNCE.format(mass=mass, fraction=fraction, n_star=n_star))
     assert main(["score", str(cfg)]) == 1  # not evaluable: exit code 1, one line
-    err = capsys.readouterr().err.strip()
-    assert len(err.splitlines()) == 1 and "Traceback" not in err
+    err = one_line_error(capsys.readouterr().err)
     assert f"potential.mass = {mass:g}" in err and f"reheating.N_star = {n_star:g}" in err
     assert reason in err
 
