@@ -256,6 +256,26 @@ def output_set(root: str | Path) -> Iterator[OutputSet]:
         raise
 
 
+def write_table_figure_summary(out_dir: str | Path, table: tuple[Path, Any, str],
+                               figure: tuple[Any, Iterable[Path]],
+                               summary: tuple[Path, Any]) -> None:
+    """A command's usual outputs as one set (all or none): ``table`` = (path, DataFrame,
+    float format) as CSV, ``figure`` = (matplotlib figure, paths; PNG at 150 dpi) and
+    ``summary`` = (path, object) as JSON. The figure is closed afterwards."""
+    import matplotlib.pyplot as plt
+
+    fig, figure_paths = figure
+    try:
+        with output_set(out_dir):
+            write_csv_atomic(table[0], table[1], float_format=table[2])
+            for path in figure_paths:
+                save_figure_atomic(fig, path, **({"dpi": 150} if Path(path).suffix == ".png"
+                                                 else {}))
+            write_json_atomic(summary[0], json_safe(summary[1]))
+    finally:
+        plt.close(fig)
+
+
 def _check_not_blocked(final: Path) -> None:
     """InputError when a folder is where the file ``final`` goes, or a file is where one of
     its folders goes."""
