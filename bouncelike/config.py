@@ -253,6 +253,14 @@ class Table:
                 )
         return value
 
+    def text(self, key: str, required: bool = True) -> str:
+        """A string with surrounding blanks removed; ``required``: present and non-empty
+        (else an absent key reads as "")."""
+        value = self.string(key, _REQUIRED if required else "").strip()
+        if required and not value:
+            raise InputError(f"'{self.key(key)}' must be a non-empty string")
+        return value
+
     def boolean(self, key: str, default: Any = _REQUIRED) -> bool:
         value = self._get(key, default)
         if not isinstance(value, bool):

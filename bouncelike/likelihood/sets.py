@@ -200,17 +200,6 @@ def available_sets() -> tuple[str, ...]:
     return tuple(sorted(p.stem for p in _data_dir().glob("*.toml")))
 
 
-def _text(table: Table, key: str, required: bool = True) -> str:
-    if key not in table:
-        if required:
-            raise InputError(f"missing key '{key}'")
-        return ""
-    value = table.string(key).strip()
-    if required and not value:
-        raise InputError(f"'{key}' must be a non-empty string")
-    return value
-
-
 def _parse_term(raw: Any, index: int) -> ConstraintTerm:
     where = f"term[{index}]"
     t = Table(raw, where, TERM_KEYS)
@@ -247,7 +236,7 @@ def parse_constraint_set(data: dict[str, Any], path: str = "") -> ConstraintSet:
     """Validate the contents of a set file (errors name the field)."""
     top = Table(data, "", SET_KEYS)
     top.string("kind", "pivot_summary", choices=SET_FILE_KINDS[:1])
-    name = _text(top, "name")
+    name = top.text("name")
     if not _NAME_RE.match(name):
         raise InputError(f"'name' = '{name}' must use letters, digits and underscores only")
     raw_terms = top.raw("term")
@@ -262,7 +251,7 @@ def parse_constraint_set(data: dict[str, Any], path: str = "") -> ConstraintSet:
             raise InputError(f"'term[{i}].quantity' = '{term.quantity}' appears twice in the set")
         seen.add(term.quantity)
     has_limit = any(t.kind == "upper_limit" for t in terms)
-    treatment = _text(top, "upper_limit_treatment", required=has_limit)
+    treatment = top.text("upper_limit_treatment", required=has_limit)
     tags = top.strings("overlap")
     if not tags or not all(_NAME_RE.match(tag) for tag in tags):
         raise InputError("'overlap' must be a non-empty list of data tags (e.g. [\"planck\"])")
@@ -284,21 +273,21 @@ def parse_constraint_set(data: dict[str, Any], path: str = "") -> ConstraintSet:
         correlations.append((pair[0], pair[1], rho))
     return ConstraintSet(
         name=name,
-        title=_text(top, "title"),
-        citation=_text(top, "citation"),
-        arxiv=_text(top, "arxiv"),
-        table=_text(top, "table"),
-        data_combination=_text(top, "data_combination"),
+        title=top.text("title"),
+        citation=top.text("citation"),
+        arxiv=top.text("arxiv"),
+        table=top.text("table"),
+        data_combination=top.text("data_combination"),
         pivot=PIVOT_SCALE.check(top.positive("pivot"), "pivot"),
         is_forecast=top.boolean("forecast"),
         terms=terms,
         overlap_tags=tuple(tags),
         upper_limit_treatment=treatment,
-        correlation_note=_text(top, "correlation_note", required=False),
-        notes=_text(top, "notes", required=False),
+        correlation_note=top.text("correlation_note", required=False),
+        notes=top.text("notes", required=False),
         correlations=tuple(correlations),
         path=path,
-        label=_text(top, "label", required=False),
+        label=top.text("label", required=False),
     )
 
 
