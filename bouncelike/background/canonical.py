@@ -34,8 +34,9 @@ from scipy.optimize import brentq
 
 from ..errors import InputError
 from . import engine
-from .initial import ClassicalStart, ContractingStart, IntegrationSettings
-from .result import BackgroundTrajectory, RunSummary
+from .dynamics_runs import EngineDynamics
+from .initial import ContractingStart, IntegrationSettings
+from .result import BackgroundTrajectory
 
 PRE, POST, LATE = 0, 1, 2
 
@@ -108,7 +109,7 @@ def classical_field(initial: Any) -> tuple[float, float]:
     return float(initial.phi), float(initial.phidot)
 
 
-class CanonicalDynamics:
+class CanonicalDynamics(EngineDynamics):
     """Engine runs, summaries and trajectories of a canonical dynamics.
 
     A subclass provides ``NAME``, ``describe()``, the density that plays rho_c in its results
@@ -118,49 +119,14 @@ class CanonicalDynamics:
     """
 
     NAME = ""
+    CLASSICAL_NOTE = "classical start in the expanding branch: no bounce by construction"
     result_density: float = math.nan
-
-    def start(self, potential: Any, initial: Any,
-              settings: IntegrationSettings) -> tuple[engine.System, np.ndarray, int,
-                                                      np.ndarray, bool, bool]:
-        raise NotImplementedError
 
     def describe(self) -> dict[str, Any]:
         raise NotImplementedError
 
     def trajectory_extras(self, result: engine.EngineRun, t: np.ndarray) -> dict[str, Any]:
         return {}
-
-    def run(self, potential: Any, initial: Any, settings: IntegrationSettings | None = None,
-            store: bool = False) -> engine.EngineRun:
-        settings = settings or IntegrationSettings()
-        system, y0, mode, atol, bounced, has_bounce = self.start(potential, initial, settings)
-        result = engine.run(system, potential, y0, mode, settings, bounced=bounced,
-                            has_bounce=has_bounce, atol=atol, store=store)
-        if isinstance(initial, ClassicalStart):
-            s = result.summary
-            result = engine.EngineRun(
-                replace(s, status="no_bounce",
-                        message="classical start in the expanding branch: no bounce by "
-                        "construction; " + s.message), result.dense)
-        return result
-
-    def evolve_summary(self, potential: Any, initial: Any,
-                       settings: IntegrationSettings | None = None) -> RunSummary:
-        """The run's summary only (no trajectory): what e-fold distributions need."""
-        return self.run(potential, initial, settings).summary
-
-    def evolve_summaries(self, potential: Any, initials: list,
-                         settings: IntegrationSettings | None = None) -> list[RunSummary]:
-        """Summaries of many initial data in one compiled loop (e-fold distributions)."""
-        settings = settings or IntegrationSettings()
-        if any(isinstance(ini, ClassicalStart) for ini in initials):
-            return [self.evolve_summary(potential, ini, settings) for ini in initials]
-        starts, system = [], None
-        for ini in initials:
-            system, y0, mode, atol, bounced, has_bounce = self.start(potential, ini, settings)
-            starts.append(engine.Start(y0, mode, bounced, has_bounce, atol))
-        return engine.run_many(system, potential, starts, settings) if starts else []
 
     def evolve(self, potential: Any, initial: Any,
                settings: IntegrationSettings | None = None) -> BackgroundTrajectory:

@@ -165,10 +165,6 @@ class CondensateDynamics(cn.CanonicalDynamics):
             return self._isotropic().run(potential, initial, settings, store)
         return super().run(potential, initial, settings, store)
 
-    def evolve_summary(self, potential: Any, initial: Any,
-                       settings: IntegrationSettings | None = None) -> RunSummary:
-        return self.run(potential, initial, settings).summary
-
     def evolve_summaries(self, potential: Any, initials: list,
                          settings: IntegrationSettings | None = None) -> list[RunSummary]:
         if self.uses_isotropic_engine:
