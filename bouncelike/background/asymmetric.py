@@ -113,6 +113,19 @@ class AsymmetricDynamics(cn.CanonicalDynamics):
     gamma: float = IMMIRZI_DEFAULT
 
     NAME = "asymmetric"
+    DESCRIBED = ("critical_density", "gamma", "maximum_density")
+    TEXTS = {
+        "equations": "Hamilton's equations in (v, b) of the modified loop-quantised "
+        "constraint (Li, Singh & Wang, arXiv:1801.07313)",
+        "contracting_start": (
+            "contracting branch is de Sitter-like (|H| -> 1/(lambda (1+gamma^2)), far above "
+            "the inflaton mass): no field oscillation, so the phase is the energy angle on "
+            "the surface rho = rho_0 (sqrt(V) = sqrt(rho_0) sin(phase)), i.e. a prior on the "
+            "frozen field V(phi_0) = rho_0 sin^2(phase); the bounce is then kinetic-dominated "
+            "with V_B ~ V(phi_0) <= rho_0, so rho_0 sets the scale of V_B and the results "
+            "depend on it"
+        ),
+    }
     CONFIG_PARAMETERS = (BARBERO_IMMIRZI,)
     CONFIG_KEYS = names_of(CONFIG_PARAMETERS)
     #: |H| ~ 0.42 before the bounce, far above the inflaton mass: no oscillation (docstring)
@@ -206,23 +219,7 @@ class AsymmetricDynamics(cn.CanonicalDynamics):
                 "emergent_hubble_rate": emergent_hubble_rate(self.critical_density,
                                                              self.gamma)}
 
-    def describe(self) -> dict[str, Any]:
-        return {
-            "dynamics": self.NAME,
-            "critical_density": self.critical_density,
-            "gamma": self.gamma,
-            "maximum_density": self.maximum_density,
-            "emergent_cosmological_constant": emergent_cosmological_constant(
-                self.critical_density, self.gamma),
-            "pre_bounce_newton_constant_ratio": pre_bounce_newton_constant(self.gamma),
-            "equations": "Hamilton's equations in (v, b) of the modified loop-quantised "
-            "constraint (Li, Singh & Wang, arXiv:1801.07313)",
-            "contracting_start": (
-                "contracting branch is de Sitter-like (|H| -> 1/(lambda (1+gamma^2)), far above "
-                "the inflaton mass): no field oscillation, so the phase is the energy angle on "
-                "the surface rho = rho_0 (sqrt(V) = sqrt(rho_0) sin(phase)), i.e. a prior on the "
-                "frozen field V(phi_0) = rho_0 sin^2(phase); the bounce is then kinetic-dominated "
-                "with V_B ~ V(phi_0) <= rho_0, so rho_0 sets the scale of V_B and the results "
-                "depend on it"
-            ),
-        }
+    def described_values(self) -> dict[str, Any]:
+        return {"emergent_cosmological_constant": emergent_cosmological_constant(
+                    self.critical_density, self.gamma),
+                "pre_bounce_newton_constant_ratio": pre_bounce_newton_constant(self.gamma)}

@@ -122,8 +122,20 @@ class CanonicalDynamics(EngineDynamics):
     CLASSICAL_NOTE = "classical start in the expanding branch: no bounce by construction"
     result_density: float = math.nan
 
+    #: attributes describe() reports under their own names
+    DESCRIBED: tuple[str, ...] = ("critical_density",)
+    #: fixed texts describe() reports: equations, starting data, references
+    TEXTS: dict[str, str] = {}
+
+    def described_values(self) -> dict[str, Any]:
+        """Values describe() reports besides ``DESCRIBED`` (derived or renamed ones)."""
+        return {}
+
     def describe(self) -> dict[str, Any]:
-        raise NotImplementedError
+        """The dynamics, its parameters and derived scales, and the texts saying what it
+        solves (written into every trajectory's provenance)."""
+        return {"dynamics": self.NAME, **{a: getattr(self, a) for a in self.DESCRIBED},
+                **self.described_values(), **self.TEXTS}
 
     def trajectory_extras(self, result: engine.EngineRun, t: np.ndarray) -> dict[str, Any]:
         return {}

@@ -84,6 +84,14 @@ class CondensateDynamics(cn.CanonicalDynamics):
     canonical: bool = False  # the loop system in its own variables even without the extra term
 
     NAME = "condensate"
+    DESCRIBED = ("rescale", "condensate_term")
+    TEXTS = {
+        "equations": "H^2 = (8 pi/3) rho (1 - rho/rho_c' + q/v), rho_c' = rescale * rho_c, "
+        "v = (a/a_0)^3 (a_0 on the initial surface)",
+        "contracting_start": "energy angle at density rho_0 as for the isotropic dynamics: "
+        "sqrt(V) = sqrt(rho_0) sin(phase), phidot/sqrt(2) = sqrt(rho_0) cos(phase)",
+        "reference": "Oriti, Sindoni & Wilson-Ewing, arXiv:1602.05881",
+    }
     CONFIG_PARAMETERS = (RESCALE, CONDENSATE_TERM)
     CONFIG_KEYS = names_of(CONFIG_PARAMETERS)
 
@@ -180,17 +188,8 @@ class CondensateDynamics(cn.CanonicalDynamics):
         tr = super().evolve(potential, initial, settings)
         return replace(tr, extras={**tr.extras, "system": self.engine_name(potential)})
 
-    def describe(self) -> dict[str, Any]:
-        return {
-            "dynamics": self.NAME,
-            "critical_density": self.effective_critical_density,
-            "rescale": self.rescale,
-            "base_critical_density": self.critical_density,
-            "condensate_term": self.condensate_term,
-            "system": "isotropic" if self.uses_isotropic_engine else "canonical loop variables",
-            "equations": "H^2 = (8 pi/3) rho (1 - rho/rho_c' + q/v), rho_c' = rescale * rho_c, "
-            "v = (a/a_0)^3 (a_0 on the initial surface)",
-            "contracting_start": "energy angle at density rho_0 as for the isotropic dynamics: "
-            "sqrt(V) = sqrt(rho_0) sin(phase), phidot/sqrt(2) = sqrt(rho_0) cos(phase)",
-            "reference": "Oriti, Sindoni & Wilson-Ewing, arXiv:1602.05881",
-        }
+    def described_values(self) -> dict[str, Any]:
+        return {"critical_density": self.effective_critical_density,
+                "base_critical_density": self.critical_density,
+                "system": "isotropic" if self.uses_isotropic_engine
+                else "canonical loop variables"}

@@ -44,6 +44,7 @@ import numpy as np
 from ..config import Table, read_toml
 from ..errors import InputError
 from ..quantities import PIVOT
+from .citation import CitedSource, citation_fields
 
 KIND = "temperature_low_ell"
 COLUMNS = ("ell", "D_measured", "minus_68", "plus_68", "D_reference")
@@ -56,15 +57,9 @@ _NAME_RE = re.compile(r"^[A-Za-z0-9_]+$")
 
 
 @dataclass(frozen=True, eq=False)
-class LowEllData:
+class LowEllData(CitedSource):
     """A cited table of measured D_ell (micro-K^2) with intervals and a reference spectrum."""
 
-    name: str
-    title: str
-    citation: str
-    arxiv: str
-    table: str
-    data_combination: str
     is_forecast: bool
     overlap_tags: tuple[str, ...]
     units: str
@@ -95,14 +90,9 @@ class LowEllData:
     def quantities(self) -> tuple[str, ...]:
         return tuple(f"D_{ell}" for ell in self.ells)
 
-    @property
-    def source(self) -> str:
-        return f"{self.name} (arXiv:{self.arxiv})"
-
     def as_dict(self) -> dict[str, Any]:
         return {
-            "name": self.name, "kind": KIND, "title": self.title, "citation": self.citation,
-            "arxiv": self.arxiv, "table": self.table, "data_combination": self.data_combination,
+            **self.citation_dict(), "kind": KIND,
             "forecast": self.is_forecast, "overlap": list(self.overlap_tags),
             "units": self.units, "interval": "highest_density",
             "interval_probability": self.interval_probability,
@@ -168,9 +158,7 @@ def parse_low_ell_set(data: dict[str, Any], path: str = "") -> LowEllData:
     for a in arrays:
         a.setflags(write=False)
     return LowEllData(
-        name=name, title=top.text("title"), citation=top.text("citation"),
-        arxiv=top.text("arxiv"), table=top.text("table"),
-        data_combination=top.text("data_combination"), is_forecast=top.boolean("forecast"),
+        name=name, **citation_fields(top), is_forecast=top.boolean("forecast"),
         overlap_tags=tuple(tags), units=top.text("units"), interval_probability=prob,
         approximation=top.text("approximation"),
         overlap_treatment=top.text("overlap_treatment"),

@@ -56,6 +56,13 @@ from scipy.stats import norm
 from ..config import Parameter, Table, read_toml
 from ..errors import InputError
 from ..quantities import PIVOT_SCALE, SPECTRAL
+from .citation import CitedSource, citation_fields
+from .lowell_data import (
+    available_low_ell_sets,
+    data_dir,
+    load_low_ell_path,
+    load_shipped_low_ell,
+)
 
 #: Quantities a constraint set may constrain (names of :class:`PivotSummary` fields).
 QUANTITIES = ("ln_1e10_As", "n_s", "running", "running_of_running", "r")
@@ -127,15 +134,9 @@ class ConstraintTerm:
 
 
 @dataclass(frozen=True)
-class ConstraintSet:
+class ConstraintSet(CitedSource):
     """A cited set of published constraints at one pivot."""
 
-    name: str
-    title: str
-    citation: str
-    arxiv: str
-    table: str
-    data_combination: str
     pivot: float
     is_forecast: bool
     terms: tuple[ConstraintTerm, ...]
@@ -156,20 +157,10 @@ class ConstraintSet:
     def quantities(self) -> tuple[str, ...]:
         return tuple(t.quantity for t in self.terms)
 
-    @property
-    def source(self) -> str:
-        """Short source text used in score tables."""
-        return f"{self.name} (arXiv:{self.arxiv})"
-
     def as_dict(self) -> dict[str, Any]:
         return {
-            "name": self.name,
-            "title": self.title,
+            **self.citation_dict(),
             "label": self.short_title,
-            "citation": self.citation,
-            "arxiv": self.arxiv,
-            "table": self.table,
-            "data_combination": self.data_combination,
             "pivot": self.pivot,
             "forecast": self.is_forecast,
             "overlap": list(self.overlap_tags),
@@ -273,11 +264,7 @@ def parse_constraint_set(data: dict[str, Any], path: str = "") -> ConstraintSet:
         correlations.append((pair[0], pair[1], rho))
     return ConstraintSet(
         name=name,
-        title=top.text("title"),
-        citation=top.text("citation"),
-        arxiv=top.text("arxiv"),
-        table=top.text("table"),
-        data_combination=top.text("data_combination"),
+        **citation_fields(top),
         pivot=PIVOT_SCALE.check(top.positive("pivot"), "pivot"),
         is_forecast=top.boolean("forecast"),
         terms=terms,
@@ -298,8 +285,6 @@ def _load_path(path: str) -> Any:
         raise InputError(f"constraint set file '{path}': 'kind' = {kind!r} is not known; "
                          f"allowed: {', '.join(SET_FILE_KINDS)}")
     if kind == "temperature_low_ell":
-        from .lowell_data import load_low_ell_path
-
         return load_low_ell_path(path, data)
     try:
         return parse_constraint_set(data, path)
@@ -318,8 +303,6 @@ def load_constraint_set(name_or_path: str | Path) -> Any:
     Returns a :class:`ConstraintSet` (pivot summaries) or, for ``kind =
     "temperature_low_ell"``, a :class:`~bouncelike.likelihood.lowell_data.LowEllData`.
     """
-    from .lowell_data import available_low_ell_sets, data_dir, load_shipped_low_ell
-
     text = str(name_or_path)
     shipped = _data_dir() / f"{text}.toml"
     if _NAME_RE.match(text) and shipped.is_file():
