@@ -67,7 +67,7 @@ from ..units import critical_density as lqc_critical_density
 from . import canonical as cn
 from . import engine
 from .condensate import bounce_field
-from .initial import BounceStart, ClassicalStart, ContractingStart, IntegrationSettings
+from .initial import BounceStart, ClassicalStart, ContractingStart
 from .limits import check_critical_density
 from .systems import SYS_ASYMMETRIC
 
@@ -135,10 +135,6 @@ class AsymmetricDynamics(cn.CanonicalDynamics):
         check_critical_density(self.critical_density)
         BARBERO_IMMIRZI.check(self.gamma, "background.asymmetric.gamma")
 
-    @classmethod
-    def from_config(cls, table: Any, critical_density: float) -> AsymmetricDynamics:
-        return cls(critical_density, BARBERO_IMMIRZI.read(table))
-
     @property
     def maximum_density(self) -> float:
         return maximum_density(self.critical_density, self.gamma)
@@ -204,15 +200,7 @@ class AsymmetricDynamics(cn.CanonicalDynamics):
                     f"{cn.LATE_FRACTION * self.maximum_density:g}"
                 )
             return np.array([math.log(self._late_angle(rho)), 0.0, phi, phidot]), cn.LATE
-        raise InputError(
-            f"'background.start' = '{type(initial).__name__}' is not available for dynamics "
-            "'asymmetric'; allowed: bounce, classical, contracting"
-        )
-
-    def start(self, potential: Any, initial: Any, settings: IntegrationSettings) -> tuple:
-        y0, mode = self.initial_state(potential, initial)
-        return (self.system, y0, mode, cn.tolerances(settings, y0), mode != cn.PRE,
-                isinstance(initial, BounceStart))
+        raise cn.unavailable_start(self.NAME, initial, "bounce, classical, contracting")
 
     def trajectory_extras(self, result: engine.EngineRun, t: np.ndarray) -> dict[str, Any]:
         return {"maximum_density": self.maximum_density,

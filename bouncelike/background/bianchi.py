@@ -68,7 +68,7 @@ from typing import Any
 
 import numpy as np
 
-from ..config import Parameter, names_of, read_parameters
+from ..config import Parameter, names_of
 from ..errors import InputError
 from ..units import critical_density as lqc_critical_density
 from . import canonical as cn
@@ -125,11 +125,6 @@ class BianchiIDynamics(cn.CanonicalDynamics):
                           "on the reference surface must stay below 1% of rho_c: a classical "
                           "contracting branch")
         DIRECTION.check(self.direction, "background.bianchi_i.direction")
-
-    @classmethod
-    def from_config(cls, table: Any, critical_density: float) -> BianchiIDynamics:
-        return cls(critical_density=critical_density,
-                   **read_parameters(table, cls.CONFIG_PARAMETERS))
 
     @property
     def gamma_lambda(self) -> float:

@@ -32,10 +32,11 @@ from typing import Any
 import numpy as np
 from scipy.optimize import brentq
 
+from ..config import read_parameters
 from ..errors import InputError
 from . import engine
 from .dynamics_runs import EngineDynamics
-from .initial import ContractingStart, IntegrationSettings
+from .initial import BounceStart, ContractingStart, IntegrationSettings
 from .result import BackgroundTrajectory
 
 PRE, POST, LATE = 0, 1, 2
@@ -82,13 +83,16 @@ def field_from_phase(potential: Any, density: float, phase: float) -> tuple[floa
     return sign * phi, phidot
 
 
+def unavailable_start(name: str, initial: Any, allowed: str) -> InputError:
+    """The one-line refusal of a start a dynamics does not offer."""
+    return InputError(f"'background.start' = '{type(initial).__name__}' is not available for "
+                      f"dynamics '{name}'; allowed: {allowed}")
+
+
 def require_contracting(name: str, initial: Any) -> ContractingStart:
     """The anisotropic dynamics start only in the contracting branch (or classically)."""
     if not isinstance(initial, ContractingStart):
-        raise InputError(
-            f"'background.start' = '{type(initial).__name__}' is not available for dynamics "
-            f"'{name}'; allowed: contracting"
-        )
+        raise unavailable_start(name, initial, "contracting")
     return initial
 
 
@@ -126,6 +130,25 @@ class CanonicalDynamics(EngineDynamics):
     DESCRIBED: tuple[str, ...] = ("critical_density",)
     #: fixed texts describe() reports: equations, starting data, references
     TEXTS: dict[str, str] = {}
+
+    #: the declarations of the keys of its [background.<name>] table
+    CONFIG_PARAMETERS: tuple = ()
+
+    @classmethod
+    def from_config(cls, table: Any, critical_density: float) -> Any:
+        return cls(critical_density=critical_density,
+                   **read_parameters(table, cls.CONFIG_PARAMETERS))
+
+    def initial_state(self, potential: Any, initial: Any) -> tuple[np.ndarray, int]:
+        """(y0, mode) of ``initial``."""
+        raise NotImplementedError
+
+    def start(self, potential: Any, initial: Any, settings: IntegrationSettings) -> tuple:
+        """Engine start from :meth:`initial_state`: tolerances per mode, started at/after the
+        bounce unless in mode PRE, at the bounce for a bounce start."""
+        y0, mode = self.initial_state(potential, initial)
+        return (self.system, y0, mode, tolerances(settings, y0), mode != PRE,
+                isinstance(initial, BounceStart))
 
     def described_values(self) -> dict[str, Any]:
         """Values describe() reports besides ``DESCRIBED`` (derived or renamed ones)."""

@@ -42,7 +42,7 @@ from typing import Any
 
 import numpy as np
 
-from ..config import Parameter, names_of, read_parameters
+from ..config import Parameter, names_of
 from ..errors import InputError
 from . import canonical as cn
 from . import engine
@@ -102,11 +102,6 @@ class CondensateDynamics(cn.CanonicalDynamics):
                                "background.condensate.rescale x background.critical_density")
         CONDENSATE_TERM.check(self.condensate_term, "background.condensate.condensate_term")
 
-    @classmethod
-    def from_config(cls, table: Any, critical_density: float) -> CondensateDynamics:
-        return cls(critical_density=critical_density,
-                   **read_parameters(table, cls.CONFIG_PARAMETERS))
-
     @property
     def effective_critical_density(self) -> float:
         return self.rescale * self.critical_density
@@ -153,15 +148,7 @@ class CondensateDynamics(cn.CanonicalDynamics):
                 initial.field_side
             )
             return np.array([math.log(0.5 * math.pi), 0.0, phi, phidot]), cn.POST
-        raise InputError(
-            f"'background.start' = '{type(initial).__name__}' is not available for dynamics "
-            "'condensate'; allowed: bounce, contracting"
-        )
-
-    def start(self, potential: Any, initial: Any, settings: IntegrationSettings) -> tuple:
-        y0, mode = self.initial_state(potential, initial)
-        return (self.system, y0, mode, cn.tolerances(settings, y0), mode != cn.PRE,
-                mode != cn.PRE)
+        raise cn.unavailable_start(self.NAME, initial, "bounce, contracting")
 
     def engine_name(self, potential: Any) -> str:
         """Which system runs this dynamics."""
