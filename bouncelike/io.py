@@ -256,22 +256,27 @@ def output_set(root: str | Path) -> Iterator[OutputSet]:
         raise
 
 
-def write_table_figure_summary(out_dir: str | Path, table: tuple[Path, Any, str],
-                               figure: tuple[Any, Iterable[Path]],
-                               summary: tuple[Path, Any]) -> None:
-    """A command's usual outputs as one set (all or none): ``table`` = (path, DataFrame,
-    float format) as CSV, ``figure`` = (matplotlib figure, paths; PNG at 150 dpi) and
-    ``summary`` = (path, object) as JSON. The figure is closed afterwards."""
+def table_figure_summary_names(stem: str, table: str) -> dict[str, str]:
+    """File names of a command's usual output set (:func:`write_table_figure_summary`): the
+    table ``table``, the figure ``<stem>.pdf`` and ``<stem>.png``, ``<stem>_summary.json``."""
+    return {"table": table, "figure_pdf": f"{stem}.pdf", "figure_png": f"{stem}.png",
+            "summary": f"{stem}_summary.json"}
+
+
+def write_table_figure_summary(files: dict[str, Path], frame: Any, float_format: str,
+                               fig: Any, summary: Any) -> None:
+    """A command's usual outputs as one set (all or none), at the paths ``files`` (keys of
+    :func:`table_figure_summary_names`, all in one folder): the DataFrame ``frame`` as CSV,
+    the matplotlib figure as PDF and PNG (150 dpi), ``summary`` as JSON. The figure is closed
+    afterwards."""
     import matplotlib.pyplot as plt
 
-    fig, figure_paths = figure
     try:
-        with output_set(out_dir):
-            write_csv_atomic(table[0], table[1], float_format=table[2])
-            for path in figure_paths:
-                save_figure_atomic(fig, path, **({"dpi": 150} if Path(path).suffix == ".png"
-                                                 else {}))
-            write_json_atomic(summary[0], json_safe(summary[1]))
+        with output_set(Path(files["table"]).parent):
+            write_csv_atomic(files["table"], frame, float_format=float_format)
+            save_figure_atomic(fig, files["figure_pdf"])
+            save_figure_atomic(fig, files["figure_png"], dpi=150)
+            write_json_atomic(files["summary"], json_safe(summary))
     finally:
         plt.close(fig)
 

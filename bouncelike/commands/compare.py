@@ -36,6 +36,7 @@ import math
 import time
 from typing import Any
 
+from ..io import table_figure_summary_names, write_table_figure_summary
 from ._layer import CommandResult, Options
 from .efolds import DISTRIBUTION_KEYS, PRIOR_KEYS
 
@@ -44,8 +45,7 @@ HELP = "e-fold distributions of several bounce dynamics or shear values side by 
 OPTIONS = Options(config="[potential], [background] and [compare]",
                   output="bouncelike-out/<config stem>/", workers="[compare] workers",
                   compiles=True)
-FILES = {"table": "compare_table.csv", "figure_pdf": "compare.pdf",
-         "figure_png": "compare.png", "summary": "compare_summary.json"}
+FILES = table_figure_summary_names("compare", "compare_table.csv")
 
 COMPARE_KEYS = (*DISTRIBUTION_KEYS, "cases", "shear_ratios", "shear_direction", *PRIOR_KEYS)
 
@@ -160,7 +160,6 @@ def run(args: Any, session: Any) -> CommandResult:
     )
     from ..config import Table
     from ..errors import InputError
-    from ..io import write_table_figure_summary
     from ..parallel import make_pool
 
     config = session.config()
@@ -230,9 +229,7 @@ def run(args: Any, session: Any) -> CommandResult:
         "compile_seconds": timing["compile_seconds"],
     }
     provenance = session.provenance()
-    write_table_figure_summary(out_dir, (files["table"], frame, "%.8g"),
-                               (fig, (files["figure_pdf"], files["figure_png"])),
-                               (files["summary"], {**summary, "provenance": provenance}))
+    write_table_figure_summary(files, frame, "%.8g", fig, {**summary, "provenance": provenance})
     lines = [f"Duration of inflation by dynamics: {title}"]
     lines.append(f"  {'case':<28} {'median':>8} {'5%':>8} {'95%':>8} {f'>{threshold:g}':>7} "
                  f"{'cap':>4} {'fail':>4} {'residual':>9} {'time':>7}")

@@ -32,6 +32,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from ..io import table_figure_summary_names, write_table_figure_summary
 from ._layer import CommandResult, Options
 
 NAME = "efolds"
@@ -39,8 +40,7 @@ HELP = "distribution of the number of inflationary e-folds after the bounce"
 OPTIONS = Options(config="[potential], [background] and [efolds]",
                   output="bouncelike-out/<config stem>/", workers="[efolds] workers",
                   compiles=True)
-FILES = {"samples": "efolds_samples.csv", "figure_pdf": "efolds.pdf",
-         "figure_png": "efolds.png", "summary": "efolds_summary.json"}
+FILES = table_figure_summary_names("efolds", "efolds_samples.csv")
 
 #: keys of the prior of the contracting-branch data ([efolds] and [compare];
 #: background.efolds.prior_from_config reads them)
@@ -201,7 +201,6 @@ def make_figure(dist: Any, title: str) -> Any:
 def run(args: Any, session: Any) -> CommandResult:
     from ..background.efolds import efolds_distribution, start_density_ceiling
     from ..background.setup import background_from_config
-    from ..io import write_table_figure_summary
     from ..parallel import make_pool
 
     config = session.config()
@@ -242,9 +241,7 @@ def run(args: Any, session: Any) -> CommandResult:
     result["files"] = {k: str(v) for k, v in files.items()}
     provenance = session.provenance()
 
-    write_table_figure_summary(out_dir, (files["samples"], frame, "%.10g"),
-                               (fig, (files["figure_pdf"], files["figure_png"])),
-                               (files["summary"], {**result, "provenance": provenance}))
+    write_table_figure_summary(files, frame, "%.10g", fig, {**result, "provenance": provenance})
     text = "\n".join(lines) + (f"\n\n  time {session.time_text()} on {result['workers']} "
                                "worker(s); wrote " + ", ".join(str(p) for p in files.values()))
     return CommandResult(data=result, text=text, provenance=provenance,
