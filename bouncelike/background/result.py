@@ -220,13 +220,10 @@ class BackgroundTrajectory(FieldHistory):
 
     def summary(self) -> dict[str, Any]:
         """Scalars only: status, events, e-folds, bounce potential fraction, residual."""
+        scalars = ("critical_density", "potential_fraction_at_bounce", "max_constraint_residual")
         return {
-            "dynamics": self.dynamics,
-            "status": self.status,
-            "message": self.message,
-            "critical_density": float(self.critical_density),
-            "potential_fraction_at_bounce": float(self.potential_fraction_at_bounce),
-            "max_constraint_residual": float(self.max_constraint_residual),
+            "dynamics": self.dynamics, "status": self.status, "message": self.message,
+            **{name: float(getattr(self, name)) for name in scalars},
             **{f"efolds_{k}": v for k, v in self.efolds.as_dict().items()},
             **self.events.as_dict(),
         }
