@@ -217,14 +217,8 @@ class Table:
     def positive(self, key: str, default: Any = _REQUIRED, **kw: Any) -> float:
         return self.number(key, default, minimum=0.0, exclusive_minimum=True, **kw)
 
-    def integer(
-        self,
-        key: str,
-        default: Any = _REQUIRED,
-        *,
-        minimum: int | None = None,
-        maximum: int | None = None,
-    ) -> int:
+    def integer(self, key: str, default: Any = _REQUIRED, *, minimum: int | None = None,
+                maximum: int | None = None) -> int:
         value = self._get(key, default)
         if value is None:
             return value

@@ -37,14 +37,12 @@ import time
 from typing import Any
 
 from ..io import table_figure_summary_names, write_table_figure_summary
-from ._layer import CommandResult, Options
-from .efolds import DISTRIBUTION_KEYS, PRIOR_KEYS
+from ._layer import CommandResult
+from .efolds import DISTRIBUTION_KEYS, PRIOR_KEYS, distribution_options
 
 NAME = "compare"
 HELP = "e-fold distributions of several bounce dynamics or shear values side by side"
-OPTIONS = Options(config="[potential], [background] and [compare]",
-                  output="bouncelike-out/<config stem>/", workers="[compare] workers",
-                  compiles=True)
+OPTIONS = distribution_options("compare")
 FILES = table_figure_summary_names("compare", "compare_table.csv")
 
 COMPARE_KEYS = (*DISTRIBUTION_KEYS, "cases", "shear_ratios", "shear_direction", *PRIOR_KEYS)

@@ -37,9 +37,16 @@ from ._layer import CommandResult, Options
 
 NAME = "efolds"
 HELP = "distribution of the number of inflationary e-folds after the bounce"
-OPTIONS = Options(config="[potential], [background] and [efolds]",
-                  output="bouncelike-out/<config stem>/", workers="[efolds] workers",
-                  compiles=True)
+
+
+def distribution_options(section: str) -> Options:
+    """The options of the e-fold distribution commands (efolds, compare)."""
+    return Options(config=f"[potential], [background] and [{section}]",
+                   output="bouncelike-out/<config stem>/", workers=f"[{section}] workers",
+                   compiles=True)
+
+
+OPTIONS = distribution_options("efolds")
 FILES = table_figure_summary_names("efolds", "efolds_samples.csv")
 
 #: keys of the prior of the contracting-branch data ([efolds] and [compare];
