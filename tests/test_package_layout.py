@@ -74,3 +74,11 @@ def test_no_module_imports_code_by_a_name_given_as_text():
     for name, path in _modules().items():
         text = path.read_text()
         assert "import_module(" not in text and "__import__(" not in text, name
+
+
+def test_every_module_is_in_the_contributor_guides_layout():
+    guide = (ROOT.parent / "DEVELOPERS.md").read_text()
+    block = guide[guide.index("## Layout"):guide.index("## Conventions")]
+    missing = [name for name in _modules()
+               if name.count(".") >= 1 and name.rpartition(".")[2] not in block]
+    assert not missing, missing
