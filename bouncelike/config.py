@@ -217,14 +217,8 @@ class Table:
     def positive(self, key: str, default: Any = _REQUIRED, **kw: Any) -> float:
         return self.number(key, default, minimum=0.0, exclusive_minimum=True, **kw)
 
-    def integer(
-        self,
-        key: str,
-        default: Any = _REQUIRED,
-        *,
-        minimum: int | None = None,
-        maximum: int | None = None,
-    ) -> int:
+    def integer(self, key: str, default: Any = _REQUIRED, *, minimum: int | None = None,
+                maximum: int | None = None) -> int:
         value = self._get(key, default)
         if value is None:
             return value
@@ -251,6 +245,14 @@ class Table:
                 raise InputError(
                     f"'{self.key(key)}' = '{value}' is not known; allowed: {_fmt_allowed(choices)}"
                 )
+        return value
+
+    def text(self, key: str, required: bool = True) -> str:
+        """A string with surrounding blanks removed; ``required``: present and non-empty
+        (else an absent key reads as "")."""
+        value = self.string(key, _REQUIRED if required else "").strip()
+        if required and not value:
+            raise InputError(f"'{self.key(key)}' must be a non-empty string")
         return value
 
     def boolean(self, key: str, default: Any = _REQUIRED) -> bool:

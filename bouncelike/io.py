@@ -256,6 +256,31 @@ def output_set(root: str | Path) -> Iterator[OutputSet]:
         raise
 
 
+def table_figure_summary_names(stem: str, table: str) -> dict[str, str]:
+    """File names of a command's usual output set (:func:`write_table_figure_summary`): the
+    table ``table``, the figure ``<stem>.pdf`` and ``<stem>.png``, ``<stem>_summary.json``."""
+    return {"table": table, "figure_pdf": f"{stem}.pdf", "figure_png": f"{stem}.png",
+            "summary": f"{stem}_summary.json"}
+
+
+def write_table_figure_summary(files: dict[str, Path], frame: Any, float_format: str,
+                               fig: Any, summary: Any) -> None:
+    """A command's usual outputs as one set (all or none), at the paths ``files`` (keys of
+    :func:`table_figure_summary_names`, all in one folder): the DataFrame ``frame`` as CSV,
+    the matplotlib figure as PDF and PNG (150 dpi), ``summary`` as JSON. The figure is closed
+    afterwards."""
+    import matplotlib.pyplot as plt
+
+    try:
+        with output_set(Path(files["table"]).parent):
+            write_csv_atomic(files["table"], frame, float_format=float_format)
+            save_figure_atomic(fig, files["figure_pdf"])
+            save_figure_atomic(fig, files["figure_png"], dpi=150)
+            write_json_atomic(files["summary"], json_safe(summary))
+    finally:
+        plt.close(fig)
+
+
 def _check_not_blocked(final: Path) -> None:
     """InputError when a folder is where the file ``final`` goes, or a file is where one of
     its folders goes."""

@@ -112,3 +112,18 @@ def test_sampled_mass_inverts_the_amplitude(name):
         assert 1.2e-6 < d["mass"] < 1.4e-6
     else:  # M ~ 2.6e-6 m_Pl normalises the plateau (examples/starobinsky_bounce_efolds.toml)
         assert 2.0e-6 < d["mass"] < 3.5e-6
+
+
+@pytest.mark.parametrize("name, closed_form", [
+    # m = sqrt(6 pi^2 A_s) M_Pl / (N_* + 1/2) and M = sqrt(24 pi^2 A_s) M_Pl / N_*
+    # (A_s = V_*/(24 pi^2 M_Pl^4 epsilon_1) with the potentials' V_* and epsilon_1,
+    # Encyclopaedia Inflationaris, arXiv:1303.3787; the module docstring), M_Pl = 1/sqrt(8 pi)
+    ("slow_roll_quadratic", lambda a_s, n: math.sqrt(6 * math.pi**2 * a_s) / (n + 0.5)
+     / math.sqrt(8 * math.pi)),
+    ("slow_roll_starobinsky", lambda a_s, n: math.sqrt(24 * math.pi**2 * a_s) / n
+     / math.sqrt(8 * math.pi)),
+])
+def test_mass_matches_the_closed_form(name, closed_form):
+    model = forward_model(name)
+    for n_star, a_s in ((50.0, 2.1e-9), (60.0, 1e-10)):
+        assert model.mass(n_star, a_s) == pytest.approx(closed_form(a_s, n_star), rel=1e-12)

@@ -5,7 +5,7 @@ Modules
 engine       the one background engine at the Python boundary: runs, budgets, typed results,
              dense output (every command and the perturbations go through it)
 solver       the compiled DOP853 integrator (stages, error norm, step control, dense output,
-             events), knowing no physics; dop853_tableau its coefficients
+             events), knowing no physics (coefficients: scipy's DOP853 table)
 problem      the cosmological events (bounce, super-inflation, inflation start and end: the one
              definition of the end of inflation) watching a system
 systems      dispatch to the compiled systems: isotropic_system, bianchi_system,

@@ -67,7 +67,7 @@ from ..units import critical_density as lqc_critical_density
 from . import canonical as cn
 from . import engine
 from .condensate import bounce_field
-from .initial import BounceStart, ClassicalStart, ContractingStart, IntegrationSettings
+from .initial import BounceStart, ClassicalStart, ContractingStart
 from .limits import check_critical_density
 from .systems import SYS_ASYMMETRIC
 
@@ -113,6 +113,19 @@ class AsymmetricDynamics(cn.CanonicalDynamics):
     gamma: float = IMMIRZI_DEFAULT
 
     NAME = "asymmetric"
+    DESCRIBED = ("critical_density", "gamma", "maximum_density")
+    TEXTS = {
+        "equations": "Hamilton's equations in (v, b) of the modified loop-quantised "
+        "constraint (Li, Singh & Wang, arXiv:1801.07313)",
+        "contracting_start": (
+            "contracting branch is de Sitter-like (|H| -> 1/(lambda (1+gamma^2)), far above "
+            "the inflaton mass): no field oscillation, so the phase is the energy angle on "
+            "the surface rho = rho_0 (sqrt(V) = sqrt(rho_0) sin(phase)), i.e. a prior on the "
+            "frozen field V(phi_0) = rho_0 sin^2(phase); the bounce is then kinetic-dominated "
+            "with V_B ~ V(phi_0) <= rho_0, so rho_0 sets the scale of V_B and the results "
+            "depend on it"
+        ),
+    }
     CONFIG_PARAMETERS = (BARBERO_IMMIRZI,)
     CONFIG_KEYS = names_of(CONFIG_PARAMETERS)
     #: |H| ~ 0.42 before the bounce, far above the inflaton mass: no oscillation (docstring)
@@ -121,10 +134,6 @@ class AsymmetricDynamics(cn.CanonicalDynamics):
     def __post_init__(self) -> None:
         check_critical_density(self.critical_density)
         BARBERO_IMMIRZI.check(self.gamma, "background.asymmetric.gamma")
-
-    @classmethod
-    def from_config(cls, table: Any, critical_density: float) -> AsymmetricDynamics:
-        return cls(critical_density, BARBERO_IMMIRZI.read(table))
 
     @property
     def maximum_density(self) -> float:
@@ -191,38 +200,14 @@ class AsymmetricDynamics(cn.CanonicalDynamics):
                     f"{cn.LATE_FRACTION * self.maximum_density:g}"
                 )
             return np.array([math.log(self._late_angle(rho)), 0.0, phi, phidot]), cn.LATE
-        raise InputError(
-            f"'background.start' = '{type(initial).__name__}' is not available for dynamics "
-            "'asymmetric'; allowed: bounce, classical, contracting"
-        )
-
-    def start(self, potential: Any, initial: Any, settings: IntegrationSettings) -> tuple:
-        y0, mode = self.initial_state(potential, initial)
-        return (self.system, y0, mode, cn.tolerances(settings, y0), mode != cn.PRE,
-                isinstance(initial, BounceStart))
+        raise cn.unavailable_start(self.NAME, initial, "bounce, classical, contracting")
 
     def trajectory_extras(self, result: engine.EngineRun, t: np.ndarray) -> dict[str, Any]:
         return {"maximum_density": self.maximum_density,
                 "emergent_hubble_rate": emergent_hubble_rate(self.critical_density,
                                                              self.gamma)}
 
-    def describe(self) -> dict[str, Any]:
-        return {
-            "dynamics": self.NAME,
-            "critical_density": self.critical_density,
-            "gamma": self.gamma,
-            "maximum_density": self.maximum_density,
-            "emergent_cosmological_constant": emergent_cosmological_constant(
-                self.critical_density, self.gamma),
-            "pre_bounce_newton_constant_ratio": pre_bounce_newton_constant(self.gamma),
-            "equations": "Hamilton's equations in (v, b) of the modified loop-quantised "
-            "constraint (Li, Singh & Wang, arXiv:1801.07313)",
-            "contracting_start": (
-                "contracting branch is de Sitter-like (|H| -> 1/(lambda (1+gamma^2)), far above "
-                "the inflaton mass): no field oscillation, so the phase is the energy angle on "
-                "the surface rho = rho_0 (sqrt(V) = sqrt(rho_0) sin(phase)), i.e. a prior on the "
-                "frozen field V(phi_0) = rho_0 sin^2(phase); the bounce is then kinetic-dominated "
-                "with V_B ~ V(phi_0) <= rho_0, so rho_0 sets the scale of V_B and the results "
-                "depend on it"
-            ),
-        }
+    def described_values(self) -> dict[str, Any]:
+        return {"emergent_cosmological_constant": emergent_cosmological_constant(
+                    self.critical_density, self.gamma),
+                "pre_bounce_newton_constant_ratio": pre_bounce_newton_constant(self.gamma)}

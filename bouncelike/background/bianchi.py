@@ -68,7 +68,7 @@ from typing import Any
 
 import numpy as np
 
-from ..config import Parameter, names_of, read_parameters
+from ..config import Parameter, names_of
 from ..errors import InputError
 from ..units import critical_density as lqc_critical_density
 from . import canonical as cn
@@ -101,6 +101,16 @@ class BianchiIDynamics(cn.CanonicalDynamics):
     reference_density: float = 1e-16
 
     NAME = "bianchi_i"
+    DESCRIBED = ("critical_density", "shear_ratio", "reference_density")
+    TEXTS = {
+        "equations": "Hamilton's equations of the Bianchi I effective constraint "
+        "(Ashtekar & Wilson-Ewing, arXiv:0903.3397)",
+        "contracting_start": "energy angle at density rho_0 as for the isotropic dynamics, "
+        "plus shear rho_sigma = sigma^2/(16 pi) with rho_sigma/rho_0 = shear_ratio * "
+        "rho_0/reference_density (dust law rho_sigma/rho ~ rho), split as "
+        "H_i - H = sqrt(2/3) sigma cos(direction - 120 (i-1) deg)",
+        "bounce_trigger": "shear if sigma^2/(16 pi) > rho at the bounce, else matter",
+    }
     CONFIG_PARAMETERS = (SHEAR_RATIO, DIRECTION, REFERENCE_DENSITY)
     CONFIG_KEYS = names_of(CONFIG_PARAMETERS)
 
@@ -115,11 +125,6 @@ class BianchiIDynamics(cn.CanonicalDynamics):
                           "on the reference surface must stay below 1% of rho_c: a classical "
                           "contracting branch")
         DIRECTION.check(self.direction, "background.bianchi_i.direction")
-
-    @classmethod
-    def from_config(cls, table: Any, critical_density: float) -> BianchiIDynamics:
-        return cls(critical_density=critical_density,
-                   **read_parameters(table, cls.CONFIG_PARAMETERS))
 
     @property
     def gamma_lambda(self) -> float:
@@ -209,18 +214,5 @@ class BianchiIDynamics(cn.CanonicalDynamics):
             out["bounce_trigger"] = "none"
         return out
 
-    def describe(self) -> dict[str, Any]:
-        return {
-            "dynamics": self.NAME,
-            "critical_density": self.critical_density,
-            "shear_ratio": self.shear_ratio,
-            "reference_density": self.reference_density,
-            "direction_degrees": self.direction,
-            "equations": "Hamilton's equations of the Bianchi I effective constraint "
-            "(Ashtekar & Wilson-Ewing, arXiv:0903.3397)",
-            "contracting_start": "energy angle at density rho_0 as for the isotropic dynamics, "
-            "plus shear rho_sigma = sigma^2/(16 pi) with rho_sigma/rho_0 = shear_ratio * "
-            "rho_0/reference_density (dust law rho_sigma/rho ~ rho), split as "
-            "H_i - H = sqrt(2/3) sigma cos(direction - 120 (i-1) deg)",
-            "bounce_trigger": "shear if sigma^2/(16 pi) > rho at the bounce, else matter",
-        }
+    def described_values(self) -> dict[str, Any]:
+        return {"direction_degrees": self.direction}

@@ -32,10 +32,12 @@ from typing import Any
 import numpy as np
 from scipy.optimize import brentq
 
+from ..config import read_parameters
 from ..errors import InputError
 from . import engine
-from .initial import ClassicalStart, ContractingStart, IntegrationSettings
-from .result import BackgroundTrajectory, RunSummary
+from .dynamics_runs import EngineDynamics
+from .initial import BounceStart, ContractingStart, IntegrationSettings
+from .result import BackgroundTrajectory
 
 PRE, POST, LATE = 0, 1, 2
 
@@ -81,13 +83,16 @@ def field_from_phase(potential: Any, density: float, phase: float) -> tuple[floa
     return sign * phi, phidot
 
 
+def unavailable_start(name: str, initial: Any, allowed: str) -> InputError:
+    """The one-line refusal of a start a dynamics does not offer."""
+    return InputError(f"'background.start' = '{type(initial).__name__}' is not available for "
+                      f"dynamics '{name}'; allowed: {allowed}")
+
+
 def require_contracting(name: str, initial: Any) -> ContractingStart:
     """The anisotropic dynamics start only in the contracting branch (or classically)."""
     if not isinstance(initial, ContractingStart):
-        raise InputError(
-            f"'background.start' = '{type(initial).__name__}' is not available for dynamics "
-            f"'{name}'; allowed: contracting"
-        )
+        raise unavailable_start(name, initial, "contracting")
     return initial
 
 
@@ -108,7 +113,7 @@ def classical_field(initial: Any) -> tuple[float, float]:
     return float(initial.phi), float(initial.phidot)
 
 
-class CanonicalDynamics:
+class CanonicalDynamics(EngineDynamics):
     """Engine runs, summaries and trajectories of a canonical dynamics.
 
     A subclass provides ``NAME``, ``describe()``, the density that plays rho_c in its results
@@ -118,49 +123,45 @@ class CanonicalDynamics:
     """
 
     NAME = ""
+    CLASSICAL_NOTE = "classical start in the expanding branch: no bounce by construction"
     result_density: float = math.nan
 
-    def start(self, potential: Any, initial: Any,
-              settings: IntegrationSettings) -> tuple[engine.System, np.ndarray, int,
-                                                      np.ndarray, bool, bool]:
+    #: attributes describe() reports under their own names
+    DESCRIBED: tuple[str, ...] = ("critical_density",)
+    #: fixed texts describe() reports: equations, starting data, references
+    TEXTS: dict[str, str] = {}
+
+    #: the declarations of the keys of its [background.<name>] table
+    CONFIG_PARAMETERS: tuple = ()
+
+    @classmethod
+    def from_config(cls, table: Any, critical_density: float) -> Any:
+        return cls(critical_density=critical_density,
+                   **read_parameters(table, cls.CONFIG_PARAMETERS))
+
+    def initial_state(self, potential: Any, initial: Any) -> tuple[np.ndarray, int]:
+        """(y0, mode) of ``initial``."""
         raise NotImplementedError
 
+    def start(self, potential: Any, initial: Any, settings: IntegrationSettings) -> tuple:
+        """Engine start from :meth:`initial_state`: tolerances per mode, started at/after the
+        bounce unless in mode PRE, at the bounce for a bounce start."""
+        y0, mode = self.initial_state(potential, initial)
+        return (self.system, y0, mode, tolerances(settings, y0), mode != PRE,
+                isinstance(initial, BounceStart))
+
+    def described_values(self) -> dict[str, Any]:
+        """Values describe() reports besides ``DESCRIBED`` (derived or renamed ones)."""
+        return {}
+
     def describe(self) -> dict[str, Any]:
-        raise NotImplementedError
+        """The dynamics, its parameters and derived scales, and the texts saying what it
+        solves (written into every trajectory's provenance)."""
+        return {"dynamics": self.NAME, **{a: getattr(self, a) for a in self.DESCRIBED},
+                **self.described_values(), **self.TEXTS}
 
     def trajectory_extras(self, result: engine.EngineRun, t: np.ndarray) -> dict[str, Any]:
         return {}
-
-    def run(self, potential: Any, initial: Any, settings: IntegrationSettings | None = None,
-            store: bool = False) -> engine.EngineRun:
-        settings = settings or IntegrationSettings()
-        system, y0, mode, atol, bounced, has_bounce = self.start(potential, initial, settings)
-        result = engine.run(system, potential, y0, mode, settings, bounced=bounced,
-                            has_bounce=has_bounce, atol=atol, store=store)
-        if isinstance(initial, ClassicalStart):
-            s = result.summary
-            result = engine.EngineRun(
-                replace(s, status="no_bounce",
-                        message="classical start in the expanding branch: no bounce by "
-                        "construction; " + s.message), result.dense)
-        return result
-
-    def evolve_summary(self, potential: Any, initial: Any,
-                       settings: IntegrationSettings | None = None) -> RunSummary:
-        """The run's summary only (no trajectory): what e-fold distributions need."""
-        return self.run(potential, initial, settings).summary
-
-    def evolve_summaries(self, potential: Any, initials: list,
-                         settings: IntegrationSettings | None = None) -> list[RunSummary]:
-        """Summaries of many initial data in one compiled loop (e-fold distributions)."""
-        settings = settings or IntegrationSettings()
-        if any(isinstance(ini, ClassicalStart) for ini in initials):
-            return [self.evolve_summary(potential, ini, settings) for ini in initials]
-        starts, system = [], None
-        for ini in initials:
-            system, y0, mode, atol, bounced, has_bounce = self.start(potential, ini, settings)
-            starts.append(engine.Start(y0, mode, bounced, has_bounce, atol))
-        return engine.run_many(system, potential, starts, settings) if starts else []
 
     def evolve(self, potential: Any, initial: Any,
                settings: IntegrationSettings | None = None) -> BackgroundTrajectory:

@@ -42,7 +42,7 @@ from typing import Any
 
 import numpy as np
 
-from ..config import Parameter, names_of, read_parameters
+from ..config import Parameter, names_of
 from ..errors import InputError
 from . import canonical as cn
 from . import engine
@@ -84,6 +84,14 @@ class CondensateDynamics(cn.CanonicalDynamics):
     canonical: bool = False  # the loop system in its own variables even without the extra term
 
     NAME = "condensate"
+    DESCRIBED = ("rescale", "condensate_term")
+    TEXTS = {
+        "equations": "H^2 = (8 pi/3) rho (1 - rho/rho_c' + q/v), rho_c' = rescale * rho_c, "
+        "v = (a/a_0)^3 (a_0 on the initial surface)",
+        "contracting_start": "energy angle at density rho_0 as for the isotropic dynamics: "
+        "sqrt(V) = sqrt(rho_0) sin(phase), phidot/sqrt(2) = sqrt(rho_0) cos(phase)",
+        "reference": "Oriti, Sindoni & Wilson-Ewing, arXiv:1602.05881",
+    }
     CONFIG_PARAMETERS = (RESCALE, CONDENSATE_TERM)
     CONFIG_KEYS = names_of(CONFIG_PARAMETERS)
 
@@ -93,11 +101,6 @@ class CondensateDynamics(cn.CanonicalDynamics):
         check_critical_density(self.rescale * self.critical_density,
                                "background.condensate.rescale x background.critical_density")
         CONDENSATE_TERM.check(self.condensate_term, "background.condensate.condensate_term")
-
-    @classmethod
-    def from_config(cls, table: Any, critical_density: float) -> CondensateDynamics:
-        return cls(critical_density=critical_density,
-                   **read_parameters(table, cls.CONFIG_PARAMETERS))
 
     @property
     def effective_critical_density(self) -> float:
@@ -145,15 +148,7 @@ class CondensateDynamics(cn.CanonicalDynamics):
                 initial.field_side
             )
             return np.array([math.log(0.5 * math.pi), 0.0, phi, phidot]), cn.POST
-        raise InputError(
-            f"'background.start' = '{type(initial).__name__}' is not available for dynamics "
-            "'condensate'; allowed: bounce, contracting"
-        )
-
-    def start(self, potential: Any, initial: Any, settings: IntegrationSettings) -> tuple:
-        y0, mode = self.initial_state(potential, initial)
-        return (self.system, y0, mode, cn.tolerances(settings, y0), mode != cn.PRE,
-                mode != cn.PRE)
+        raise cn.unavailable_start(self.NAME, initial, "bounce, contracting")
 
     def engine_name(self, potential: Any) -> str:
         """Which system runs this dynamics."""
@@ -164,10 +159,6 @@ class CondensateDynamics(cn.CanonicalDynamics):
         if self.uses_isotropic_engine:
             return self._isotropic().run(potential, initial, settings, store)
         return super().run(potential, initial, settings, store)
-
-    def evolve_summary(self, potential: Any, initial: Any,
-                       settings: IntegrationSettings | None = None) -> RunSummary:
-        return self.run(potential, initial, settings).summary
 
     def evolve_summaries(self, potential: Any, initials: list,
                          settings: IntegrationSettings | None = None) -> list[RunSummary]:
@@ -184,17 +175,8 @@ class CondensateDynamics(cn.CanonicalDynamics):
         tr = super().evolve(potential, initial, settings)
         return replace(tr, extras={**tr.extras, "system": self.engine_name(potential)})
 
-    def describe(self) -> dict[str, Any]:
-        return {
-            "dynamics": self.NAME,
-            "critical_density": self.effective_critical_density,
-            "rescale": self.rescale,
-            "base_critical_density": self.critical_density,
-            "condensate_term": self.condensate_term,
-            "system": "isotropic" if self.uses_isotropic_engine else "canonical loop variables",
-            "equations": "H^2 = (8 pi/3) rho (1 - rho/rho_c' + q/v), rho_c' = rescale * rho_c, "
-            "v = (a/a_0)^3 (a_0 on the initial surface)",
-            "contracting_start": "energy angle at density rho_0 as for the isotropic dynamics: "
-            "sqrt(V) = sqrt(rho_0) sin(phase), phidot/sqrt(2) = sqrt(rho_0) cos(phase)",
-            "reference": "Oriti, Sindoni & Wilson-Ewing, arXiv:1602.05881",
-        }
+    def described_values(self) -> dict[str, Any]:
+        return {"critical_density": self.effective_critical_density,
+                "base_critical_density": self.critical_density,
+                "system": "isotropic" if self.uses_isotropic_engine
+                else "canonical loop variables"}

@@ -34,8 +34,7 @@ from .result import STATUSES, BackgroundEvents, BackgroundTrajectory, RunSummary
 
 drop_stale_caches(Path(__file__).with_name(name) for name in (
     "jit.py", "potential_kernels.py", "isotropic_system.py", "bianchi_system.py",
-    "asymmetric_system.py", "loop_system.py", "systems.py", "problem.py", "solver.py",
-    "dop853_tableau.py"))
+    "asymmetric_system.py", "loop_system.py", "systems.py", "problem.py", "solver.py"))
 
 #: accepted steps per compiled call (a few tens of milliseconds)
 CHUNK_STEPS = 20_000

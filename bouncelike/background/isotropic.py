@@ -43,7 +43,6 @@ the read-only table view the perturbations read (:mod:`bouncelike.background.tab
 from __future__ import annotations
 
 import math
-from dataclasses import replace
 from typing import Any
 
 import numpy as np
@@ -51,10 +50,11 @@ import numpy as np
 from ..errors import InputError, NumericalFailure
 from ..units import critical_density as critical_density_from_gamma
 from . import engine
+from .dynamics_runs import EngineDynamics
 from .initial import BounceStart, ClassicalStart, ContractingStart, IntegrationSettings
 from .isotropic_system import SWITCH_FRACTION
 from .limits import check_critical_density, check_potential_fraction
-from .result import BackgroundTrajectory, RunSummary
+from .result import BackgroundTrajectory
 from .systems import SYS_ISOTROPIC
 from .table import BackgroundTable, table_from_state
 
@@ -95,7 +95,7 @@ def friedmann_rhs(y: Any, potential: Any, critical_density: float) -> np.ndarray
     ])
 
 
-class IsotropicDynamics:
+class IsotropicDynamics(EngineDynamics):
     """The effective isotropic bounce with critical density ``critical_density`` (Planck units).
 
     ``evolve(potential, initial, settings)`` returns a
@@ -105,6 +105,7 @@ class IsotropicDynamics:
     """
 
     NAME = "isotropic"
+    CLASSICAL_NOTE = "classical start (general relativity, no bounce)"
     CONFIG_PARAMETERS: tuple = ()
     CONFIG_KEYS: tuple[str, ...] = ()
 
@@ -155,14 +156,14 @@ class IsotropicDynamics:
         kinetic = max(rho_c - float(potential.V(phi)), 0.0)
         return phi, sign * math.sqrt(2.0 * kinetic)
 
-    def initial_state(self, potential: Any, initial: Any) -> tuple[np.ndarray, int, bool, bool,
-                                                                  engine.System]:
-        """(y0, mode, at/after the bounce, at the bounce, system) for the engine."""
+    def start(self, potential: Any, initial: Any, settings: IntegrationSettings | None = None
+              ) -> tuple[engine.System, np.ndarray, int, None, bool, bool]:
+        """(system, y0, mode, None: ``settings.atol``, at/after the bounce, at the bounce)."""
         rho_c = self.critical_density
         system = self._system
         if isinstance(initial, BounceStart):
             phi, phidot = self.bounce_state(potential, initial)
-            return np.array([0.0, phi, phidot, 0.0]), 1, True, True, system
+            return system, np.array([0.0, phi, phidot, 0.0]), 1, None, True, True
         if isinstance(initial, ContractingStart):
             rho0 = float(initial.density)
             if not (0.0 < rho0 < rho_c):
@@ -175,7 +176,7 @@ class IsotropicDynamics:
             phi = potential.field_at(rho0 * sd * sd, 1.0 if sd >= 0 else -1.0)
             phidot = math.sqrt(2.0 * rho0) * cd
             mode = 0 if rho0 < SWITCH_FRACTION * rho_c else 1
-            return np.array([0.0, phi, phidot, 0.0]), mode, False, False, system
+            return system, np.array([0.0, phi, phidot, 0.0]), mode, None, False, False
         if isinstance(initial, ClassicalStart):
             y0 = np.array([0.0, float(initial.phi), float(initial.phidot), 0.0])
             if not 0.5 * y0[2] ** 2 + float(potential.V(y0[1])) > 0:
@@ -183,42 +184,10 @@ class IsotropicDynamics:
                     "'background.classical.phi' and 'background.classical.phidot' give zero "
                     "energy density; allowed: a state with rho > 0"
                 )
-            return y0, 2, True, False, engine.System(SYS_ISOTROPIC, (0.0, 0.0, 0.0, 0.0))
+            return engine.System(SYS_ISOTROPIC, (0.0, 0.0, 0.0, 0.0)), y0, 2, None, True, False
         raise InputError(f"unknown initial data {type(initial).__name__}")
 
     # -- running ----------------------------------------------------------------------------
-    def run(self, potential: Any, initial: Any, settings: IntegrationSettings | None = None,
-            store: bool = False) -> engine.EngineRun:
-        """One engine run of ``initial`` (summary, and the dense solution with ``store``)."""
-        settings = settings or IntegrationSettings()
-        y0, mode, bounced, has_bounce, system = self.initial_state(potential, initial)
-        result = engine.run(system, potential, y0, mode, settings, bounced=bounced,
-                            has_bounce=has_bounce, store=store)
-        if isinstance(initial, ClassicalStart):
-            s = result.summary
-            result = engine.EngineRun(
-                replace(s, status="no_bounce",
-                        message="classical start (general relativity, no bounce); "
-                        + s.message), result.dense)
-        return result
-
-    def evolve_summary(self, potential: Any, initial: Any,
-                       settings: IntegrationSettings | None = None) -> RunSummary:
-        """The run's :class:`~bouncelike.background.result.RunSummary` (no trajectory)."""
-        return self.run(potential, initial, settings).summary
-
-    def evolve_summaries(self, potential: Any, initials: list,
-                         settings: IntegrationSettings | None = None) -> list[RunSummary]:
-        """Summaries of many initial data in one compiled loop (e-fold distributions)."""
-        settings = settings or IntegrationSettings()
-        if any(isinstance(ini, ClassicalStart) for ini in initials):
-            return [self.evolve_summary(potential, ini, settings) for ini in initials]
-        starts = []
-        for ini in initials:
-            y0, mode, bounced, has_bounce, _ = self.initial_state(potential, ini)
-            starts.append(engine.Start(y0, mode, bounced, has_bounce))
-        return engine.run_many(self._system, potential, starts, settings)
-
     def evolve(self, potential: Any, initial: Any,
                settings: IntegrationSettings | None = None) -> BackgroundTrajectory:
         """Evolve one initial datum; physical outcomes are statuses, never exceptions."""

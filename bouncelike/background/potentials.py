@@ -76,8 +76,18 @@ def _arr(phi: Any) -> np.ndarray:
     return np.asarray(phi, dtype=float)
 
 
+class DeclaredPotential:
+    """A shipped potential: its parameters are the attributes its declarations name."""
+
+    PARAMETERS: ClassVar[tuple[Parameter, ...]] = ()
+
+    @property
+    def parameters(self) -> dict[str, float]:
+        return {p.name: getattr(self, p.name) for p in self.PARAMETERS}
+
+
 @dataclass(frozen=True)
-class Quadratic:
+class Quadratic(DeclaredPotential):
     """V = m^2 phi^2 / 2 with mass m in units of m_Pl (m >= 0; m = 0 is a free field)."""
 
     mass: float
@@ -86,10 +96,6 @@ class Quadratic:
 
     def __post_init__(self) -> None:
         check_mass(self.mass)
-
-    @property
-    def parameters(self) -> dict[str, float]:
-        return {"mass": self.mass}
 
     @property
     def kernel(self) -> tuple[int, np.ndarray]:
@@ -112,7 +118,7 @@ class Quadratic:
 
 
 @dataclass(frozen=True)
-class Starobinsky:
+class Starobinsky(DeclaredPotential):
     """V = (3/4) M^2 M_Pl^2 (1 - exp(-sqrt(2/3) phi/M_Pl))^2, M in units of m_Pl, reduced M_Pl."""
 
     mass: float
@@ -126,10 +132,6 @@ class Starobinsky:
     def plateau(self) -> float:
         """Plateau height V_inf = (3/4) M^2 M_Pl^2 (Planck units)."""
         return 0.75 * self.mass**2 * REDUCED_PLANCK_MASS**2
-
-    @property
-    def parameters(self) -> dict[str, float]:
-        return {"mass": self.mass}
 
     @property
     def kernel(self) -> tuple[int, np.ndarray]:
@@ -162,7 +164,7 @@ class Starobinsky:
 
 
 @dataclass(frozen=True)
-class Monomial:
+class Monomial(DeclaredPotential):
     """V = lambda [(phi^2 + s^2)^(p/2) - s^p] ~ lambda |phi|^p (see module notes on smoothing)."""
 
     amplitude: float
@@ -173,10 +175,6 @@ class Monomial:
 
     def __post_init__(self) -> None:
         check_parameters(self.parameters, self.PARAMETERS, "potential")
-
-    @property
-    def parameters(self) -> dict[str, float]:
-        return {"amplitude": self.amplitude, "power": self.power, "smoothing": self.smoothing}
 
     @property
     def kernel(self) -> tuple[int, np.ndarray]:
@@ -222,9 +220,6 @@ class Linear(Monomial):
         object.__setattr__(self, "power", 1.0)
         super().__post_init__()
 
-    @property
-    def parameters(self) -> dict[str, float]:
-        return {"slope": self.slope, "smoothing": self.smoothing}
 
 
 @dataclass(frozen=True)

@@ -133,7 +133,22 @@ class RunSummary:
 
 
 @dataclass(frozen=True)
-class BackgroundTrajectory:
+class FieldHistory:
+    """Samples of the homogeneous background at increasing cosmic times ``t`` (Planck units):
+    ln a, H, dH/dt, the inflaton phi and its first two time derivatives. The arrays every
+    trajectory and every table of the background carry."""
+
+    t: np.ndarray
+    ln_a: np.ndarray
+    H: np.ndarray
+    Hdot: np.ndarray
+    phi: np.ndarray
+    phidot: np.ndarray
+    phiddot: np.ndarray
+
+
+@dataclass(frozen=True)
+class BackgroundTrajectory(FieldHistory):
     """One evolved background: dense trajectory, events, e-folds, constraint residual, status.
 
     Attributes
@@ -163,13 +178,6 @@ class BackgroundTrajectory:
     """
 
     dynamics: str
-    t: np.ndarray
-    ln_a: np.ndarray
-    H: np.ndarray
-    Hdot: np.ndarray
-    phi: np.ndarray
-    phidot: np.ndarray
-    phiddot: np.ndarray
     rho: np.ndarray
     w: np.ndarray
     critical_density: float
@@ -212,13 +220,10 @@ class BackgroundTrajectory:
 
     def summary(self) -> dict[str, Any]:
         """Scalars only: status, events, e-folds, bounce potential fraction, residual."""
+        scalars = ("critical_density", "potential_fraction_at_bounce", "max_constraint_residual")
         return {
-            "dynamics": self.dynamics,
-            "status": self.status,
-            "message": self.message,
-            "critical_density": float(self.critical_density),
-            "potential_fraction_at_bounce": float(self.potential_fraction_at_bounce),
-            "max_constraint_residual": float(self.max_constraint_residual),
+            "dynamics": self.dynamics, "status": self.status, "message": self.message,
+            **{name: float(getattr(self, name)) for name in scalars},
             **{f"efolds_{k}": v for k, v in self.efolds.as_dict().items()},
             **self.events.as_dict(),
         }

@@ -2,7 +2,8 @@
 
 The explicit Runge-Kutta pair DOP853 of Dormand & Prince (8th order, 5th and 3rd order
 embedded error estimators, 7th-order continuous extension; Hairer, Norsett & Wanner, Solving
-Ordinary Differential Equations I, 2nd ed. 1993; tableau in :mod:`.dop853_tableau`), compiled
+Ordinary Differential Equations I, 2nd ed. 1993; its coefficients are read from scipy's own
+table, scipy/integrate/_ivp/dop853_coefficients.py, one copy for both), compiled
 with numba. Written once here: the stages, the error norm (Hairer's combination of the two
 estimators on scaled components), the step-size controller (safety 0.9, factor in [0.2, 10],
 exponent -1/8), the initial step (1e-3 of the fastest time scale the problem reports), the
@@ -33,8 +34,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from scipy.integrate._ivp import dop853_coefficients as _T
 
-from . import dop853_tableau as _T
 from .jit import jit
 from .problem import (
     CONTINUE,

@@ -34,11 +34,12 @@ from ..errors import InputError, NumericalFailure
 from ..quantities import bounce_scale
 from . import engine, problem
 from .initial import IntegrationSettings
+from .result import FieldHistory
 from .systems import SYS_ISOTROPIC
 
 
 @dataclass(frozen=True)
-class BackgroundTable:
+class BackgroundTable(FieldHistory):
     """Dense background samples on a grid of cosmic time (increasing).
 
     ``t_bounce`` is NaN without a bounce. ``t_inflation_end`` is NaN when inflation does not end
@@ -47,13 +48,6 @@ class BackgroundTable:
     tables).
     """
 
-    t: np.ndarray
-    ln_a: np.ndarray
-    H: np.ndarray
-    Hdot: np.ndarray
-    phi: np.ndarray
-    phidot: np.ndarray
-    phiddot: np.ndarray
     V: np.ndarray
     dV: np.ndarray
     d2V: np.ndarray

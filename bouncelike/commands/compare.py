@@ -36,20 +36,16 @@ import math
 import time
 from typing import Any
 
-from ._layer import CommandResult, Options
+from ..io import table_figure_summary_names, write_table_figure_summary
+from ._layer import CommandResult
+from .efolds import DISTRIBUTION_KEYS, PRIOR_KEYS, distribution_options
 
 NAME = "compare"
 HELP = "e-fold distributions of several bounce dynamics or shear values side by side"
-OPTIONS = Options(config="[potential], [background] and [compare]",
-                  output="bouncelike-out/<config stem>/", workers="[compare] workers",
-                  compiles=True)
-FILES = {"table": "compare_table.csv", "figure_pdf": "compare.pdf",
-         "figure_png": "compare.png", "summary": "compare_summary.json"}
+OPTIONS = distribution_options("compare")
+FILES = table_figure_summary_names("compare", "compare_table.csv")
 
-PRIOR_KEYS = ("prior", "start_density", "start_density_decades", "fraction_min", "fraction_max",
-              "fraction_scale")
-COMPARE_KEYS = ("n_samples", "seed", "threshold", "bins", "workers", "cases", "shear_ratios",
-                "shear_direction") + PRIOR_KEYS
+COMPARE_KEYS = (*DISTRIBUTION_KEYS, "cases", "shear_ratios", "shear_direction", *PRIOR_KEYS)
 
 
 def add_arguments(parser: Any) -> None:
@@ -162,13 +158,6 @@ def run(args: Any, session: Any) -> CommandResult:
     )
     from ..config import Table
     from ..errors import InputError
-    from ..io import (
-        json_safe,
-        output_set,
-        save_figure_atomic,
-        write_csv_atomic,
-        write_json_atomic,
-    )
     from ..parallel import make_pool
 
     config = session.config()
@@ -238,14 +227,7 @@ def run(args: Any, session: Any) -> CommandResult:
         "compile_seconds": timing["compile_seconds"],
     }
     provenance = session.provenance()
-    with output_set(out_dir):  # all four files, or none
-        write_csv_atomic(files["table"], frame, float_format="%.8g")
-        save_figure_atomic(fig, files["figure_pdf"])
-        save_figure_atomic(fig, files["figure_png"], dpi=150)
-        write_json_atomic(files["summary"], json_safe({**summary, "provenance": provenance}))
-    import matplotlib.pyplot as plt
-
-    plt.close(fig)
+    write_table_figure_summary(files, frame, "%.8g", fig, {**summary, "provenance": provenance})
     lines = [f"Duration of inflation by dynamics: {title}"]
     lines.append(f"  {'case':<28} {'median':>8} {'5%':>8} {'95%':>8} {f'>{threshold:g}':>7} "
                  f"{'cap':>4} {'fail':>4} {'residual':>9} {'time':>7}")

@@ -32,20 +32,30 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from ..io import table_figure_summary_names, write_table_figure_summary
 from ._layer import CommandResult, Options
 
 NAME = "efolds"
 HELP = "distribution of the number of inflationary e-folds after the bounce"
-OPTIONS = Options(config="[potential], [background] and [efolds]",
-                  output="bouncelike-out/<config stem>/", workers="[efolds] workers",
-                  compiles=True)
-FILES = {"samples": "efolds_samples.csv", "figure_pdf": "efolds.pdf",
-         "figure_png": "efolds.png", "summary": "efolds_summary.json"}
 
-EFOLDS_KEYS = ("n_samples", "seed", "threshold", "prior", "start_density",
-               "start_density_decades",
-               "fraction_min", "fraction_max", "fraction_scale", "workers", "bins",
-               "convergence_samples")
+
+def distribution_options(section: str) -> Options:
+    """The options of the e-fold distribution commands (efolds, compare)."""
+    return Options(config=f"[potential], [background] and [{section}]",
+                   output="bouncelike-out/<config stem>/", workers=f"[{section}] workers",
+                   compiles=True)
+
+
+OPTIONS = distribution_options("efolds")
+FILES = table_figure_summary_names("efolds", "efolds_samples.csv")
+
+#: keys of the prior of the contracting-branch data ([efolds] and [compare];
+#: background.efolds.prior_from_config reads them)
+PRIOR_KEYS = ("prior", "start_density", "start_density_decades", "fraction_min", "fraction_max",
+              "fraction_scale")
+#: keys of an e-fold distribution's sampling ([efolds] and [compare])
+DISTRIBUTION_KEYS = ("n_samples", "seed", "threshold", "bins", "workers")
+EFOLDS_KEYS = (*DISTRIBUTION_KEYS, "convergence_samples", *PRIOR_KEYS)
 
 
 def add_arguments(parser: Any) -> None:
@@ -198,13 +208,6 @@ def make_figure(dist: Any, title: str) -> Any:
 def run(args: Any, session: Any) -> CommandResult:
     from ..background.efolds import efolds_distribution, start_density_ceiling
     from ..background.setup import background_from_config
-    from ..io import (
-        json_safe,
-        output_set,
-        save_figure_atomic,
-        write_csv_atomic,
-        write_json_atomic,
-    )
     from ..parallel import make_pool
 
     config = session.config()
@@ -245,14 +248,7 @@ def run(args: Any, session: Any) -> CommandResult:
     result["files"] = {k: str(v) for k, v in files.items()}
     provenance = session.provenance()
 
-    with output_set(out_dir):  # all four files, or none
-        write_csv_atomic(files["samples"], frame, float_format="%.10g")
-        save_figure_atomic(fig, files["figure_pdf"])
-        save_figure_atomic(fig, files["figure_png"], dpi=150)
-        write_json_atomic(files["summary"], json_safe({**result, "provenance": provenance}))
-    import matplotlib.pyplot as plt
-
-    plt.close(fig)
+    write_table_figure_summary(files, frame, "%.10g", fig, {**result, "provenance": provenance})
     text = "\n".join(lines) + (f"\n\n  time {session.time_text()} on {result['workers']} "
                                "worker(s); wrote " + ", ".join(str(p) for p in files.values()))
     return CommandResult(data=result, text=text, provenance=provenance,

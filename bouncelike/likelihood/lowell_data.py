@@ -44,6 +44,7 @@ import numpy as np
 from ..config import Table, read_toml
 from ..errors import InputError
 from ..quantities import PIVOT
+from .citation import CitedSource, citation_fields
 
 KIND = "temperature_low_ell"
 COLUMNS = ("ell", "D_measured", "minus_68", "plus_68", "D_reference")
@@ -56,15 +57,9 @@ _NAME_RE = re.compile(r"^[A-Za-z0-9_]+$")
 
 
 @dataclass(frozen=True, eq=False)
-class LowEllData:
+class LowEllData(CitedSource):
     """A cited table of measured D_ell (micro-K^2) with intervals and a reference spectrum."""
 
-    name: str
-    title: str
-    citation: str
-    arxiv: str
-    table: str
-    data_combination: str
     is_forecast: bool
     overlap_tags: tuple[str, ...]
     units: str
@@ -95,14 +90,9 @@ class LowEllData:
     def quantities(self) -> tuple[str, ...]:
         return tuple(f"D_{ell}" for ell in self.ells)
 
-    @property
-    def source(self) -> str:
-        return f"{self.name} (arXiv:{self.arxiv})"
-
     def as_dict(self) -> dict[str, Any]:
         return {
-            "name": self.name, "kind": KIND, "title": self.title, "citation": self.citation,
-            "arxiv": self.arxiv, "table": self.table, "data_combination": self.data_combination,
+            **self.citation_dict(), "kind": KIND,
             "forecast": self.is_forecast, "overlap": list(self.overlap_tags),
             "units": self.units, "interval": "highest_density",
             "interval_probability": self.interval_probability,
@@ -111,17 +101,6 @@ class LowEllData:
             "multipoles": [int(x) for x in self.ells],
             "reference": {**self.reference_model, "citation": self.reference_citation},
         }
-
-
-def _text(t: Table, key: str, required: bool = True) -> str:
-    if key not in t:
-        if required:
-            raise InputError(f"missing key '{t.key(key)}'")
-        return ""
-    value = t.string(key).strip()
-    if required and not value:
-        raise InputError(f"'{t.key(key)}' must be a non-empty string")
-    return value
 
 
 def _rows(raw: Any) -> np.ndarray:
@@ -157,7 +136,7 @@ def _rows(raw: Any) -> np.ndarray:
 def parse_low_ell_set(data: dict[str, Any], path: str = "") -> LowEllData:
     """Validate the contents of a low-ell set file (errors name the key)."""
     top = Table(data, "", SET_KEYS)
-    name = _text(top, "name")
+    name = top.text("name")
     if not _NAME_RE.match(name):
         raise InputError(f"'name' = '{name}' must use letters, digits and underscores only")
     top.string("kind", choices=(KIND,))
@@ -173,19 +152,17 @@ def parse_low_ell_set(data: dict[str, Any], path: str = "") -> LowEllData:
     ref = top.table("reference", REFERENCE_KEYS, required=True)
     model = {"ln_1e10_As": ref.number("ln_1e10_As"), "n_s": ref.number("n_s"),
              "r": ref.number("r", 0.0, minimum=0.0), "pivot": ref.positive("pivot", PIVOT)}
-    ref_cite = f"{_text(ref, 'citation')} (arXiv:{_text(ref, 'arxiv')}), {_text(ref, 'table')}"
+    ref_cite = f"{ref.text('citation')} (arXiv:{ref.text('arxiv')}), {ref.text('table')}"
     arrays = [np.ascontiguousarray(arr[:, i]) for i in range(len(COLUMNS))]
     arrays[0] = arrays[0].astype(int)
     for a in arrays:
         a.setflags(write=False)
     return LowEllData(
-        name=name, title=_text(top, "title"), citation=_text(top, "citation"),
-        arxiv=_text(top, "arxiv"), table=_text(top, "table"),
-        data_combination=_text(top, "data_combination"), is_forecast=top.boolean("forecast"),
-        overlap_tags=tuple(tags), units=_text(top, "units"), interval_probability=prob,
-        approximation=_text(top, "approximation"),
-        overlap_treatment=_text(top, "overlap_treatment"),
-        notes=_text(top, "notes", required=False), ells=arrays[0], measured=arrays[1],
+        name=name, **citation_fields(top), is_forecast=top.boolean("forecast"),
+        overlap_tags=tuple(tags), units=top.text("units"), interval_probability=prob,
+        approximation=top.text("approximation"),
+        overlap_treatment=top.text("overlap_treatment"),
+        notes=top.text("notes", required=False), ells=arrays[0], measured=arrays[1],
         minus=arrays[2], plus=arrays[3], reference_dell=arrays[4], reference_model=model,
         reference_citation=ref_cite, path=path)
 

@@ -108,21 +108,15 @@ class Score:
         return all(f["fit_ok"] for f in self.fit_quality)
 
     def as_dict(self) -> dict[str, Any]:
+        plain = ("chi2", "dof", "p_value", "verdict", "excluded_at", "p_value_is_bound",
+                 "bound", "log_likelihood", "fit_ok")
         return {
-            "chi2": self.chi2,
-            "dof": self.dof,
-            "p_value": self.p_value,
-            "verdict": self.verdict,
-            "excluded_at": self.excluded_at,
+            **{name: getattr(self, name) for name in plain},
             "verdict_rule": self.rule,
-            "p_value_is_bound": self.p_value_is_bound,
-            "bound": self.bound,
             "cap": self.cap or None,
-            "log_likelihood": self.log_likelihood,
             "terms": [t.as_dict() for t in self.terms],
             "notes": list(self.notes),
             "fit_quality": [dict(f) for f in self.fit_quality],
-            "fit_ok": self.fit_ok,
             "sets": list(self.sets),
             "summaries": [s.as_dict() for s in self.summaries],
             **({"low_ell": self.low_ell.as_dict()} if self.low_ell is not None else {}),

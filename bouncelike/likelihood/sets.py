@@ -56,6 +56,13 @@ from scipy.stats import norm
 from ..config import Parameter, Table, read_toml
 from ..errors import InputError
 from ..quantities import PIVOT_SCALE, SPECTRAL
+from .citation import CitedSource, citation_fields
+from .lowell_data import (
+    available_low_ell_sets,
+    data_dir,
+    load_low_ell_path,
+    load_shipped_low_ell,
+)
 
 #: Quantities a constraint set may constrain (names of :class:`PivotSummary` fields).
 QUANTITIES = ("ln_1e10_As", "n_s", "running", "running_of_running", "r")
@@ -127,15 +134,9 @@ class ConstraintTerm:
 
 
 @dataclass(frozen=True)
-class ConstraintSet:
+class ConstraintSet(CitedSource):
     """A cited set of published constraints at one pivot."""
 
-    name: str
-    title: str
-    citation: str
-    arxiv: str
-    table: str
-    data_combination: str
     pivot: float
     is_forecast: bool
     terms: tuple[ConstraintTerm, ...]
@@ -156,20 +157,10 @@ class ConstraintSet:
     def quantities(self) -> tuple[str, ...]:
         return tuple(t.quantity for t in self.terms)
 
-    @property
-    def source(self) -> str:
-        """Short source text used in score tables."""
-        return f"{self.name} (arXiv:{self.arxiv})"
-
     def as_dict(self) -> dict[str, Any]:
         return {
-            "name": self.name,
-            "title": self.title,
+            **self.citation_dict(),
             "label": self.short_title,
-            "citation": self.citation,
-            "arxiv": self.arxiv,
-            "table": self.table,
-            "data_combination": self.data_combination,
             "pivot": self.pivot,
             "forecast": self.is_forecast,
             "overlap": list(self.overlap_tags),
@@ -198,17 +189,6 @@ def _data_dir() -> Path:
 def available_sets() -> tuple[str, ...]:
     """Names of the shipped constraint sets."""
     return tuple(sorted(p.stem for p in _data_dir().glob("*.toml")))
-
-
-def _text(table: Table, key: str, required: bool = True) -> str:
-    if key not in table:
-        if required:
-            raise InputError(f"missing key '{key}'")
-        return ""
-    value = table.string(key).strip()
-    if required and not value:
-        raise InputError(f"'{key}' must be a non-empty string")
-    return value
 
 
 def _parse_term(raw: Any, index: int) -> ConstraintTerm:
@@ -247,7 +227,7 @@ def parse_constraint_set(data: dict[str, Any], path: str = "") -> ConstraintSet:
     """Validate the contents of a set file (errors name the field)."""
     top = Table(data, "", SET_KEYS)
     top.string("kind", "pivot_summary", choices=SET_FILE_KINDS[:1])
-    name = _text(top, "name")
+    name = top.text("name")
     if not _NAME_RE.match(name):
         raise InputError(f"'name' = '{name}' must use letters, digits and underscores only")
     raw_terms = top.raw("term")
@@ -262,7 +242,7 @@ def parse_constraint_set(data: dict[str, Any], path: str = "") -> ConstraintSet:
             raise InputError(f"'term[{i}].quantity' = '{term.quantity}' appears twice in the set")
         seen.add(term.quantity)
     has_limit = any(t.kind == "upper_limit" for t in terms)
-    treatment = _text(top, "upper_limit_treatment", required=has_limit)
+    treatment = top.text("upper_limit_treatment", required=has_limit)
     tags = top.strings("overlap")
     if not tags or not all(_NAME_RE.match(tag) for tag in tags):
         raise InputError("'overlap' must be a non-empty list of data tags (e.g. [\"planck\"])")
@@ -284,21 +264,17 @@ def parse_constraint_set(data: dict[str, Any], path: str = "") -> ConstraintSet:
         correlations.append((pair[0], pair[1], rho))
     return ConstraintSet(
         name=name,
-        title=_text(top, "title"),
-        citation=_text(top, "citation"),
-        arxiv=_text(top, "arxiv"),
-        table=_text(top, "table"),
-        data_combination=_text(top, "data_combination"),
+        **citation_fields(top),
         pivot=PIVOT_SCALE.check(top.positive("pivot"), "pivot"),
         is_forecast=top.boolean("forecast"),
         terms=terms,
         overlap_tags=tuple(tags),
         upper_limit_treatment=treatment,
-        correlation_note=_text(top, "correlation_note", required=False),
-        notes=_text(top, "notes", required=False),
+        correlation_note=top.text("correlation_note", required=False),
+        notes=top.text("notes", required=False),
         correlations=tuple(correlations),
         path=path,
-        label=_text(top, "label", required=False),
+        label=top.text("label", required=False),
     )
 
 
@@ -309,8 +285,6 @@ def _load_path(path: str) -> Any:
         raise InputError(f"constraint set file '{path}': 'kind' = {kind!r} is not known; "
                          f"allowed: {', '.join(SET_FILE_KINDS)}")
     if kind == "temperature_low_ell":
-        from .lowell_data import load_low_ell_path
-
         return load_low_ell_path(path, data)
     try:
         return parse_constraint_set(data, path)
@@ -329,8 +303,6 @@ def load_constraint_set(name_or_path: str | Path) -> Any:
     Returns a :class:`ConstraintSet` (pivot summaries) or, for ``kind =
     "temperature_low_ell"``, a :class:`~bouncelike.likelihood.lowell_data.LowEllData`.
     """
-    from .lowell_data import available_low_ell_sets, data_dir, load_shipped_low_ell
-
     text = str(name_or_path)
     shipped = _data_dir() / f"{text}.toml"
     if _NAME_RE.match(text) and shipped.is_file():

@@ -87,6 +87,7 @@ from .base import ForwardModel, evaluate_at
 from .inflation_search import bounce_background, dynamics_for, potential_fraction_for
 from .pivot import pivot_observables
 from .reheating import Reheating, check_choice
+from .variants import family_variants
 
 BACKGROUND_CHOICES = ("log10_potential_fraction", "N_inflation")
 #: fast-model parameters this module supplies itself
@@ -94,6 +95,8 @@ _SUPPLIED = ("ln_1e10_As", "n_s", "r", "log10_k_lqc")
 
 
 class _PhysicalBounce(ForwardModel):
+    """The bounce in physical parameters (module docstring), one subclass per variant."""
+
     prescription = ""
     state = "remote_past"
     #: the potential (its transfer-cache family) and the side of the field at the bounce
@@ -127,13 +130,6 @@ class _PhysicalBounce(ForwardModel):
     def __init__(self) -> None:
         self._fast_model: Any = None
         self._last: tuple[Any, dict[str, float]] | None = None
-
-    def __getstate__(self) -> dict[str, Any]:
-        return {}  # workers rebuild the cached transfer
-
-    def __setstate__(self, state: dict[str, Any]) -> None:
-        self._fast_model = None
-        self._last = None
 
     # -- prior checks ---------------------------------------------------------------------
     def check_prior(self, names: Any) -> None:
@@ -215,34 +211,6 @@ class _PhysicalBounce(ForwardModel):
         return fast_params, derived
 
 
-class PhysicalBounceDressedMetric(_PhysicalBounce):
-    name = "bounce_physical_dressed_metric"
-    title = "Bounce in physical parameters, dressed-metric perturbations"
-    prescription = "dressed_metric"
-
-
-class PhysicalBounceDeformedAlgebra(_PhysicalBounce):
-    name = "bounce_physical_deformed_algebra"
-    title = "Bounce in physical parameters, deformed-algebra perturbations"
-    prescription = "deformed_algebra"
-
-
-class PhysicalBounceNonOscillating(PhysicalBounceDressedMetric):
-    """Non-oscillating vacuum set around the bounce (perturbations/states_window.py)."""
-
-    title = "Bounce in physical parameters, dressed metric, non-oscillating state"
-    name = "bounce_physical_dressed_metric_non_oscillating"
-    state = "non_oscillating"
-
-
-class PhysicalBounceLowEnergy(PhysicalBounceDressedMetric):
-    """State of low energy set around the bounce (perturbations/states_window.py)."""
-
-    title = "Bounce in physical parameters, dressed metric, state of low energy"
-    name = "bounce_physical_dressed_metric_low_energy"
-    state = "low_energy"
-
-
 class _Plateau:
     """The Starobinsky plateau: the field on the steep side at the bounce (phi_B < 0)
     climbing towards the plateau (transfer_backgrounds.py: the only such bounces with 50-170
@@ -255,32 +223,16 @@ class _Plateau:
                   *REHEATING)
 
 
-class PhysicalBounceStarobinsky(_Plateau, PhysicalBounceDressedMetric):
-    """Remote-past state: not set below 0.363 k_LQC on these bounces (a window or a
-    large-scale term reaching there is not evaluable)."""
-
-    name = "bounce_physical_dressed_metric_starobinsky"
-    title = "Bounce in physical parameters, Starobinsky plateau, dressed metric, remote past"
-
-
-class PhysicalBounceStarobinskyNonOscillating(_Plateau, PhysicalBounceNonOscillating):
-    """Non-oscillating vacuum (cached and certified from 0.01 k_LQC on these bounces)."""
-
-    name = "bounce_physical_dressed_metric_non_oscillating_starobinsky"
-    title = ("Bounce in physical parameters, Starobinsky plateau, dressed metric, "
-             "non-oscillating state")
+class _PhysicalBounceStarobinsky(_Plateau, _PhysicalBounce):
+    """The bounce in physical parameters on the Starobinsky plateau. Caches: remote-past state
+    not set below 0.363 k_LQC on these bounces (a window or a large-scale term reaching there
+    is not evaluable); non-oscillating state certified from 0.01 k_LQC, state of low energy
+    from 0.1 k_LQC; deformed algebra cached from 3 k_LQC only."""
 
 
-class PhysicalBounceStarobinskyLowEnergy(_Plateau, PhysicalBounceLowEnergy):
-    """State of low energy (cached and certified from 0.1 k_LQC on these bounces)."""
-
-    name = "bounce_physical_dressed_metric_low_energy_starobinsky"
-    title = ("Bounce in physical parameters, Starobinsky plateau, dressed metric, state of "
-             "low energy")
-
-
-class PhysicalBounceStarobinskyDeformedAlgebra(_Plateau, PhysicalBounceDeformedAlgebra):
-    """Deformed algebra (cached from 3 k_LQC only on these bounces)."""
-
-    name = "bounce_physical_deformed_algebra_starobinsky"
-    title = "Bounce in physical parameters, Starobinsky plateau, deformed algebra"
+#: the registry's physical-parameter bounce models, one per perturbation variant
+PHYSICAL_BOUNCE_MODELS = (
+    *family_variants(_PhysicalBounce, "bounce_physical_{}", "Bounce in physical parameters, {}"),
+    *family_variants(_PhysicalBounceStarobinsky, "bounce_physical_{}_starobinsky",
+                     "Bounce in physical parameters, Starobinsky plateau, {}"),
+)

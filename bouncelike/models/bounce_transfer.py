@@ -22,7 +22,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from typing import Any, ClassVar
+from typing import ClassVar
 
 from ..perturbations.transfer_model import BounceSpectraModel
 from ..quantities import (
@@ -39,6 +39,7 @@ from ..quantities import (
 )
 from ..spectra.tabulated import TabulatedSpectra
 from .base import ForwardModel
+from .variants import family_variants
 
 
 class BounceTransferModel(ForwardModel):
@@ -52,12 +53,6 @@ class BounceTransferModel(ForwardModel):
 
     def __init__(self) -> None:
         self._model: BounceSpectraModel | None = None
-
-    def __getstate__(self) -> dict[str, Any]:
-        return {}  # workers rebuild the cached transfer (read from the shipped table)
-
-    def __setstate__(self, state: dict[str, Any]) -> None:
-        self._model = None
 
     def _fast(self) -> BounceSpectraModel:
         if self._model is None:
@@ -81,29 +76,6 @@ class BounceTransferModel(ForwardModel):
                 "certified": float(bool(d["certified"]))}
 
 
-class BounceDressedMetric(BounceTransferModel):
-    name = "bounce_dressed_metric"
-    title = "Bounce, dressed-metric perturbations (cached transfer)"
-    prescription = "dressed_metric"
-
-
-class BounceDeformedAlgebra(BounceTransferModel):
-    name = "bounce_deformed_algebra"
-    title = "Bounce, deformed-algebra perturbations (cached transfer)"
-    prescription = "deformed_algebra"
-
-
-class BounceDressedMetricNonOscillating(BounceDressedMetric):
-    """Non-oscillating vacuum set around the bounce (perturbations/states_window.py)."""
-
-    name = "bounce_dressed_metric_non_oscillating"
-    title = "Bounce, dressed metric, non-oscillating state (cached transfer)"
-    state = "non_oscillating"
-
-
-class BounceDressedMetricLowEnergy(BounceDressedMetric):
-    """State of low energy set around the bounce (perturbations/states_window.py)."""
-
-    name = "bounce_dressed_metric_low_energy"
-    title = "Bounce, dressed metric, state of low energy (cached transfer)"
-    state = "low_energy"
+#: the registry's cached-transfer bounce models, one per perturbation variant
+BOUNCE_TRANSFER_MODELS = family_variants(BounceTransferModel, "bounce_{}",
+                                         "Bounce (cached transfer), {}")

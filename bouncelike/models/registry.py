@@ -37,22 +37,8 @@ from ..errors import InputError
 from ..spectra.table_file import table_spectra_from_config
 from .base import ForwardModel
 from .bounce import BounceModel
-from .bounce_physical import (
-    PhysicalBounceDeformedAlgebra,
-    PhysicalBounceDressedMetric,
-    PhysicalBounceLowEnergy,
-    PhysicalBounceNonOscillating,
-    PhysicalBounceStarobinsky,
-    PhysicalBounceStarobinskyDeformedAlgebra,
-    PhysicalBounceStarobinskyLowEnergy,
-    PhysicalBounceStarobinskyNonOscillating,
-)
-from .bounce_transfer import (
-    BounceDeformedAlgebra,
-    BounceDressedMetric,
-    BounceDressedMetricLowEnergy,
-    BounceDressedMetricNonOscillating,
-)
+from .bounce_physical import PHYSICAL_BOUNCE_MODELS
+from .bounce_transfer import BOUNCE_TRANSFER_MODELS
 from .powerlaw import PowerLawModel
 from .slowroll import QuadraticSlowRoll, StarobinskySlowRoll
 
@@ -72,11 +58,8 @@ class TableModel(ForwardModel):
 
 #: every forward model by its name
 MODELS: dict[str, type[ForwardModel]] = {cls.name: cls for cls in (
-    PowerLawModel, QuadraticSlowRoll, StarobinskySlowRoll, BounceModel, BounceDressedMetric,
-    BounceDeformedAlgebra, BounceDressedMetricNonOscillating, BounceDressedMetricLowEnergy,
-    PhysicalBounceDressedMetric, PhysicalBounceDeformedAlgebra, PhysicalBounceNonOscillating,
-    PhysicalBounceLowEnergy, PhysicalBounceStarobinsky, PhysicalBounceStarobinskyNonOscillating,
-    PhysicalBounceStarobinskyLowEnergy, PhysicalBounceStarobinskyDeformedAlgebra, TableModel)}
+    PowerLawModel, QuadraticSlowRoll, StarobinskySlowRoll, BounceModel, *BOUNCE_TRANSFER_MODELS,
+    *PHYSICAL_BOUNCE_MODELS, TableModel)}
 
 
 

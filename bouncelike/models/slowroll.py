@@ -100,14 +100,27 @@ class SlowRollModel(ForwardModel):
         raise NotImplementedError
 
     @staticmethod
-    def amplitude(mass: float, n_star: float) -> float:
-        """A_s from the potential's mass at N_*."""
+    def pivot_potential(mass: float, n_star: float) -> float:
+        """V_* (Planck units) when the pivot leaves the Hubble radius, N_* e-folds before the
+        end."""
         raise NotImplementedError
 
-    @staticmethod
-    def mass(n_star: float, a_s: float) -> float:
-        """The potential's mass (m_Pl units) that gives A_s at N_*."""
-        raise NotImplementedError
+    def __init_subclass__(cls, **kwargs: object) -> None:
+        super().__init_subclass__(**kwargs)
+        cls.derived_parameters = (TILT, TENSOR_RATIO, RUNNING, RUNNING_OF_RUNNING,
+                                  cls.mass_parameter)
+
+    @classmethod
+    def amplitude(cls, mass: float, n_star: float) -> float:
+        """A_s = V_*/(24 pi^2 M_Pl^4 epsilon_1) (module docstring)."""
+        return cls.pivot_potential(mass, n_star) / (
+            24.0 * math.pi**2 * _MPL4 * cls.observables(n_star).epsilon1)
+
+    @classmethod
+    def mass(cls, n_star: float, a_s: float) -> float:
+        """The potential's mass (m_Pl units) that gives A_s at N_*: both potentials scale as
+        V proportional to mass^2, so A_s = mass^2 x A_s(mass = 1)."""
+        return math.sqrt(a_s / cls.amplitude(1.0, n_star))
 
     # -- evaluation ----------------------------------------------------------------------
     def _observables(self, p: Mapping[str, float]) -> SlowRollObservables:
@@ -166,7 +179,6 @@ class QuadraticSlowRoll(SlowRollModel):
     potential = "quadratic"
     formula = "V = m^2 phi^2 / 2"
     mass_parameter = QUADRATIC_MASS
-    derived_parameters = (TILT, TENSOR_RATIO, RUNNING, RUNNING_OF_RUNNING, mass_parameter)
 
     @staticmethod
     def observables(n_star: float) -> SlowRollObservables:
@@ -176,17 +188,9 @@ class QuadraticSlowRoll(SlowRollModel):
                                    epsilon1=1.0 / (2.0 * nt))
 
     @staticmethod
-    def amplitude(mass: float, n_star: float) -> float:
-        """A_s = V_*/(24 pi^2 M_Pl^4 eps_1) with V_* = 2 m^2 M_Pl^2 (N_* + 1/2)."""
-        nt = n_star + 0.5
-        v_star = 2.0 * mass**2 * _MPL2 * nt
-        return v_star / (24.0 * math.pi**2 * _MPL4 * QuadraticSlowRoll.observables(
-            n_star).epsilon1)
-
-    @staticmethod
-    def mass(n_star: float, a_s: float) -> float:
-        """m = sqrt(6 pi^2 A_s) M_Pl / (N_* + 1/2), in m_Pl units."""
-        return math.sqrt(6.0 * math.pi**2 * a_s) / (n_star + 0.5) * REDUCED_PLANCK_MASS
+    def pivot_potential(mass: float, n_star: float) -> float:
+        """V_* = 2 m^2 M_Pl^2 (N_* + 1/2); A_s then gives m = sqrt(6 pi^2 A_s) M_Pl / Ntilde."""
+        return 2.0 * mass**2 * _MPL2 * (n_star + 0.5)
 
 
 class StarobinskySlowRoll(SlowRollModel):
@@ -197,7 +201,6 @@ class StarobinskySlowRoll(SlowRollModel):
     potential = "starobinsky"
     formula = "V = (3/4) M^2 M_Pl^2 (1 - exp(-sqrt(2/3) phi / M_Pl))^2"
     mass_parameter = STAROBINSKY_MASS
-    derived_parameters = (TILT, TENSOR_RATIO, RUNNING, RUNNING_OF_RUNNING, mass_parameter)
 
     @staticmethod
     def observables(n_star: float) -> SlowRollObservables:
@@ -207,16 +210,10 @@ class StarobinskySlowRoll(SlowRollModel):
                                    epsilon1=3.0 / (4.0 * n**2))
 
     @staticmethod
-    def amplitude(mass: float, n_star: float) -> float:
-        """A_s = V_0/(24 pi^2 M_Pl^4 eps_1) at leading order, V_0 = (3/4) M^2 M_Pl^2."""
-        v0 = 0.75 * mass**2 * _MPL2
-        return v0 / (24.0 * math.pi**2 * _MPL4 * StarobinskySlowRoll.observables(
-            n_star).epsilon1)
-
-    @staticmethod
-    def mass(n_star: float, a_s: float) -> float:
-        """M = sqrt(24 pi^2 A_s) M_Pl / N_*, in m_Pl units."""
-        return math.sqrt(24.0 * math.pi**2 * a_s) / n_star * REDUCED_PLANCK_MASS
+    def pivot_potential(mass: float, n_star: float) -> float:
+        """V_* = V_0 = (3/4) M^2 M_Pl^2 at leading order; A_s then gives
+        M = sqrt(24 pi^2 A_s) M_Pl / N_*."""
+        return 0.75 * mass**2 * _MPL2
 
 
 #: the slow-roll models by potential name

@@ -86,39 +86,29 @@ def best_fit_goodness(chi2: float, n_terms: int, dimensionality: float,
     fitted = len(constrained)
     if math.isfinite(dimensionality):
         fitted = min(fitted, max(0, int(round(dimensionality))))
+    out: dict[str, Any] = {
+        "chi2": chi2, "bound": bool(bound), "n_terms": n_terms,
+        "sampled_parameters": list(sampled), "constrained_parameters": list(constrained),
+        "model_dimensionality": dimensionality, "fitted_parameters": fitted}
     if low_ell_terms and p_of is not None:
         m = n_terms - low_ell_terms
         g = max(m - fitted, 0)
         p, p_bound = p_of(chi2, g)
         p_one, _ = p_of(chi2, m)
-        verdict, level = verdict_from_p(p)
-        if bound and verdict == "allowed":
-            verdict = "undetermined"
-        return {"chi2": chi2, "bound": bool(bound), "n_terms": n_terms,
-                "sampled_parameters": list(sampled),
-                "constrained_parameters": list(constrained),
-                "model_dimensionality": dimensionality, "fitted_parameters": fitted,
-                "dof": None, "low_ell_terms": int(low_ell_terms), "gaussian_terms_left": g,
-                "p_value": p, "p_value_is_bound": bool(p_bound),
-                "p_value_rule": "best_fit_combined", "p_value_one_configuration": p_one,
-                "verdict": verdict, "excluded_at": level}
-    dof = n_terms - fitted
-    p_one = float(chi2_dist.sf(chi2, n_terms)) if n_terms > 0 else math.nan
-    if dof > 0:
-        p = float(chi2_dist.sf(chi2, dof))
-        rule = "best_fit"
+        out.update({"dof": None, "low_ell_terms": int(low_ell_terms), "gaussian_terms_left": g,
+                    "p_value": p, "p_value_is_bound": bool(p_bound),
+                    "p_value_rule": "best_fit_combined"})
     else:
-        p = p_one
-        rule = "one_configuration"
+        dof = n_terms - fitted
+        p_one = float(chi2_dist.sf(chi2, n_terms)) if n_terms > 0 else math.nan
+        p = float(chi2_dist.sf(chi2, dof)) if dof > 0 else p_one
+        out.update({"dof": dof if dof > 0 else None, "p_value": p,
+                    "p_value_rule": "best_fit" if dof > 0 else "one_configuration"})
     verdict, level = verdict_from_p(p) if math.isfinite(p) else ("undetermined", None)
     if bound and verdict == "allowed":
         verdict = "undetermined"
-    return {"chi2": chi2, "bound": bool(bound), "n_terms": n_terms,
-            "sampled_parameters": list(sampled),
-            "constrained_parameters": list(constrained),
-            "model_dimensionality": dimensionality, "fitted_parameters": fitted,
-            "dof": dof if dof > 0 else None, "p_value": p, "p_value_rule": rule,
-            "p_value_one_configuration": p_one, "verdict": verdict, "excluded_at": level}
+    return {**out, "p_value_one_configuration": p_one, "verdict": verdict,
+            "excluded_at": level}
 
 
 def goodness_text(g: dict[str, Any]) -> str:

@@ -192,15 +192,7 @@ class PowerLawSpectra:
         )
 
     def describe(self) -> dict[str, Any]:
-        return {
-            "model": "power_law",
-            "ln_1e10_As": self.ln_1e10_As,
-            "n_s": self.n_s,
-            "running": self.running,
-            "running_of_running": self.running_of_running,
-            "r": self.r,
-            "n_t": self.tensor_tilt,
-            "n_t_from_consistency": self.n_t is None,
-            "pivot": self.pivot,
-            "label": self.label,
-        }
+        numbers = ("ln_1e10_As", "n_s", "running", "running_of_running", "r")
+        return {"model": "power_law", **{q: getattr(self, q) for q in numbers},
+                "n_t": self.tensor_tilt, "n_t_from_consistency": self.n_t is None,
+                "pivot": self.pivot, "label": self.label}
