@@ -102,7 +102,8 @@ def read_toml(path: str | Path, what: str = "configuration file") -> dict[str, A
     """Parse a TOML file; a missing or malformed file is an :class:`InputError`."""
     p = Path(path)
     if not p.is_file():
-        raise InputError(f"{what} '{p}' does not exist (expected a TOML file)")
+        state = "is a folder" if p.is_dir() else "does not exist"
+        raise InputError(f"{what} '{p}' {state} (expected a TOML file)")
     try:
         with p.open("rb") as fh:
             return tomllib.load(fh)
