@@ -25,10 +25,10 @@ from __future__ import annotations
 
 import json
 import math
-import tomllib
 from dataclasses import dataclass, replace
 
 import pytest
+import tomllib
 from cli_helpers import listing, one_line_error
 
 from bouncelike.cli import main
@@ -541,3 +541,332 @@ def test_configuration_keys_refuse_hostile_values(key, value, typo, tmp_path, mo
         text = edited(key.base, key.path, value, drop=key.drop)
         needle = f"'{key.path}'"
     run_refused(tmp_path, monkeypatch, capsys, key.command, text, needle)
+
+
+# -- data files: a user's constraint set, a user's low-ell table, a spectra table ------------
+
+USER_SET = """
+name = "mine"
+title = "my set"
+citation = "me"
+arxiv = "0000.00000"
+table = "Table 1"
+data_combination = "made up for a test"
+pivot = 0.05
+forecast = false
+overlap = ["test"]
+upper_limit_treatment = "half-Gaussian, sigma = limit / 1.959964"
+
+[[term]]
+quantity = "n_s"
+kind = "gaussian"
+mean = 0.96
+sigma = 0.01
+
+[[term]]
+quantity = "ln_1e10_As"
+kind = "gaussian"
+mean = 3.04
+sigma = 0.02
+
+[[term]]
+quantity = "r"
+kind = "upper_limit"
+limit = 0.05
+confidence = 0.95
+
+[[correlation]]
+quantities = ["n_s", "ln_1e10_As"]
+rho = 0.1
+"""
+
+_N_S = 'quantity = "n_s"\nkind = "gaussian"\nmean = 0.96\nsigma = 0.01'
+_R = 'quantity = "r"\nkind = "upper_limit"\nlimit = 0.05\nconfidence = 0.95'
+_CORR = 'quantities = ["n_s", "ln_1e10_As"]\nrho = 0.1'
+
+
+def _set(old: str, new: str) -> str:
+    assert old in USER_SET, old
+    return USER_SET.replace(old, new, 1)
+
+
+# (file text or bytes, piece the one-line message must contain); not among the set-file
+# cases of test_constraint_sets.py (missing or negative sigma, unknown kind or quantity, ...)
+USER_SET_CASES = {
+    "sigma NaN": (_set("sigma = 0.01", "sigma = nan"), "term[0].sigma"),
+    "sigma +inf": (_set("sigma = 0.01", "sigma = inf"), "term[0].sigma"),
+    "sigma a string": (_set("sigma = 0.01", 'sigma = "0.01"'), "term[0].sigma"),
+    "sigma above 1e3": (_set("sigma = 0.01", "sigma = 1e4"), "term[0].sigma"),
+    "sigma zero": (_set("sigma = 0.01", "sigma = 0.0"), "term[0].sigma"),
+    "mean NaN": (_set("mean = 0.96", "mean = nan"), "term[0].mean"),
+    "mean -inf": (_set("mean = 0.96", "mean = -inf"), "term[0].mean"),
+    "mean outside the declared n_s range": (_set("mean = 0.96", "mean = 5.0"), "term[0].mean"),
+    "mean a boolean": (_set("mean = 0.96", "mean = true"), "term[0].mean"),
+    "mean missing": (_set("mean = 0.96\n", ""), "term[0].mean"),
+    "quantity missing": (_set('quantity = "n_s"\n', ""), "term[0].quantity"),
+    "kind missing": (_set('kind = "gaussian"\n', ""), "term[0].kind"),
+    "quantity twice": (_set('quantity = "ln_1e10_As"\nkind = "gaussian"\nmean = 3.04',
+                            'quantity = "n_s"\nkind = "gaussian"\nmean = 0.97'),
+                       "appears twice"),
+    "unknown key in a term": (_set("sigma = 0.01", "sigma = 0.01\nweight = 2.0"),
+                              "term[0].weight"),
+    "limit negative": (_set("limit = 0.05", "limit = -0.05"), "term[2].limit"),
+    "limit zero": (_set("limit = 0.05", "limit = 0.0"), "term[2].limit"),
+    "limit above r's range": (_set("limit = 0.05", "limit = 50.0"), "term[2].limit"),
+    "limit NaN": (_set("limit = 0.05", "limit = nan"), "term[2].limit"),
+    "confidence zero": (_set("confidence = 0.95", "confidence = 0.0"), "term[2].confidence"),
+    "confidence NaN": (_set("confidence = 0.95", "confidence = nan"), "term[2].confidence"),
+    "confidence missing": (_set("confidence = 0.95\n", ""), "term[2].confidence"),
+    "sigma on an upper limit": (_set("confidence = 0.95", "confidence = 0.95\nsigma = 0.01"),
+                                "term[2].sigma"),
+    "upper limit on n_s": (_set(_N_S, 'quantity = "n_s"\nkind = "upper_limit"\nlimit = 0.05\n'
+                                'confidence = 0.95'), "term[0].kind"),
+    "no term": (USER_SET[:USER_SET.index("[[term]]")], "[[term]]"),
+    "term not a list": (USER_SET[:USER_SET.index("[[term]]")] + "term = 1\n", "'term'"),
+    "term entry not a table": (USER_SET[:USER_SET.index("[[term]]")] + "term = [1]\n",
+                               "term[0]"),
+    "correlation of 1": (_set("rho = 0.1", "rho = 1.0"), "correlation[0].rho"),
+    "correlation NaN": (_set("rho = 0.1", "rho = nan"), "correlation[0].rho"),
+    "correlation missing rho": (_set("rho = 0.1", ""), "correlation[0].rho"),
+    "correlation of a quantity with itself": (
+        _set('quantities = ["n_s", "ln_1e10_As"]', 'quantities = ["n_s", "n_s"]'),
+        "correlation[0].quantities"),
+    "correlation with the upper-limit term": (
+        _set('quantities = ["n_s", "ln_1e10_As"]', 'quantities = ["n_s", "r"]'),
+        "correlation[0].quantities"),
+    "correlation of one quantity": (
+        _set('quantities = ["n_s", "ln_1e10_As"]', 'quantities = ["n_s"]'),
+        "correlation[0].quantities"),
+    "correlation with an unknown key": (_set("rho = 0.1", "rho = 0.1\nsign = 1"),
+                                        "correlation[0].sign"),
+    "correlation not a list": (USER_SET[:USER_SET.index("[[correlation]]")]
+                               .replace("pivot = 0.05", "pivot = 0.05\ncorrelation = 1"),
+                               "'correlation'"),
+    "overlap empty": (_set('overlap = ["test"]', "overlap = []"), "'overlap'"),
+    "overlap tag with a space": (_set('overlap = ["test"]', 'overlap = ["my data"]'),
+                                 "'overlap'"),
+    "overlap missing": (_set('overlap = ["test"]\n', ""), "'overlap'"),
+    "name with a space": (_set('name = "mine"', 'name = "my set"'), "'name'"),
+    "name empty": (_set('name = "mine"', 'name = ""'), "'name'"),
+    "name missing": (_set('name = "mine"\n', ""), "'name'"),
+    "title only spaces": (_set('title = "my set"', 'title = "   "'), "'title'"),
+    "pivot zero": (_set("pivot = 0.05", "pivot = 0.0"), "pivot"),
+    "pivot above 1 Mpc^-1": (_set("pivot = 0.05", "pivot = 100.0"), "pivot"),
+    "pivot NaN": (_set("pivot = 0.05", "pivot = nan"), "pivot"),
+    "pivot missing": (_set("pivot = 0.05\n", ""), "pivot"),
+    "forecast a string": (_set("forecast = false", 'forecast = "no"'), "'forecast'"),
+    "forecast missing": (_set("forecast = false\n", ""), "'forecast'"),
+    "unknown kind of set file": (_set('name = "mine"', 'name = "mine"\nkind = "galaxies"'),
+                                 "'kind'"),
+    "empty file": ("", "'name'"),
+    "not UTF-8": (b"name = \"\xff\xfe\"\n", "not UTF-8"),
+}
+
+
+LOW_ELL = """
+name = "my_low_ell"
+kind = "temperature_low_ell"
+title = "t"
+citation = "c"
+arxiv = "0"
+table = "t"
+data_combination = "d"
+forecast = false
+overlap = ["mine"]
+units = "micro-K^2"
+interval = "highest_density"
+interval_probability = 0.6827
+approximation = "a"
+overlap_treatment = "o"
+columns = ["ell", "D_measured", "minus_68", "plus_68", "D_reference"]
+rows = [
+  [2, 225.895, 132.369, 533.062, 1016.73],
+  [3, 936.920, 450.471, 1212.308, 963.727],
+  [4, 692.238, 294.111, 666.469, 912.608],
+]
+
+[reference]
+citation = "c"
+arxiv = "1"
+table = "t"
+ln_1e10_As = 3.044
+n_s = 0.9649
+r = 0.0
+pivot = 0.05
+"""
+
+_ROW2 = "[2, 225.895, 132.369, 533.062, 1016.73]"
+
+
+def _low(old: str, new: str) -> str:
+    assert old in LOW_ELL, old
+    return LOW_ELL.replace(old, new, 1)
+
+
+# beyond the cases of test_lowell_likelihood.py (ell outside 2-29, not increasing, a missing
+# column, a short row, a negative interval, an unknown key, no reference)
+LOW_ELL_CASES = {
+    "ell not an integer": (_low(_ROW2, "[2.5, 225.895, 132.369, 533.062, 1016.73]"),
+                           "must be an integer"),
+    "ell a string": (_low(_ROW2, '["2", 225.895, 132.369, 533.062, 1016.73]'), "rows[0]"),
+    "D_measured NaN": (_low(_ROW2, "[2, nan, 132.369, 533.062, 1016.73]"), "rows[0]"),
+    "plus_68 +inf": (_low(_ROW2, "[2, 225.895, 132.369, inf, 1016.73]"), "rows[0]"),
+    "D_measured negative": (_low(_ROW2, "[2, -225.895, 132.369, 533.062, 1016.73]"),
+                            "rows[0]"),
+    "D_reference zero": (_low(_ROW2, "[2, 225.895, 132.369, 533.062, 0.0]"), "rows[0]"),
+    "plus_68 negative": (_low(_ROW2, "[2, 225.895, 132.369, -533.062, 1016.73]"), "rows[0]"),
+    "minus_68 zero": (_low(_ROW2, "[2, 225.895, 0.0, 533.062, 1016.73]"), "rows[0]"),
+    "a row too long": (_low(_ROW2, "[2, 225.895, 132.369, 533.062, 1016.73, 1.0]"),
+                       "rows[0]"),
+    "a row as a table": (_low(_ROW2 + ",", "{ ell = 2 },"), "rows[0]"),
+    "rows empty": (LOW_ELL[:LOW_ELL.index("rows = [")] + "rows = []\n"
+                   + LOW_ELL[LOW_ELL.index("[reference]"):], "'rows'"),
+    "rows missing": (LOW_ELL[:LOW_ELL.index("rows = [")]
+                     + LOW_ELL[LOW_ELL.index("[reference]"):], "'rows'"),
+    "ell decreasing": (_low("[4, 692.238", "[1, 692.238").replace("[1, 692.238", "[4, 692.238")
+                       .replace("[3, 936.920", "[5, 936.920"), "increasing order"),
+    "columns reordered": (_low('["ell", "D_measured"', '["D_measured", "ell"'), "'columns'"),
+    "interval probability 1": (_low("interval_probability = 0.6827",
+                                    "interval_probability = 1.0"), "interval_probability"),
+    "interval probability NaN": (_low("interval_probability = 0.6827",
+                                      "interval_probability = nan"), "interval_probability"),
+    "interval of another kind": (_low('interval = "highest_density"',
+                                      'interval = "equal_tailed"'), "'interval'"),
+    "reference without ln_1e10_As": (_low("ln_1e10_As = 3.044\n", ""), "ln_1e10_As"),
+    "reference r negative": (_low("r = 0.0", "r = -0.1"), "reference.r"),
+    "reference pivot zero": (_low("pivot = 0.05", "pivot = 0.0"), "reference.pivot"),
+    "reference unknown key": (_low("pivot = 0.05", "pivot = 0.05\nh = 0.7"), "reference.h"),
+    "reference citation empty": (_low('[reference]\ncitation = "c"', '[reference]\ncitation = ""'),
+                                 "citation"),
+    "overlap empty": (_low('overlap = ["mine"]', "overlap = []"), "'overlap'"),
+    "units missing": (_low('units = "micro-K^2"\n', ""), "'units'"),
+    "forecast missing": (_low("forecast = false\n", ""), "'forecast'"),
+    "name with a dash": (_low('name = "my_low_ell"', 'name = "my-low-ell"'), "'name'"),
+}
+
+
+def _file_refused(tmp_path, monkeypatch, capsys, name, content, needle, config):
+    path = tmp_path / name
+    if isinstance(content, bytes):
+        path.write_bytes(content)
+    else:
+        path.write_text(content)
+    line = run_refused(tmp_path, monkeypatch, capsys, SCORE, config, needle)
+    assert name in line, line
+
+
+@pytest.mark.parametrize("case", sorted(USER_SET_CASES))
+def test_user_constraint_set_files_refuse_damage(case, tmp_path, monkeypatch, capsys):
+    content, needle = USER_SET_CASES[case]
+    _file_refused(tmp_path, monkeypatch, capsys, "mine.toml", content, needle,
+                  POWER_LAW.replace('sets = ["planck2018_base", "bk18"]', 'files = ["mine.toml"]'))
+
+
+@pytest.mark.parametrize("case", sorted(LOW_ELL_CASES))
+def test_user_low_ell_files_refuse_damage(case, tmp_path, monkeypatch, capsys):
+    content, needle = LOW_ELL_CASES[case]
+    _file_refused(tmp_path, monkeypatch, capsys, "low.toml", content, needle,
+                  POWER_LAW.replace('sets = ["planck2018_base", "bk18"]',
+                                    'sets = ["planck2018_base"]\nfiles = ["low.toml"]'))
+
+
+SPECTRA = """# k [Mpc^-1], P_s, P_t
+k,P_s,P_t
+1e-5,2.1e-9,2.1e-11
+1e-3,2.1e-9,2.1e-11
+1e-1,2.1e-9,2.1e-11
+10.0,2.1e-9,2.1e-11
+"""
+
+
+def _csv(old: str, new: str) -> str:
+    assert old in SPECTRA, old
+    return SPECTRA.replace(old, new, 1)
+
+
+# (file text or bytes, piece the message must contain)
+SPECTRA_CASES = {
+    "k decreasing": (_csv("1e-3,", "1e-6,"), "'k' must be strictly increasing"),
+    "k repeated": (_csv("1e-3,", "1e-5,"), "'k' must be strictly increasing"),
+    "k negative": (_csv("1e-5,", "-1e-5,"), "'k'"),
+    "k zero": (_csv("1e-5,", "0.0,"), "'k'"),
+    "P_s negative": (_csv("1e-3,2.1e-9", "1e-3,-2.1e-9"), "scalar"),
+    "P_s zero": (_csv("1e-3,2.1e-9", "1e-3,0.0"), "scalar"),
+    "P_t negative": (_csv("1e-3,2.1e-9,2.1e-11", "1e-3,2.1e-9,-2.1e-11"), "tensor"),
+    "P_t zero in one row only": (_csv("1e-3,2.1e-9,2.1e-11", "1e-3,2.1e-9,0.0"), "tensor"),
+    "one row": ("k,P_s,P_t\n1e-3,2.1e-9,2.1e-11\n", "at least 2 rows"),
+    "header only": ("k,P_s,P_t\n", "at least 2 rows"),
+    "NaN cell": (_csv("1e-3,2.1e-9", "1e-3,nan"), "line 4: 'P_s' must be finite"),
+    "inf cell": (_csv("1e-3,2.1e-9,2.1e-11", "1e-3,2.1e-9,inf"), "line 4: 'P_t' must be"),
+    "empty cell": (_csv("1e-3,2.1e-9", "1e-3,"), "line 4: 'P_s'"),
+    "text cell": (_csv("1e-3,", "one,"), "line 4: 'k' = 'one' is not a number"),
+    "missing column": (SPECTRA.replace(",P_t", "").replace(",2.1e-11", ""), "header"),
+    "extra column": (SPECTRA.replace("P_s,P_t", "P_s,P_t,P_x"), "header"),
+    "column twice": (SPECTRA.replace("k,P_s,P_t", "k,P_s,P_t,P_s")
+                     .replace("2.1e-11\n", "2.1e-11,2.1e-9\n"), "header"),
+    "columns misspelt": (SPECTRA.replace("P_s", "Ps"), "header"),
+    "short row": (_csv("1e-3,2.1e-9,2.1e-11", "1e-3,2.1e-9"), "line 4: expected 3 values"),
+    "long row": (_csv("1e-3,2.1e-9,2.1e-11", "1e-3,2.1e-9,2.1e-11,1"), "line 4: expected 3"),
+    "empty file": ("", "is empty"),
+    "comments only": ("# nothing here\n# still nothing\n", "is empty"),
+    "not UTF-8": (b"k,P_s,P_t\n\xff\xfe,1,1\n", "not UTF-8"),
+    "semicolon separated": (SPECTRA.replace(",", ";"), "header"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(SPECTRA_CASES))
+def test_spectra_table_files_refuse_damage(case, tmp_path, monkeypatch, capsys):
+    content, needle = SPECTRA_CASES[case]
+    _file_refused(tmp_path, monkeypatch, capsys, "spectra.csv", content, needle, TABLE)
+
+
+# the files a configuration names, absent or of the wrong kind
+NAMED_FILE_CASES = {
+    "spectra table absent": (TABLE.replace("spectra.csv", "absent.csv"), "absent.csv"),
+    "spectra table is a folder": (TABLE.replace("spectra.csv", "folder"), "is a folder"),
+    "spectra table file not a string": (TABLE.replace('"spectra.csv"', "3"), "'table.file'"),
+    "no [table] section": (TABLE[:TABLE.index("[table]")], "[table]"),
+    "unknown key in [table]": (TABLE + 'format = "csv"\n', "'table.format'"),
+    "user set file absent": (POWER_LAW.replace('sets = ["planck2018_base", "bk18"]',
+                                               'files = ["absent.toml"]'), "absent.toml"),
+    "user set file is a folder": (POWER_LAW.replace('sets = ["planck2018_base", "bk18"]',
+                                                    'files = ["folder"]'), "'folder' is a folder"),
+    "unknown shipped set": (POWER_LAW.replace('"bk18"', '"bk99"'), "bk99"),
+    "shipped set named twice": (POWER_LAW.replace('"bk18"', '"planck2018_base"'),
+                                "planck2018_base"),
+    "no [model] section": (POWER_LAW[POWER_LAW.index("[power_law]"):], "[model]"),
+    "unknown model": (POWER_LAW.replace('"power_law"', '"power_law2"'), "model.spectra"),
+    "model section missing": (POWER_LAW[:POWER_LAW.index("[power_law]")]
+                              + POWER_LAW[POWER_LAW.index("[likelihood]"):], "[power_law]"),
+    "model name not a string": (POWER_LAW.replace('"power_law"\n', "1\n", 1), "model.spectra"),
+    "unknown top-level section": (POWER_LAW + "[plots]\ncolour = 1\n", "plots"),
+    "retired section [run]": (POWER_LAW + "[run]\nname = 'x'\n", "[run]"),
+    "section given as a value": ("likelihood = 3\n" + POWER_LAW[:POWER_LAW.index("[likelihood]")],
+                                 "likelihood: must be a table"),
+    "configuration not TOML": (POWER_LAW + "[model\n", "not valid TOML"),
+    "n_t an unknown word": (POWER_LAW.replace('n_t = "consistency"', 'n_t = "consistent"'),
+                            "'power_law.n_t'"),
+    "both amplitudes": (POWER_LAW.replace("ln_1e10_As = 3.044", "ln_1e10_As = 3.044\n"
+                                          "A_s = 2.1e-9"), "A_s"),
+    "no amplitude": (POWER_LAW.replace("ln_1e10_As = 3.044\n", ""), "ln_1e10_As"),
+    "slow roll with two amplitudes": (SLOW_ROLL_MASS.replace("mass = 1.16e-6", "mass = 1.16e-6"
+                                                             "\nln_1e10_As = 3.0"), "mass"),
+    "physical bounce without a background choice": (
+        PHYSICAL.replace("log10_potential_fraction = -11.6\n", ""),
+        "'bounce_physical.N_inflation'; got neither"),
+    "physical bounce with two background choices": (
+        PHYSICAL.replace("mass = 1.2e-6", "mass = 1.2e-6\nN_inflation = 70.0"),
+        "'bounce_physical.N_inflation'; got log10_potential_fraction, N_inflation"),
+    "physical bounce without [reheating]": (PHYSICAL[:PHYSICAL.index("[reheating]")],
+                                            "[reheating]"),
+    "reheating history half given": (PHYSICAL.replace("N_star = 55.0",
+                                                      "equation_of_state = 0.0"),
+                                     "log10_reheating_density"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(NAMED_FILE_CASES))
+def test_score_configurations_refuse_structure_damage(case, tmp_path, monkeypatch, capsys):
+    text, needle = NAMED_FILE_CASES[case]
+    (tmp_path / "folder").mkdir()
+    run_refused(tmp_path, monkeypatch, capsys, SCORE, text, needle)
