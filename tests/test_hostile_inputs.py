@@ -870,3 +870,179 @@ def test_score_configurations_refuse_structure_damage(case, tmp_path, monkeypatc
     text, needle = NAMED_FILE_CASES[case]
     (tmp_path / "folder").mkdir()
     run_refused(tmp_path, monkeypatch, capsys, SCORE, text, needle)
+
+
+# -- prior files -----------------------------------------------------------------------------
+
+PRIOR = """
+[prior]
+model = "power_law"
+title = "test prior"
+[parameters.ln_1e10_As]
+role = "sampled"
+distribution = "uniform"
+min = 2.8
+max = 3.3
+[parameters.n_s]
+role = "sampled"
+distribution = "gaussian"
+mean = 0.965
+sigma = 0.01
+min = 0.9
+max = 1.05
+[parameters.r]
+role = "fixed"
+value = 0.0
+[parameters.running]
+role = "fixed"
+value = 0.0
+[parameters.running_of_running]
+role = "fixed"
+value = 0.0
+[parameters.A_s]
+role = "derived"
+"""
+
+PRIOR_RUN = """
+[likelihood]
+sets = ["planck2018_base"]
+[sampling]
+prior = "prior.toml"
+walkers = 8
+max_steps = 50
+"""
+
+_AS = 'role = "sampled"\ndistribution = "uniform"\nmin = 2.8\nmax = 3.3'
+_NS_SIGMA = "sigma = 0.01"
+_R_FIXED = '[parameters.r]\nrole = "fixed"\nvalue = 0.0'
+
+PHASE_PRIOR = """
+[prior]
+model = "bounce_physical_dressed_metric"
+[parameters.mass]
+role = "fixed"
+value = 1.21e-6
+[parameters.critical_density]
+role = "fixed"
+value = 0.40937
+[parameters.N_star]
+role = "fixed"
+value = 55.0
+[parameters.N_inflation]
+role = "sampled"
+distribution = "efolds_from_phase"
+min = 60.0
+max = 250.0
+[parameters.N_inflation.phase]
+potential = "quadratic"
+mass = 1.21e-6
+n_samples = 60
+seed = 1
+"""
+
+
+def _prior(old: str, new: str, text: str = PRIOR) -> str:
+    assert old in text, old
+    return text.replace(old, new, 1)
+
+
+def _phase(old: str, new: str) -> str:
+    return _prior(old, new, PHASE_PRIOR)
+
+
+# (prior file text or bytes, piece the message must contain); beyond the prior cases of
+# test_sampling_cli.py and test_bad_input.py (min above max, unknown distribution or role,
+# log-uniform through zero, a parameter the model lacks or misses, gaussian without sigma,
+# walkers' centre outside, old key names, bounds outside the declared range ...)
+PRIOR_CASES = {
+    "min equal to max": (_prior("max = 3.3", "max = 2.8"), "parameters.ln_1e10_As.max"),
+    "min NaN": (_prior("min = 2.8", "min = nan"), "parameters.ln_1e10_As.min"),
+    "max +inf": (_prior("max = 3.3", "max = inf"), "parameters.ln_1e10_As.max"),
+    "min a string": (_prior("min = 2.8", 'min = "2.8"'), "parameters.ln_1e10_As.min"),
+    "max missing": (_prior("max = 3.3\n", ""), "parameters.ln_1e10_As.max"),
+    "min missing": (_prior("min = 2.8\n", ""), "parameters.ln_1e10_As.min"),
+    "n_s min below its declared range": (_prior("min = 0.9", "min = -1.0"),
+                                         "parameters.n_s.min"),
+    "gaussian sigma zero": (_prior(_NS_SIGMA, "sigma = 0.0"), "parameters.n_s.sigma"),
+    "gaussian sigma negative": (_prior(_NS_SIGMA, "sigma = -0.01"), "parameters.n_s.sigma"),
+    "gaussian sigma NaN": (_prior(_NS_SIGMA, "sigma = nan"), "parameters.n_s.sigma"),
+    "gaussian mean missing": (_prior("mean = 0.965\n", ""), "parameters.n_s.mean"),
+    "gaussian mean a string": (_prior("mean = 0.965", 'mean = "high"'), "parameters.n_s.mean"),
+    "mean on a uniform prior": (_prior("max = 3.3", "max = 3.3\nmean = 3.0"),
+                                "parameters.ln_1e10_As.mean"),
+    "walkers' spread zero": (_prior("max = 3.3", "max = 3.3\nwalkers_spread = 0.0"),
+                             "parameters.ln_1e10_As.walkers_spread"),
+    "walkers' spread negative": (_prior("max = 3.3", "max = 3.3\nwalkers_spread = -0.1"),
+                                 "parameters.ln_1e10_As.walkers_spread"),
+    "nested value outside [min, max]": (_prior("max = 3.3", "max = 3.3\nnested_value = 9.0"),
+                                        "parameters.ln_1e10_As.nested_value"),
+    "fixed without a value": (_prior(_R_FIXED, '[parameters.r]\nrole = "fixed"'),
+                              "parameters.r.value"),
+    "fixed value a string": (_prior(_R_FIXED, '[parameters.r]\nrole = "fixed"\nvalue = "0"'),
+                             "parameters.r.value"),
+    "fixed value NaN": (_prior(_R_FIXED, '[parameters.r]\nrole = "fixed"\nvalue = nan'),
+                        "parameters.r.value"),
+    "fixed value outside the declared range": (
+        _prior(_R_FIXED, '[parameters.r]\nrole = "fixed"\nvalue = -0.1'), "parameters.r.value"),
+    "fixed with a distribution": (_prior(_R_FIXED, _R_FIXED + '\ndistribution = "uniform"'),
+                                  "parameters.r.distribution"),
+    "derived with bounds": (_prior('[parameters.A_s]\nrole = "derived"',
+                                   '[parameters.A_s]\nrole = "derived"\nmin = 0.0'),
+                            "parameters.A_s.min"),
+    "role missing": (_prior('role = "sampled"\ndistribution = "uniform"',
+                            'distribution = "uniform"'), "parameters.ln_1e10_As.role"),
+    "label not a string": (_prior("max = 3.3", "max = 3.3\nlabel = 1"),
+                           "parameters.ln_1e10_As.label"),
+    "unknown key in a parameter": (_prior("max = 3.3", "max = 3.3\nstep = 0.1"),
+                                   "parameters.ln_1e10_As.step"),
+    "phase table on a uniform prior": (_prior("max = 3.3", "max = 3.3\nphase = { seed = 1 }"),
+                                       "parameters.ln_1e10_As.phase"),
+    "nothing sampled": (_prior(_AS, 'role = "fixed"\nvalue = 3.0').replace(
+        'role = "sampled"\ndistribution = "gaussian"\nmean = 0.965\nsigma = 0.01\nmin = 0.9\n'
+        'max = 1.05', 'role = "fixed"\nvalue = 0.965'), "no parameter has role = 'sampled'"),
+    "parameter given as a value": (_prior(_R_FIXED, "[parameters]\nr = 0.0"), "parameters.r"),
+    "no [parameters]": (PRIOR[:PRIOR.index("[parameters.ln_1e10_As]")], "[parameters]"),
+    "no [prior]": (PRIOR[PRIOR.index("[parameters.ln_1e10_As]"):], "[prior]"),
+    "model missing": (_prior('model = "power_law"\n', ""), "prior.model"),
+    "model unknown": (_prior('model = "power_law"', 'model = "power_law_2"'), "prior.model"),
+    "model that cannot be sampled": (_prior('model = "power_law"', 'model = "bounce"'),
+                                     "too slow to sample"),
+    "title not a string": (_prior('title = "test prior"', "title = 3"), "prior.title"),
+    "unknown key in [prior]": (_prior('title = "test prior"', 'title = "t"\nauthor = "me"'),
+                               "prior.author"),
+    "unknown top-level table": (PRIOR + "[walkers]\nn = 3\n", "walkers"),
+    "empty file": ("", "[prior]"),
+    "not UTF-8": (b"[prior]\nmodel = \"\xff\"\n", "not UTF-8"),
+    "phase: n_samples below 10": (_phase("n_samples = 60", "n_samples = 5"),
+                                  "parameters.N_inflation.phase.n_samples"),
+    "phase: seed negative": (_phase("seed = 1", "seed = -1"),
+                             "parameters.N_inflation.phase.seed"),
+    "phase: mass negative": (_phase("mass = 1.21e-6", "mass = -1.0"),
+                             "parameters.N_inflation.phase.mass"),
+    "phase: mass above its range": (_phase("mass = 1.21e-6", "mass = 1.0"),
+                                    "parameters.N_inflation.phase.mass"),
+    "phase: unknown potential": (_phase('potential = "quadratic"', 'potential = "cubic"'),
+                                 "parameters.N_inflation.phase.potential"),
+    "phase: unknown dynamics": (_phase("seed = 1", 'seed = 1\ndynamics = "string_gas"'),
+                                "parameters.N_inflation.phase.dynamics"),
+    "phase: critical density above its range": (
+        _phase("seed = 1", "seed = 1\ncritical_density = 1e9"),
+        "parameters.N_inflation.phase.critical_density"),
+    "phase: start density above rho_c": (_phase("seed = 1", "seed = 1\nstart_density = 0.5"),
+                                         "parameters.N_inflation.phase.start_density"),
+    "phase: unknown key": (_phase("seed = 1", "seed = 1\nbins = 3"),
+                           "parameters.N_inflation.phase.bins"),
+    "phase table missing": (PHASE_PRIOR[:PHASE_PRIOR.index("[parameters.N_inflation.phase]")],
+                            "parameters.N_inflation.phase"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(PRIOR_CASES))
+def test_prior_files_refuse_damage(case, tmp_path, monkeypatch, capsys):
+    content, needle = PRIOR_CASES[case]
+    path = tmp_path / "prior.toml"
+    if isinstance(content, bytes):
+        path.write_bytes(content)
+    else:
+        path.write_text(content)
+    run_refused(tmp_path, monkeypatch, capsys, SAMPLE_CMD, PRIOR_RUN, needle)
