@@ -1046,3 +1046,158 @@ def test_prior_files_refuse_damage(case, tmp_path, monkeypatch, capsys):
     else:
         path.write_text(content)
     run_refused(tmp_path, monkeypatch, capsys, SAMPLE_CMD, PRIOR_RUN, needle)
+
+
+# -- damaged run folders: 'report' and 'sample --resume' -------------------------------------
+
+RUN = """
+[likelihood]
+sets = ["planck2018_base"]
+[sampling]
+prior = "power_law"
+walkers = 8
+max_steps = 60
+min_steps = 60
+checkpoint_every = 30
+seed = 3
+progress = false
+prior_survey_draws = 20
+[report]
+grid = 4
+prior_draws = 20
+rescore_samples = 5
+band_samples = 10
+evidence_draws = 100
+"""
+
+
+@pytest.fixture(scope="module")
+def finished_run(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("finished")
+    (tmp / "run.toml").write_text(RUN)
+    assert main(["sample", str(tmp / "run.toml"), "--output", str(tmp / "run"), "--quiet"]) == 0
+    return tmp / "run"
+
+
+def _manifest(edit):
+    def damage(folder):
+        m = json.loads((folder / "manifest.json").read_text())
+        edit(m)
+        (folder / "manifest.json").write_text(json.dumps(m))
+    return damage
+
+
+def _write(name, content):
+    def damage(folder):
+        path = folder / name
+        if content is None:
+            path.unlink()
+        elif isinstance(content, bytes):
+            path.write_bytes(content)
+        else:
+            path.write_text(content)
+    return damage
+
+
+def _both(*damages):
+    def damage(folder):
+        for d in damages:
+            d(folder)
+    return damage
+
+
+def _cell(name, column, value):
+    def damage(folder):
+        lines = (folder / name).read_text().splitlines()
+        i = lines[0].split(",").index(column)
+        row = lines[1].split(",")
+        row[i] = value
+        lines[1] = ",".join(row)
+        (folder / name).write_text("\n".join(lines) + "\n")
+    return damage
+
+
+def _set_config(section, key, value):
+    return _manifest(lambda m: m["config"].setdefault(section, {}).__setitem__(key, value))
+
+
+# (damage, piece the message must contain); beyond test_run_folders.py (a manifest without
+# 'config' or holding a list, chain.csv of random bytes, samples.csv with its header only,
+# chain.csv without log_posterior)
+REPORT_DAMAGE = {
+    "manifest missing": (_write("manifest.json", None), "manifest.json"),
+    "manifest empty": (_write("manifest.json", ""), "manifest.json"),
+    "manifest not JSON": (_write("manifest.json", "{\"format\": "), "manifest.json"),
+    "manifest not UTF-8": (_write("manifest.json", b"{\"a\": \"\xff\"}"), "manifest.json"),
+    "manifest config a number": (_manifest(lambda m: m.__setitem__("config", 3)), "config"),
+    "manifest prior text not TOML": (
+        _manifest(lambda m: m.__setitem__("prior_file_text", "[prior\n")), "prior"),
+    "manifest model unknown": (_manifest(lambda m: m.__setitem__("model", "power_law_2")),
+                               "power_law_2"),
+    "manifest stored report grid 1": (_set_config("report", "grid", 1), "report.grid"),
+    "manifest stored report key unknown": (_set_config("report", "colour", 1),
+                                           "report.colour"),
+    "samples and chain missing": (_both(_write("samples.csv", None),
+                                        _write("chain.csv", None)), "chain.csv"),
+    "samples empty file": (_write("samples.csv", ""), "samples.csv"),
+    "samples with a text cell": (_cell("samples.csv", "n_s", "high"), "samples.csv"),
+    "samples with a NaN parameter": (_cell("samples.csv", "n_s", "nan"), "column(s) n_s"),
+    "samples with an empty cell": (_cell("samples.csv", "r", ""), "column(s) r"),
+    "samples with an infinite parameter": (_cell("samples.csv", "ln_1e10_As", "inf"),
+                                           "column(s) ln_1e10_As"),
+    "samples without a sampled column": (
+        lambda f: (f / "samples.csv").write_text("\n".join(
+            ",".join(c for i, c in enumerate(line.split(",")) if i != 3)
+            for line in (f / "samples.csv").read_text().splitlines()) + "\n"), "n_s"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(REPORT_DAMAGE))
+def test_report_refuses_a_damaged_run_folder(case, finished_run, tmp_path, monkeypatch,
+                                             capsys):
+    import shutil
+
+    folder = tmp_path / "run"
+    shutil.copytree(finished_run, folder)
+    damage, needle = REPORT_DAMAGE[case]
+    damage(folder)
+    monkeypatch.chdir(tmp_path)
+    before = listing(tmp_path)
+    got = main(["report", str(folder), "--quiet"])
+    line = one_line_error(capsys.readouterr().err, needle)
+    assert got == 2, line
+    assert listing(tmp_path) == before
+
+
+RESUME_DAMAGE = {
+    "checkpoint missing": (_write("state.npz", None), "no readable checkpoint"),
+    "checkpoint of random bytes": (_write("state.npz", bytes(range(256)) * 8), "state.npz"),
+    "checkpoint a folder": (lambda f: (f / "state.npz").unlink() or (f / "state.npz").mkdir(),
+                            "no readable checkpoint"),
+    "chain missing": (_write("chain.csv", None), "chain.csv"),
+    "chain of random bytes": (_write("chain.csv", bytes(range(256)) * 8), "chain.csv"),
+    "run folder is a file": (lambda f: __import__("shutil").rmtree(f) or f.write_text("x"),
+                             "run"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(RESUME_DAMAGE))
+def test_resume_refuses_a_damaged_run_folder(case, finished_run, tmp_path, monkeypatch,
+                                             capsys):
+    import shutil
+
+    folder = tmp_path / "run"
+    shutil.copytree(finished_run, folder)
+    damage, needle = RESUME_DAMAGE[case]
+    damage(folder)
+    (tmp_path / "run.toml").write_text(RUN.replace("max_steps = 60", "max_steps = 90"))
+    monkeypatch.chdir(tmp_path)
+    before = listing(tmp_path)
+    sizes = {p: p.stat().st_size for p in folder.rglob("*") if p.is_file()} \
+        if folder.is_dir() else {}
+    got = main(["sample", "run.toml", "--output", str(folder), "--resume", "--quiet"])
+    line = one_line_error(capsys.readouterr().err, needle)
+    assert got == 2, line
+    assert listing(tmp_path) == before
+    assert sizes == ({p: p.stat().st_size for p in folder.rglob("*") if p.is_file()}
+                     if folder.is_dir() else {})
