@@ -255,6 +255,32 @@ shear_ratios = [1e-5]
 shear_direction = 0.0
 """
 
+def _efolds_with(background: str = "", potential: str = "") -> str:
+    """EFOLDS with other [background] lines (dynamics and its table) or another potential."""
+    text = EFOLDS.replace("gamma = 0.2375\n", "gamma = 0.2375\n" + background)
+    if potential:
+        text = text.replace('name = "quadratic"\nmass = 1.21e-6\n', potential)
+    return text
+
+
+EFOLDS_BIANCHI = _efolds_with('dynamics = "bianchi_i"\n[background.bianchi_i]\n'
+                              "shear_ratio = 1e-5\ndirection = 0.0\nreference_density = 1e-16\n")
+EFOLDS_CONDENSATE = _efolds_with('dynamics = "condensate"\n[background.condensate]\n'
+                                 "rescale = 0.5\ncondensate_term = 0.0\n")
+EFOLDS_ASYMMETRIC = _efolds_with('dynamics = "asymmetric"\n[background.asymmetric]\n'
+                                 "gamma = 0.2375\n")
+EFOLDS_STAROBINSKY = _efolds_with(potential='name = "starobinsky"\nmass = 1.3e-5\n')
+EFOLDS_MONOMIAL = _efolds_with(potential='name = "monomial"\namplitude = 1e-12\n'
+                               "power = 2.0\n")
+EFOLDS_LINEAR = _efolds_with(potential='name = "linear"\nslope = 1e-11\nsmoothing = 1e-3\n')
+
+BOUNCE_CONTRACTING = BOUNCE.replace('start = "bounce"', 'start = "contracting"').replace(
+    "[background.bounce]\npotential_fraction = 1.76e-12\nphidot_sign = 1\nfield_sign = 0",
+    "[background.contracting]\nstart_density = 1e-16\nphase = 0.5")
+BOUNCE_CLASSICAL = BOUNCE.replace('start = "bounce"', 'start = "classical"').replace(
+    "[background.bounce]\npotential_fraction = 1.76e-12\nphidot_sign = 1\nfield_sign = 0",
+    "[background.classical]\nphi = 3.0\nphidot = 0.0")
+
 SAMPLE = """
 [likelihood]
 sets = ["planck2018_base", "bk18"]
@@ -309,6 +335,11 @@ class Key:
     choices: tuple[str, ...] = ()
     drop: tuple[str, ...] = ()
     typo: bool = True  # the table rejects unknown keys (False: free-form tables)
+    name: str = ""  # the test id when one key has two declarations (default: path)
+
+    @property
+    def id(self) -> str:
+        return self.name or self.path
 
 
 def declared(section: str, p: Parameter, base: str, command: str = SCORE, **kw) -> Key:
@@ -425,6 +456,35 @@ def background_keys() -> list[Key]:
             *integration_keys()]
 
 
+def dynamics_and_potential_keys() -> list[Key]:
+    # declarations of background/bianchi.py, condensate.py, asymmetric.py, potentials.py and
+    # quantities.py, read through 'bouncelike efolds'
+    from bouncelike.background.bianchi import DIRECTION, REFERENCE_DENSITY, SHEAR_RATIO
+    from bouncelike.background.condensate import CONDENSATE_TERM, RESCALE
+    from bouncelike.background.potentials import AMPLITUDE as LAMBDA
+    from bouncelike.background.potentials import POTENTIALS, POWER, SLOPE, SMOOTHING
+
+    e = EFOLDS_CMD
+    return [Key("background.dynamics", "string", EFOLDS, e,
+                choices=("asymmetric", "bianchi_i", "condensate", "isotropic")),
+            *[declared("background.bianchi_i", p, EFOLDS_BIANCHI, e)
+              for p in (SHEAR_RATIO, DIRECTION, REFERENCE_DENSITY)],
+            *[declared("background.condensate", p, EFOLDS_CONDENSATE, e)
+              for p in (RESCALE, CONDENSATE_TERM)],
+            declared("background.asymmetric", BARBERO_IMMIRZI, EFOLDS_ASYMMETRIC, e),
+            Key("potential.name", "string", EFOLDS, e, choices=tuple(POTENTIALS)),
+            declared("potential", STAROBINSKY_MASS_DECL, EFOLDS_STAROBINSKY, e,
+                     name="potential.mass (starobinsky)"),
+            declared("potential", LAMBDA, EFOLDS_MONOMIAL, e),
+            declared("potential", POWER, EFOLDS_MONOMIAL, e),
+            declared("potential", SLOPE, EFOLDS_LINEAR, e),
+            declared("potential", SMOOTHING, EFOLDS_LINEAR, e),
+            declared("background.contracting", START_DENSITY, BOUNCE_CONTRACTING),
+            Key("background.contracting.phase", "number", BOUNCE_CONTRACTING, SCORE),
+            Key("background.classical.phi", "number", BOUNCE_CLASSICAL, SCORE),
+            Key("background.classical.phidot", "number", BOUNCE_CLASSICAL, SCORE)]
+
+
 def all_keys() -> list[Key]:
     keys = [*model_keys("power_law", POWER_LAW),
             declared("power_law", TENSOR_TILT, POWER_LAW),
@@ -439,16 +499,16 @@ def all_keys() -> list[Key]:
               for p in REHEATING],
             *[declared("perturbations", p, BOUNCE) for p in PERTURBATION_OPTIONS],
             *background_keys(),
-            *likelihood_keys(), *efolds_keys(), *compare_keys(), *sampling_keys(),
-            *report_keys()]
+            *dynamics_and_potential_keys(), *likelihood_keys(), *efolds_keys(),
+            *compare_keys(), *sampling_keys(), *report_keys()]
+    # the Starobinsky mass has its own range (M > 0) under the same key
+    keys.append(declared("slow_roll", STAROBINSKY_MASS_DECL, STAROBINSKY_MASS,
+                         name="slow_roll.mass (starobinsky)"))
     out, seen = [], set()
     for k in keys:
-        if k.path not in seen:
-            seen.add(k.path)
+        if k.id not in seen:
+            seen.add(k.id)
             out.append(k)
-    # the Starobinsky mass has its own range (M > 0) in the same keys: kept apart
-    out.append(replace(declared("slow_roll", STAROBINSKY_MASS_DECL, STAROBINSKY_MASS),
-                       typo=False))
     return out
 
 
@@ -504,11 +564,11 @@ def key_cases() -> list:
     cases = []
     for k in all_keys():
         for what, value in kinds(k):
-            cases.append(pytest.param(k, value, None, id=f"{k.command}:{k.path}:{what}"))
+            cases.append(pytest.param(k, value, None, id=f"{k.command}:{k.id}:{what}"))
         if k.typo:
             last = k.path.rsplit(".", 1)[-1]
             typo = last.upper() if last.upper() != last else last + "s"
-            cases.append(pytest.param(k, None, typo, id=f"{k.command}:{k.path}:misspelt"))
+            cases.append(pytest.param(k, None, typo, id=f"{k.command}:{k.id}:misspelt"))
     return cases
 
 
@@ -1201,3 +1261,92 @@ def test_resume_refuses_a_damaged_run_folder(case, finished_run, tmp_path, monke
     assert listing(tmp_path) == before
     assert sizes == ({p: p.stat().st_size for p in folder.rglob("*") if p.is_file()}
                      if folder.is_dir() else {})
+
+
+# -- the command line itself ------------------------------------------------------------------
+
+# (arguments after the command, files to write first {name: text}, piece of the message);
+# beyond test_cli_contract.py and test_sampling_cli.py (an absent configuration per command,
+# --points 1, a demo output that is a file, sample --workers 0)
+ARGUMENT_CASES = {
+    "unknown command": (["bogus"], {}, "invalid choice: 'bogus'"),
+    "configuration argument missing": (["score"], {}, "config"),
+    "unknown option": (["score", "run.toml", "--fast"], {"run.toml": POWER_LAW}, "--fast"),
+    "option of another command": (["score", "run.toml", "--resume"], {"run.toml": POWER_LAW},
+                                  "--resume"),
+    "--workers not a number": (["efolds", "run.toml", "--workers", "many"],
+                               {"run.toml": EFOLDS}, "--workers"),
+    "--workers a fraction": (["efolds", "run.toml", "--workers", "2.5"], {"run.toml": EFOLDS},
+                             "--workers"),
+    "--workers zero": (["efolds", "run.toml", "--workers", "0"], {"run.toml": EFOLDS},
+                       "'--workers' = 0"),
+    "--workers negative": (["compare", "run.toml", "--workers", "-3"], {"run.toml": COMPARE},
+                           "'--workers' = -3"),
+    "--workers above the maximum": (["efolds", "run.toml", "--workers", str(MAX_WORKERS + 1)],
+                                    {"run.toml": EFOLDS}, f"'--workers' = {MAX_WORKERS + 1}"),
+    "--output without a folder": (["efolds", "run.toml", "--output"], {"run.toml": EFOLDS},
+                                  "--output"),
+    "--output is a file": (["efolds", "run.toml", "--output", "a_file"],
+                           {"run.toml": EFOLDS, "a_file": "x"}, "a_file"),
+    "configuration is a folder": (["score", "folder"], {}, "'folder' is a folder"),
+    "configuration not UTF-8": (["score", "run.toml"], {"run.toml": b"[model]\n\xff = 1\n"},
+                                "not UTF-8"),
+    "configuration empty": (["score", "run.toml"], {"run.toml": ""}, "[model]"),
+    "--plugin absent": (["score", "run.toml", "--plugin", "absent.py"],
+                        {"run.toml": POWER_LAW}, "absent.py"),
+    "--plugin a folder": (["score", "run.toml", "--plugin", "folder"], {"run.toml": POWER_LAW},
+                          "is a directory"),
+    "--plugin not Python": (["score", "run.toml", "--plugin", "p.txt"],
+                            {"run.toml": POWER_LAW, "p.txt": "x = 1\n"}, "not a .py file"),
+    "--plugin with a syntax error": (["score", "run.toml", "--plugin", "p.py"],
+                                     {"run.toml": POWER_LAW, "p.py": "def (:\n"},
+                                     "syntax error at line 1"),
+    "--plugin that raises": (["score", "run.toml", "--plugin", "p.py"],
+                             {"run.toml": POWER_LAW, "p.py": "1 / 0\n"},
+                             "ZeroDivisionError"),
+    "report on a file": (["report", "a_file"], {"a_file": "x"}, "a_file"),
+    "report on an empty folder": (["report", "folder"], {}, "folder"),
+    "constraints of a damaged set file": (["constraints", "mine.toml"],
+                                          {"mine.toml": USER_SET.replace("sigma = 0.01",
+                                                                         "sigma = nan")},
+                                          "term[0].sigma"),
+    "transfer-check --seed negative": (["transfer-check", "--seed", "-1"], {}, "--seed"),
+    "transfer-check --backgrounds zero": (["transfer-check", "--backgrounds", "0"], {},
+                                          "--backgrounds"),
+    "transfer-check --backgrounds not a number": (["transfer-check", "--backgrounds", "x"], {},
+                                                  "--backgrounds"),
+    "transfer-check --points not a number": (["transfer-check", "--points", "1e3"], {},
+                                             "--points"),
+    "transfer-check --x-min NaN": (["transfer-check", "--x-min", "nan"], {}, "--x-min"),
+    "transfer-check --x-min below the table": (["transfer-check", "--x-min", "0.001"], {},
+                                               "--x-min"),
+    "transfer-check --x-min above the table": (["transfer-check", "--x-min", "1000"], {},
+                                               "--x-min"),
+    "transfer-check unknown state": (["transfer-check", "--state", "vacuum"], {}, "--state"),
+    "transfer-check unknown potential": (["transfer-check", "--potential", "cubic"], {},
+                                         "--potential"),
+    "transfer-check unknown prescription": (["transfer-check", "--prescription", "hybrid"], {},
+                                            "--prescription"),
+    "transfer-check state the prescription lacks": (
+        ["transfer-check", "--prescription", "deformed_algebra", "--state", "low_energy"], {},
+        "--state"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(ARGUMENT_CASES))
+def test_command_line_refuses_bad_arguments(case, tmp_path, monkeypatch, capsys):
+    args, files, needle = ARGUMENT_CASES[case]
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "folder").mkdir()
+    for name, content in files.items():
+        if isinstance(content, bytes):
+            (tmp_path / name).write_bytes(content)
+        else:
+            (tmp_path / name).write_text(content)
+    before = listing(tmp_path)
+    got = main([*args, "--quiet"])
+    captured = capsys.readouterr()
+    line = one_line_error(captured.err, needle)
+    assert got == 2, line
+    assert captured.out == ""
+    assert listing(tmp_path) == before
