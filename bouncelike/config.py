@@ -152,7 +152,7 @@ class Table:
                 raise InputError(f"'{self.key(unknown[0])}' was renamed '{new}'")
             raise InputError(
                 f"unknown key '{self.key(unknown[0])}'; allowed keys in "
-                f"[{self.where or 'top level'}]: {_fmt_allowed(self.allowed)}"
+                f"[{self.where or 'top level'}]: {_fmt_allowed(self.allowed) or 'none'}"
             )
 
     def finish(self) -> None:

@@ -603,6 +603,62 @@ def test_configuration_keys_refuse_hostile_values(key, value, typo, tmp_path, mo
     run_refused(tmp_path, monkeypatch, capsys, key.command, text, needle)
 
 
+_CASES = 'cases = [{ label = "LQC", dynamics = "isotropic" }]'
+
+
+def _compare(new_cases: str) -> str:
+    return COMPARE.replace(_CASES, new_cases)
+
+
+# the [compare] case list and [likelihood] low_ell_range (structured values)
+STRUCTURE_CASES = {
+    "compare: cases not a list": (COMPARE_CMD, _compare("cases = 3"), "'compare.cases'"),
+    "compare: a case not a table": (COMPARE_CMD, _compare('cases = ["LQC"]'),
+                                    "'compare.cases'"),
+    "compare: unknown dynamics in a case": (
+        COMPARE_CMD, _compare('cases = [{ label = "x", dynamics = "string_gas" }]'),
+        "'compare.cases[0].dynamics'"),
+    "compare: case without dynamics": (COMPARE_CMD, _compare('cases = [{ label = "x" }]'),
+                                       "missing key 'compare.cases[0].dynamics'"),
+    "compare: label not a string": (
+        COMPARE_CMD, _compare('cases = [{ label = 3, dynamics = "isotropic" }]'),
+        "'compare.cases[0].label'"),
+    "compare: unknown key in a case": (
+        COMPARE_CMD, _compare('cases = [{ label = "x", dynamics = "condensate", rescal = 0.5 }]'),
+        "'compare.cases[0].rescal'"),
+    "compare: key of another dynamics": (
+        COMPARE_CMD, _compare('cases = [{ label = "x", dynamics = "isotropic", rescale = 0.5 }]'),
+        "'compare.cases[0].rescale'; allowed keys in [compare.cases[0]]: none"),
+    "compare: condensate rescale negative": (
+        COMPARE_CMD, _compare('cases = [{ label = "x", dynamics = "condensate", '
+                              'rescale = -0.5 }]'), "rescale"),
+    "compare: two cases with one label": (
+        COMPARE_CMD, _compare('cases = [{ label = "x", dynamics = "isotropic" }, '
+                              '{ label = "x", dynamics = "condensate" }]'), "distinct"),
+    "compare: no case at all": (COMPARE_CMD, _compare("cases = []").replace(
+        "shear_ratios = [1e-5]\n", ""), "no case"),
+    "compare: negative shear ratio": (COMPARE_CMD, COMPARE.replace(
+        "shear_ratios = [1e-5]", "shear_ratios = [-1e-5]"), "'compare.shear_ratios'"),
+    "likelihood: low_ell_range not a list": (SCORE, POWER_LAW.replace(
+        "allow_overlap = false", "low_ell_range = 29"), "'likelihood.low_ell_range'"),
+    "likelihood: low_ell_range of one number": (SCORE, POWER_LAW.replace(
+        "allow_overlap = false", "low_ell_range = [2]"), "'likelihood.low_ell_range'"),
+    "likelihood: low_ell_range reversed": (SCORE, POWER_LAW.replace(
+        "allow_overlap = false", "low_ell_range = [29, 2]"), "'likelihood.low_ell_range'"),
+    "likelihood: low_ell_range of fractions": (SCORE, POWER_LAW.replace(
+        "allow_overlap = false", "low_ell_range = [2.5, 29]"), "'likelihood.low_ell_range'"),
+    "likelihood: low_ell_range beyond the data": (SCORE, POWER_LAW.replace(
+        '"bk18"]', '"planck2018_lowell_tt"]').replace(
+        "allow_overlap = false", "low_ell_range = [20, 35]"), "ell = 30"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(STRUCTURE_CASES))
+def test_structured_values_refuse_damage(case, tmp_path, monkeypatch, capsys):
+    command, text, needle = STRUCTURE_CASES[case]
+    run_refused(tmp_path, monkeypatch, capsys, command, text, needle)
+
+
 # -- data files: a user's constraint set, a user's low-ell table, a spectra table ------------
 
 USER_SET = """
