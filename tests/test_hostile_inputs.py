@@ -659,6 +659,36 @@ def test_structured_values_refuse_damage(case, tmp_path, monkeypatch, capsys):
     run_refused(tmp_path, monkeypatch, capsys, command, text, needle)
 
 
+# points a model cannot evaluate (exit code 1, the values named) and values it refuses only
+# once the background is known (exit code 2, the key named as the configuration spells it)
+EVALUATION_CASES = {
+    "plateau bounce that never stops inflating": (
+        PHYSICAL.replace("bounce_physical_dressed_metric",
+                         "bounce_physical_dressed_metric_starobinsky"), 1,
+        "bounce_physical.log10_potential_fraction = -11.6"),
+    "too little inflation for N_*": (
+        PHYSICAL.replace("log10_potential_fraction = -11.6", "log10_potential_fraction = -50.0"),
+        1, "bounce_physical.log10_potential_fraction = -50"),
+    "N_inflation no bounce gives": (
+        PHYSICAL.replace("log10_potential_fraction = -11.6", "N_inflation = 1.5"), 1,
+        "bounce_physical.N_inflation = 1.5"),
+    "N_star beyond the inflation": (PHYSICAL.replace("N_star = 55.0", "N_star = 150.0"), 1,
+                                    "reheating.N_star = 150"),
+    "massless field (was named 'mass')": (PHYSICAL.replace("mass = 1.2e-6", "mass = 0.0"), 2,
+                                          "'bounce_physical.mass' = 0"),
+    "reheating denser than the end of inflation": (
+        PHYSICAL_HISTORY.replace("log10_reheating_density = -20.0",
+                                 "log10_reheating_density = -1.0"), 2,
+        "'reheating.log10_reheating_density' = -1"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(EVALUATION_CASES))
+def test_points_refused_on_evaluation(case, tmp_path, monkeypatch, capsys):
+    text, code, needle = EVALUATION_CASES[case]
+    run_refused(tmp_path, monkeypatch, capsys, SCORE, text, needle, code=code)
+
+
 # -- data files: a user's constraint set, a user's low-ell table, a spectra table ------------
 
 USER_SET = """
