@@ -87,8 +87,9 @@ def test_plateau_beyond_cap_gives_slow_roll_window():
     # spectra are the slow-roll ones, n_s ~ 1 - 2/N, r ~ 12/N^2 (Encyclopaedia Inflationaris,
     # arXiv:1303.3787; leading order in 1/N), and the bounce scale lies far below the window.
     from bouncelike.background.potentials import Starobinsky
-    from bouncelike.commands.spectrum import pivot_summary
+    from bouncelike.models.bounce import BounceTable
     from bouncelike.perturbations.background import integrate_background
+    from bouncelike.spectra.summary import summarize
     from bouncelike.units import critical_density
 
     rc = critical_density()
@@ -101,13 +102,13 @@ def test_plateau_beyond_cap_gives_slow_roll_window():
     for presc in ("dressed_metric", "deformed_algebra"):
         run = run_bounce(tab, PerturbationOptions(prescription=presc), Reheating(N_star=55.0),
                          potential=pot)
-        s = pivot_summary(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor, 0.05)
-        assert s["n_s"] == pytest.approx(1 - 2 / 55, abs=2.5e-3)
-        assert s["r"] == pytest.approx(12 / 55**2, rel=0.15)
+        s = summarize(BounceTable(run), 0.05)
+        assert s.n_s == pytest.approx(1 - 2 / 55, abs=2.5e-3)
+        assert s.r == pytest.approx(12 / 55**2, rel=0.15)
         assert run.scales.ln_k_lqc_mpc < math.log(1e-4) - 100
         assert "outlasts the integration cap" in run.notes[1]
         if presc == "deformed_algebra":
-            assert s["ln_1e10_As"] > 500  # lower bound e^600 x standard: far beyond any data
+            assert s.ln_1e10_As > 500  # lower bound e^600 x standard: far beyond any data
             # equal growth exponents for scalars and tensors (same Omega k^2 term; scalar UV
             # rise: Schander et al. arXiv:1508.06786): r stays at its slow-roll value 12/N^2
             # (asserted above for both prescriptions) ...
@@ -153,9 +154,9 @@ def test_contracting_start_on_negative_branch_gives_slow_roll(tmp_path):
     # A contracting start lands on the phi < 0 side (phidot H > 0 during inflation): both sign
     # conventions must treat inflation classically, n_s = 1 - 2/(N + 1/2), r = 8/(N + 1/2)
     # (Encyclopaedia Inflationaris, arXiv:1303.3787) with the bounce far below the window.
-    from bouncelike.commands.spectrum import pivot_summary
     from bouncelike.config import load_run_config
-    from bouncelike.models.bounce import run_from_config
+    from bouncelike.models.bounce import BounceTable, run_from_config
+    from bouncelike.spectra.summary import summarize
 
     cfg = tmp_path / "c.toml"
     cfg.write_text('[model]\nspectra = "bounce"\n[potential]\nname = "quadratic"\n'
@@ -166,9 +167,9 @@ def test_contracting_start_on_negative_branch_gives_slow_roll(tmp_path):
     # the inflaton rolls down on the phi < 0 side (read at the end of inflation: the table
     # goes on two e-folds, through the oscillations about phi = 0)
     assert run.table.phi[run.table.inflation_end_index()] < 0
-    s = pivot_summary(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor, 0.05)
-    assert s["n_s"] == pytest.approx(1 - 2 / 55.5, abs=1.5e-3)
-    assert s["r"] == pytest.approx(8 / 55.5, rel=0.02)
+    s = summarize(BounceTable(run), 0.05)
+    assert s.n_s == pytest.approx(1 - 2 / 55.5, abs=1.5e-3)
+    assert s.r == pytest.approx(8 / 55.5, rel=0.02)
 
 
 def test_n_star_carries_the_thermal_degrees_of_freedom():

@@ -147,14 +147,15 @@ def format_score(score: Any, title: str = "") -> str:
         state = "ok" if f["fit_ok"] else "FAILED"
         if f["method"] == "exact":
             fq.append(f"k = {f['pivot']:g}: exact re-expansion")
-        elif f.get("period_mean"):
+        elif "rms_scalar" in f and f.get("period_mean"):  # combined: per-quantity check
             fq.append(
                 f"k = {f['pivot']:g}: cubic fit of the period mean, residual rms ln P_s "
                 f"{f['rms_scalar']:.2g}, ln(P_t/P_s) {f['rms_ratio']:.2g} (tolerance "
                 f"{f['tolerance']:g}, checked for the quantities each set uses) ok")
         else:
             fq.append(
-                f"k = {f['pivot']:g}: cubic fit rms {f['fit_rms']:.2g} "
+                f"k = {f['pivot']:g}: cubic fit"
+                f"{' of the period mean' if f.get('period_mean') else ''} rms {f['fit_rms']:.2g} "
                 f"(tolerance {f['tolerance']:g}) {state}"
             )
     if fq:
@@ -188,4 +189,9 @@ def run(args: Any, session: Any) -> CommandResult:
     out["config"] = str(path)
     out["model"] = spectra.describe() if hasattr(spectra, "describe") else {"label": label}
     title = f"{label} ({path.name}) against: {', '.join(score.sets)}"
-    return CommandResult(data=out, text=format_score(score, title), provenance=provenance)
+    text = format_score(score, title)
+    validity = getattr(spectra, "validity", None)
+    if validity is not None:  # bounce forward model: test field, trans-Planckian modes
+        out["validity"] = validity.as_dict()
+        text += "\n" + "\n".join(f"validity: {t}" for t in validity.lines())
+    return CommandResult(data=out, text=text, provenance=provenance)

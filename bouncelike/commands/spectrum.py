@@ -1,13 +1,26 @@
 """``bouncelike spectrum CONFIG.toml``: primordial spectra of a bounce configuration.
 
-Writes ``spectrum.csv`` (k in Mpc^-1, k/k_LQC, P_s, P_t), ``spectrum.pdf`` and ``spectrum.png``
-(P_s and P_t against k with the observable window, the pivot, the bounce scale and the
-power-law reference of the pivot summary) and ``spectrum.json``; ``--json`` prints the summary.
+Writes (:mod:`bouncelike.reporting.spectrum_figure` describes every column and curve):
+
+* ``spectrum.csv``: one row per integrated wavenumber: k in Mpc^-1, k/k_LQC, P_s and P_t as
+  drawn (the period mean where the rows cannot resolve the oscillation, flag ``period_mean``),
+  the envelopes, the integrated values, the oscillation period in ln k and the power law of the
+  pivot summary: exactly the curves of the figure's upper panel;
+* ``spectrum_zoom.csv``: the curves of the lower panel (a few periods resolved), header only
+  when the run has no oscillating features;
+* ``spectrum.pdf``, ``spectrum.png``, ``spectrum.caption.txt``;
+* ``spectrum.json``: the pivot summaries, validity flags, notes and provenance.
+
+The pivot summaries are those ``bouncelike score`` computes for the same configuration
+(:func:`bouncelike.spectra.summary.summarize` on the same spectra object, at the pivots of the
+configured constraint sets and of ``[reheating] pivot``, with the ``[likelihood]`` fit
+settings), their fit quality stated with their numbers.
 """
 
 from __future__ import annotations
 
 import math
+from pathlib import Path
 from typing import Any
 
 from ._layer import CommandResult, Options
@@ -16,120 +29,99 @@ NAME = "spectrum"
 HELP = "primordial scalar and tensor spectra of a bounce configuration (table, figure, summary)"
 OPTIONS = Options(config="[model] spectra = 'bounce'", output="bouncelike-out/<config stem>/",
                   compiles=True)
-FILES = ("spectrum.csv", "spectrum.pdf", "spectrum.png", "spectrum.json")
+FILES = ("spectrum.csv", "spectrum_zoom.csv", "spectrum.pdf", "spectrum.png",
+         "spectrum.caption.txt", "spectrum.json")
 
 
 def add_arguments(parser: Any) -> None:
     """No options of its own: CONFIG, --output, --json, --quiet are shared."""
 
 
-def pivot_summary(k: Any, ps: Any, pt: Any, pivot: float, half_width: float = 1.0) -> dict:
-    """Local quadratic fit of ln P_s in ln(k/k_*) over +-half_width: A_s, n_s, running; r."""
-    import numpy as np
+def summary_settings(config: Any, base_dir: Path | None) -> tuple[tuple[float, ...], float,
+                                                                   float]:
+    """(pivots, tolerance, half_width) of the pivot summaries ``score`` uses for ``config``."""
+    from ..likelihood.gaussian import likelihood_from_config
 
-    x = np.log(k / pivot)
-    m = np.abs(x) <= half_width
-    if m.sum() < 4:
-        return {"pivot": pivot, "fit_ok": False}
-    c = np.polyfit(x[m], np.log(ps[m]), 2)
-    ln_as = c[2]
-    r = float(np.exp(np.interp(0.0, x, np.log(pt)) - ln_as))
-    resid = np.log(ps[m]) - np.polyval(c, x[m])
-    return {"pivot": pivot, "ln_1e10_As": float(ln_as + math.log(1e10)),
-            "n_s": float(1 + c[1]), "running": float(2 * c[0]), "r": r,
-            "fit_rms": float(np.sqrt(np.mean(resid**2))), "fit_ok": bool(
-                np.sqrt(np.mean(resid**2)) < 1e-2)}
+    lik = likelihood_from_config(config, base_dir=base_dir)
+    gauss = getattr(lik, "gaussian", lik)
+    if gauss is None:  # a low-ell set alone: the fit settings of [likelihood] still apply
+        from ..spectra.summary import DEFAULT_HALF_WIDTH
+
+        return (), float(lik.tolerance), DEFAULT_HALF_WIDTH
+    return tuple(gauss.pivots), float(gauss.tolerance), float(gauss.half_width)
 
 
-def _dense(run) -> dict | None:
-    """Densely sampled spectra where the features oscillate (None when not applicable)."""
-    import numpy as np
-
-    from ..perturbations.transfer import dense_spectrum
-
-    sp, tab = run.spectrum, run.table
-    if (not tab.has_bounce or not np.isfinite(tab.t_inflation_end)
-            or sp.settings.get("bogoliubov") is not None):
-        return None
-    x = sp.k / sp.k_lqc
-    nodes = x[(x <= 100.0) & np.isfinite(sp.scalar) & np.isfinite(sp.tensor)]
-    if len(nodes) < 8:
-        return None
-    d = dense_spectrum(tab, nodes, sp.prescription, sp.state)
-    d["k_mpc"] = np.exp(np.log(d["x"] * sp.k_lqc) + run.scales.ln_mpc_per_bounce_unit)
-    return d
-
-
-def _figure(run, summary: dict):
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-    import numpy as np
-
-    from ..perturbations.mapping import OBSERVABLE_WINDOW
-
-    k, sp = run.k_mpc, run.spectrum
-    fig, ax = plt.subplots(figsize=(7, 4.5))
-    dense = _dense(run)
-    if dense is None:
-        ax.loglog(k, sp.scalar, label="$P_s$ (scalar)")
-        ax.loglog(k, sp.tensor, label="$P_t$ (tensor)")
+def summary_text(s: Any) -> str:
+    """One line: the numbers of a PivotSummary with its fit quality."""
+    if s.method == "exact":
+        quality = "exact re-expansion"
     else:
-        # oscillations below ~3 k_LQC have period pi/(x D) in x: drawn from the exact
-        # decomposition of this background, points = integrated modes
-        kd = dense["k_mpc"]
-        outside = (k < kd.min()) | (k > kd.max())
-        for name, col, lab in (("scalar", "tab:blue", "$P_s$ (scalar)"),
-                               ("tensor", "tab:orange", "$P_t$ (tensor)")):
-            ax.loglog(kd, dense[name], color=col, lw=0.25, rasterized=True, label=lab)
-            y = getattr(sp, name)
-            ax.loglog(k[outside & (k < kd.min())], y[outside & (k < kd.min())], color=col)
-            ax.loglog(k[outside & (k > kd.max())], y[outside & (k > kd.max())], color=col)
-            ax.loglog(k, y, ".", color=col, ms=1.5)
-    if summary.get("fit_ok") is not None and "n_s" in summary:
-        kp = summary["pivot"]
-        ref = np.exp(summary["ln_1e10_As"]) * 1e-10 * (k / kp) ** (summary["n_s"] - 1)
-        ax.loglog(k, ref, "k--", lw=0.8, label=f"power law, $n_s$={summary['n_s']:.4f}")
-        ax.loglog(k, summary["r"] * ref, "k:", lw=0.8, label=f"r x power law, r={summary['r']:.3g}")
-        ax.axvline(kp, color="grey", lw=0.8)
-    ax.axvspan(*OBSERVABLE_WINDOW, color="tab:green", alpha=0.12, label="observable window")
-    if k.min() <= run.scales.k_lqc_mpc <= k.max():
-        ax.axvline(run.scales.k_lqc_mpc, color="tab:red", lw=0.8, ls="-.", label="$k_{LQC}$")
-    ax.set_xlabel("k [Mpc$^{-1}$]")
-    ax.set_ylabel("power spectrum")
-    ax.set_title(f"{sp.prescription.replace('_', ' ')}, state {sp.state}")
-    finite = np.concatenate([sp.scalar, sp.tensor])
-    ax.set_ylim(max(finite.min() * 0.5, 1e-300), min(finite.max() * 2, 1e300))
-    ax.legend(fontsize=7)
-    fig.tight_layout()
-    return fig
+        quality = (f"cubic fit{' of the period mean' if s.period_mean else ''}, rms ln P "
+                   f"{s.fit_rms:.2g} (ln P_s {s.rms_scalar:.2g}, ln(P_t/P_s) "
+                   f"{s.rms_ratio:.2g}; tolerance {s.tolerance:g}) "
+                   + ("ok" if s.fit_ok else "FAILED"))
+    return (f"k_* = {s.pivot:g} Mpc^-1: ln(1e10 A_s) = {s.ln_1e10_As:.4f}, n_s = {s.n_s:.5f}, "
+            f"running = {s.running:.3g}, r = {s.r:.4g}; {quality}")
 
 
 def run(args: Any, session: Any) -> CommandResult:
+    import numpy as np
     import pandas as pd
 
-    from ..io import (
-        json_safe,
-        output_set,
-        save_figure_atomic,
-        write_csv_atomic,
-        write_json_atomic,
-    )
-    from ..models.bounce import run_from_config
+    from ..io import json_safe, output_set, write_csv_atomic, write_json_atomic
+    from ..models.bounce import BounceTable, run_from_config
+    from ..models.bounce_features import SKY_FRACTION, sky_resolution_k
+    from ..perturbations.mapping import OBSERVABLE_WINDOW
+    from ..reporting import spectrum_figure as sf
+    from ..reporting.style import save_with_caption
+    from ..spectra.summary import summarize
+    from ..spectra.tabulated import RESOLVED_ROWS
 
     config = session.config()
     out = session.output_folder(FILES)
+    base_dir = session.config_path.parent if session.config_path else None
+    pivots, tolerance, half_width = summary_settings(config, base_dir)
     br = run_from_config(config, show_progress=session.progress)
-    sp = br.spectrum
-    summary = pivot_summary(br.k_mpc, sp.scalar, sp.tensor, br.scales.pivot)
-    frame = pd.DataFrame({"k_mpc": br.k_mpc, "k_over_k_lqc": sp.k / sp.k_lqc,
-                          "P_s": sp.scalar, "P_t": sp.tensor})
-    fig = _figure(br, summary)
+    spectra = BounceTable(br)
+    sp, scales = br.spectrum, br.scales
+    all_pivots = sorted({*pivots, scales.pivot})
+    summaries = {p: summarize(spectra, p, half_width=half_width, tolerance=tolerance)
+                 for p in all_pivots}
+    ref = summaries[scales.pivot]
+    curves = sf.spectrum_curves(br, spectra, ref)
+    zoom = sf.zoom_curves(br)
+    rows = int(curves["period_mean"].sum())
+    ok_text = "ok" if ref.fit_ok else "FAILED"
+    info = {"title": f"{sp.prescription.replace('_', ' ')}, state {sp.state}",
+            "pivots": [(p, r"pivot $k_*$" + f" = {p:g} " + r"Mpc$^{-1}$") for p in all_pivots],
+            "k_lqc_mpc": scales.k_lqc_mpc, "window": OBSERVABLE_WINDOW,
+            "reference_label": (r"$A_s$ power law of the pivot summary at $k_*$ = "
+                                f"{ref.pivot:g}: " + r"$n_s$" + f" = {ref.n_s:.4f} (fit rms "
+                                f"{ref.fit_rms:.2g}, {ok_text})")}
+    fig, _ = sf.spectrum_figure(curves, zoom, info)
+    sky_k = sky_resolution_k()
+    period_k = br.features.period_k(scales.k_lqc_mpc) if br.features is not None else math.inf
+    validity = br.validity.as_dict() if br.validity is not None else None
+    validity_lines = br.validity.lines() if br.validity is not None else []
+    rule = (f"a row shows the period mean P_std (|alpha|^2 + |beta|^2) of the feature "
+            f"oscillation where its period in ln k is shorter than {RESOLVED_ROWS:g} row "
+            "spacings (column period_mean = 1: the integrated values there are aliased), the "
+            "integrated value elsewhere; the sky sees only the period mean where the period "
+            f"in k is below {SKY_FRACTION:g} of pi/chi_* = {sky_k:.2g} Mpc^-1")
     timing = session.timing()
-    result = {"pivot_summary": summary, "k_lqc_mpc": br.scales.k_lqc_mpc,
-              "log10_k_lqc_mpc": br.scales.ln_k_lqc_mpc / math.log(10),
-              "n_star": br.scales.n_star, "n_bounce_to_pivot": br.scales.n_bounce_pivot,
+    result = {"pivot_summaries": [s.as_dict() for s in summaries.values()],
+              "pivot_summary": ref.as_dict(),
+              "fit_ok": all(s.fit_ok for s in summaries.values()),
+              "validity": validity,
+              "period_mean": {"rows": rows, "of": len(curves["k_mpc"]), "rule": rule,
+                              "period_k_mpc": period_k, "sky_resolution_k_mpc": sky_k},
+              "zoom": None if zoom is None else {
+                  "k0_mpc": zoom["k0_mpc"], "period_k_mpc": zoom["period_k_mpc"],
+                  **{k: np.asarray(v).tolist() if not np.isscalar(v) else v
+                     for k, v in zoom["checks"].items()}},
+              "k_lqc_mpc": scales.k_lqc_mpc,
+              "log10_k_lqc_mpc": scales.ln_k_lqc_mpc / math.log(10),
+              "n_star": scales.n_star, "n_bounce_to_pivot": scales.n_bounce_pivot,
               "prescription": sp.prescription, "state": sp.state,
               "sign_convention": sp.sign_convention,
               "max_wronskian_error": sp.max_wronskian_error,
@@ -139,23 +131,41 @@ def run(args: Any, session: Any) -> CommandResult:
               "elapsed_seconds": timing["wall_seconds"],
               "compile_seconds": timing["compile_seconds"],
               "files": [str(out / n) for n in FILES]}
+    summary_lines = [summary_text(s) for s in summaries.values()]
+    caption = "\n".join([
+        f"Primordial spectra of {getattr(session.config_path, 'name', 'the configuration')} "
+        f"({info['title']}); k in Mpc^-1.",
+        "Upper panel: " + rule + ". Shaded: the envelopes P_std |alpha|^2 (1 -+ rho)^2. Dots: "
+        "the integrated modes. Dashed: the power law of the pivot summary at "
+        f"k_* = {ref.pivot:g} Mpc^-1. Curves as in spectrum.csv.",
+        ("Lower panel: " + f"{sf.ZOOM_PERIODS} periods around k = {zoom['k0_mpc']:.4g} "
+         "Mpc^-1 reconstructed from the exact Bogoliubov decomposition of the run's modes; "
+         "circles: modes integrated exactly (largest relative difference "
+         f"{zoom['checks']['max_relative_difference']:.2g}). Curves as in spectrum_zoom.csv."
+         ) if zoom is not None else "No oscillating features: no zoom panel.",
+        "Pivot summaries (bouncelike.spectra.summary, as in bouncelike score):",
+        *[f"  {t}" for t in summary_lines],
+        "Validity:", *[f"  {t}" for t in validity_lines]])
     provenance = session.provenance()
-    with output_set(out):  # all four files, or none
+    frame = pd.DataFrame(curves)
+    zoom_frame = pd.DataFrame(zoom["curves"] if zoom is not None else {
+        c: [] for c in ("k_mpc", "P_s", "P_t")})
+    with output_set(out):  # every file, or none
         write_csv_atomic(out / "spectrum.csv", frame, index=False)
-        save_figure_atomic(fig, out / "spectrum.pdf")
-        save_figure_atomic(fig, out / "spectrum.png", dpi=120)
+        write_csv_atomic(out / "spectrum_zoom.csv", zoom_frame, index=False)
+        save_with_caption(fig, out / "spectrum", caption)
         write_json_atomic(out / "spectrum.json", json_safe({**result, "provenance": provenance}))
-    import matplotlib.pyplot as plt
-
-    plt.close(fig)
-    s = summary
-    lines = [f"k_LQC = 10^{br.scales.ln_k_lqc_mpc / math.log(10):.2f} Mpc^-1; "
-             f"N_* = {br.scales.n_star:.2f}, "
-             f"N_B* = {br.scales.n_bounce_pivot:.2f}"]
-    if "n_s" in s:
-        lines.append(f"pivot {s['pivot']:g} Mpc^-1: ln(1e10 A_s) = {s['ln_1e10_As']:.4f}, "
-                     f"n_s = {s['n_s']:.4f}, running = {s['running']:.2e}, r = {s['r']:.3g}")
+    lines = [f"k_LQC = 10^{scales.ln_k_lqc_mpc / math.log(10):.2f} Mpc^-1; "
+             f"N_* = {scales.n_star:.2f}, N_B* = {scales.n_bounce_pivot:.2f}",
+             "pivot summaries (as bouncelike score computes them):",
+             *[f"  {t}" for t in summary_lines]]
+    lines += [f"WARNING: fit quality failed at k = {s.pivot:g} Mpc^-1: the summary numbers do "
+              "not represent the featured spectrum faithfully"
+              for s in summaries.values() if not s.fit_ok]
+    lines.append(f"table: {rows} of {len(curves['k_mpc'])} rows show the period mean ({rule})")
+    lines += [f"validity: {t}" for t in validity_lines]
     lines.extend(f"note: {n}" for n in br.notes)
-    lines.append(f"time {session.time_text()}; wrote {out}/spectrum.{{csv,pdf,png,json}}")
+    lines.append(f"time {session.time_text()}; wrote {out}/spectrum.{{csv,pdf,png,json}}, "
+                 "spectrum_zoom.csv, spectrum.caption.txt")
     return CommandResult(data=result, text="\n".join(lines), provenance=provenance,
                          files=tuple(result["files"]))

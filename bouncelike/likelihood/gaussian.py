@@ -264,6 +264,7 @@ class GaussianLikelihood:
                 "tolerance": sm.tolerance,
                 "fit_ok": sm.fit_ok,
                 "window": list(sm.window) if sm.window is not None else None,
+                "period_mean": sm.period_mean,
             }
             for sm in summaries
         )

@@ -31,6 +31,10 @@ g_th (default 106.75, see :mod:`bouncelike.perturbations.mapping`); ``pivot`` (M
 default 0.05);
 ``hubble_constant`` (km/s/Mpc, default Planck 2018).
 
+Each run also carries the period means, envelopes and periods of its features
+(:mod:`.bounce_features`: what the sky and a table of rows can see of oscillations finer than
+both) and its validity flags (:mod:`.bounce_validity`: test field, trans-Planckian window
+modes); :class:`BounceTable` presents them as spectra with the period-mean protocol.
 Deformed-algebra modes above the e^600 cap and the tensor bound: :mod:`.bounce_ultraviolet`.
 Inflation outlasting the background's e-fold cap (plateaus): :mod:`.bounce_plateau`.
 A failure of the model at a configured point (no inflation, a window the modes cannot reach)
@@ -40,7 +44,7 @@ is not evaluable, one line naming the configured values and the physical reason.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -71,8 +75,10 @@ from ..perturbations.states import (
 from ..perturbations.transfer_model import CAP_EXPONENT
 from ..spectra.tabulated import TabulatedSpectra
 from .base import ForwardModel
+from .bounce_features import Features, freeze_index, plateau_features, run_features
 from .bounce_plateau import plateau_window
 from .bounce_ultraviolet import capped_boost, deformed_uv_tensor_note
+from .bounce_validity import Validity, trans_planckian
 from .reheating import Reheating, reheating_from_config
 
 #: the options of ``[perturbations]``, declared once (module docstring)
@@ -148,20 +154,30 @@ class PerturbationOptions:
 
 @dataclass(frozen=True)
 class BounceRun:
-    """Everything computed for one bounce configuration."""
+    """Everything computed for one bounce configuration.
+
+    ``features``: period means, envelopes and periods per row (:mod:`.bounce_features`);
+    ``validity``: the test-field and trans-Planckian flags (:mod:`.bounce_validity`).
+    """
 
     table: BackgroundTable
     spectrum: BounceSpectrum
     scales: ScaleMap
     k_mpc: np.ndarray
     notes: tuple[str, ...]
+    features: Features | None = None
+    validity: Validity | None = None
+    options: PerturbationOptions | None = None
 
 
 def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, reheating: Reheating,
                potential: Any = None, show_progress: bool = False) -> BounceRun:
     """Spectra of one background in bounce units and in Mpc^-1; N_* from ``reheating``."""
     if not np.isfinite(tab.t_inflation_end):
-        return BounceRun(*plateau_window(tab, potential, opts, reheating))
+        run = BounceRun(*plateau_window(tab, potential, opts, reheating))
+        feats = plateau_features(tab, opts, run.spectrum)
+        return replace(run, features=feats, validity=Validity(
+            feats.backreaction, trans_planckian(run.scales, tab.ln_a_bounce)), options=opts)
     n_star = reheating.n_star(tab)
     pivot = reheating.pivot
     sm = scale_map(tab, n_star, pivot)
@@ -187,9 +203,7 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, reheating: Rehea
     kw = {"state": opts.state, "sign_convention": opts.sign_convention, "bogoliubov": bog,
           "step": opts.step, "adiabatic_ratio": opts.adiabatic_ratio, "freeze": opts.freeze,
           "switch_density": opts.switch_density}
-    cut = np.nonzero(ln_aH[i_infl:] >= ln_kb[through].max() - math.log(opts.freeze) + 1)[0]
-    i_cut = i_infl + int(cut[0]) + 1 if len(cut) else len(tab.t) - 1
-    ftab = tab.section(0, min(i_cut, len(tab.t) - 1))
+    ftab = tab.section(0, freeze_index(tab, float(np.exp(ln_kb[through].max())), opts.freeze))
     sp = bounce_spectra(ftab, np.exp(ln_kb[through]), prescription=opts.prescription,
                         show_progress=show_progress, **kw)
     scal[through], tens[through] = sp.scalar, sp.tensor
@@ -240,6 +254,10 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, reheating: Rehea
                          " k_LQC were started inside the Hubble radius during inflation "
                          "(adiabatic vacuum; the bounce leaves them untouched)")
     kb = np.exp(np.minimum(ln_kb, 700))
+    feats = run_features(ftab, tab, kb, through, {"scalar": scal, "tensor": tens},
+                         {"scalar": sp.scalar_modes, "tensor": sp.tensor_modes}, opts,
+                         bog, capped=bool(late.any())
+                         and opts.prescription == "deformed_algebra")
     ad = np.concatenate([sp.scalar_modes.start_adiabaticity, sp.tensor_modes.start_adiabaticity])
     ad = ad[np.isfinite(ad)]
     if len(ad):
@@ -270,7 +288,12 @@ def run_bounce(tab: BackgroundTable, opts: PerturbationOptions, reheating: Rehea
     spectrum = BounceSpectrum(kb[keep], scal[keep], tens[keep], k_lqc, opts.prescription,
                               opts.state, sp.sign_convention, sp.scalar_modes, sp.tensor_modes,
                               sp.notes, sp.settings)
-    return BounceRun(tab, spectrum, sm, k_mpc[keep], tuple(notes))
+    sky = feats.sky_note(sm.k_lqc_mpc)
+    if sky:
+        notes.append(sky)
+    validity = Validity(feats.backreaction, trans_planckian(sm, tab.ln_a_bounce))
+    return BounceRun(tab, spectrum, sm, k_mpc[keep], tuple(notes), feats.select(keep),
+                     validity, opts)
 
 
 def _background(config: Table, past_density: float | None,
@@ -303,11 +326,28 @@ def _background(config: Table, past_density: float | None,
     return tab, notes, pot
 
 
-def bounce_spectra_from_config(config: Table) -> Any:
-    """``[model] spectra = "bounce"``: TabulatedSpectra in Mpc^-1 with notes."""
-    run = run_from_config(config)
-    return TabulatedSpectra(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor,
-                            notes=run.notes, label=f"bounce ({run.spectrum.prescription})")
+class BounceTable(TabulatedSpectra):
+    """The forward model's spectra in Mpc^-1 with their period means and periods (the
+    period-mean protocol) and the run's validity flags (``validity``, in ``describe()``)."""
+
+    def __init__(self, run: BounceRun):
+        f = run.features
+        mean = None if f is None else (f.mean["scalar"], f.mean["tensor"])
+        super().__init__(run.k_mpc, run.spectrum.scalar, run.spectrum.tensor, notes=run.notes,
+                         label=f"bounce ({run.spectrum.prescription})", period_mean=mean,
+                         oscillation_period=None if f is None else f.period)
+        object.__setattr__(self, "validity", run.validity)
+
+    def describe(self) -> dict[str, Any]:
+        out = super().describe()
+        if self.validity is not None:
+            out["validity"] = self.validity.as_dict()
+        return out
+
+
+def bounce_spectra_from_config(config: Table) -> BounceTable:
+    """``[model] spectra = "bounce"``: the spectra of :func:`run_from_config`."""
+    return BounceTable(run_from_config(config))
 
 
 def run_from_config(config: Table, show_progress: bool = False) -> BounceRun:
@@ -316,7 +356,7 @@ def run_from_config(config: Table, show_progress: bool = False) -> BounceRun:
     reheating = reheating_from_config(config)
     tab, notes, pot = _background(config, opts.past_density, opts.k_min)
     run = run_bounce(tab, opts, reheating, potential=pot, show_progress=show_progress)
-    return BounceRun(run.table, run.spectrum, run.scales, run.k_mpc, (*run.notes, *notes))
+    return replace(run, notes=(*run.notes, *notes))
 
 
 class BounceModel(ForwardModel):

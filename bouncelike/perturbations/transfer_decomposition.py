@@ -47,7 +47,11 @@ def conformal_duration(tab, eta: np.ndarray | None = None) -> float:
 
 @dataclass(frozen=True)
 class Decomposition:
-    """Exact pieces of T for one background and field (see the module docstring)."""
+    """Exact pieces of T for one background and field (see the module docstring).
+
+    ``omega``: the conformal frequency W = sqrt(k^2 Omega_eff - z''/z) of each mode at the
+    matching time, where alpha and beta are defined (the energy of one quantum there is W/a).
+    """
 
     x: np.ndarray
     ln_alpha: np.ndarray
@@ -57,20 +61,40 @@ class Decomposition:
     ln_standard: np.ndarray    # P_std: adiabatic vacuum started after the bounce (exact)
     duration: float
     start_adiabaticity: np.ndarray | None = None  # rate/frequency where the state is set
+    omega: np.ndarray | None = None  # conformal frequency at the matching time
 
     @property
     def ln_transfer(self) -> np.ndarray:
         return self.ln_power - self.ln_standard
 
+    @property
+    def ln_mean_transfer(self) -> np.ndarray:
+        """ln of the period mean of T: |alpha|^2 (1 + rho^2) = |alpha|^2 + |beta|^2."""
+        return 2 * self.ln_alpha + np.log1p(self.rho**2)
+
+    @property
+    def beta2(self) -> np.ndarray:
+        """|beta|^2 = |alpha|^2 rho^2: quanta per mode created relative to the adiabatic
+        vacuum of the matching time."""
+        return np.exp(2 * self.ln_alpha) * self.rho**2
+
 
 def decompose(tab, x: np.ndarray, field_: str, prescription: str = "dressed_metric",
               state: str = "remote_past", match_efolds: float = MATCH_EFOLDS,
               sign_convention: str | None = None,
-              solver_options: dict | None = None) -> Decomposition:
+              solver_options: dict | None = None, *, bogoliubov=None,
+              switch_density: float | None = None, full=None,
+              duration: float | None = None) -> Decomposition:
     """Integrate the modes x k_LQC exactly and split them as in the module docstring.
 
     ``sign_convention``: of the dressed-metric scalar potential (None: the default of
-    prescriptions.py); ``solver_options``: keyword arguments of the ModeSolver (step, ...).
+    prescriptions.py); ``solver_options``: keyword arguments of the ModeSolver (step, ...);
+    ``bogoliubov``: a rotation of the state (:class:`.states.Bogoliubov`); ``switch_density``:
+    of the deformed-algebra scalars (None: the default of prescriptions.py); ``full``: the
+    :class:`.modes.ModeResult` of these modes already integrated to freeze-out with the same
+    settings (reused instead of integrating them again); ``duration``: D of this background
+    when ``tab`` is a section that ends before inflation does.
+    Every mode needs W^2 > 0 at the matching time (InputError otherwise).
     """
     from .modes import ModeSolver
     from .prescriptions import DEFAULT_SIGN_CONVENTION, mode_system
@@ -78,16 +102,14 @@ def decompose(tab, x: np.ndarray, field_: str, prescription: str = "dressed_metr
 
     x = np.asarray(x, dtype=float)
     k = x * tab.k_lqc
+    extra = {} if switch_density is None else {"switch_density": switch_density}
     sol = ModeSolver(mode_system(tab, field_, prescription,
-                                 sign_convention or DEFAULT_SIGN_CONVENTION),
+                                 sign_convention or DEFAULT_SIGN_CONVENTION, **extra),
                      **(solver_options or {}))
-    ib = tab.bounce_index()
-    after = np.nonzero(tab.ln_a[ib:] - tab.ln_a[ib] >= match_efolds)[0]
-    if not len(after):
-        raise InputError("transfer: the background ends before the matching time")
-    im = ib + int(after[0])
-    init = make_state(state)
-    full = sol.solve(k, init)
+    im = matching_index(tab, match_efolds)
+    init = make_state(state, bogoliubov)
+    if full is None:
+        full = sol.solve(k, init)
     end_index = sol.end_index
     sol.end_index = lambda kk: (im, True)
     try:
@@ -97,9 +119,14 @@ def decompose(tab, x: np.ndarray, field_: str, prescription: str = "dressed_metr
     fm = int(sol.form_of_node[im])
     alpha = np.empty(len(k), complex)
     beta = np.empty(len(k), complex)
+    omega = np.empty(len(k))
     start = {}
     for j, kk in enumerate(k):
         w2 = sol.w2(fm, kk)
+        if not w2[im] > 0:
+            raise InputError(f"transfer: mode x = {x[j]:.4g} does not oscillate at the "
+                             "matching time (W^2 <= 0): no adiabatic basis there")
+        omega[j] = math.sqrt(w2[im])
         mu, dmu = sol.to_mu(fm, im, kk, mid.x_end[j], mid.p_end[j])
         fb, dfb = sol.adiabatic_basis(fm, im, kk, w2)
         alpha[j] = -1j * (mu * dfb.conjugate() - dmu * fb.conjugate())
@@ -109,8 +136,34 @@ def decompose(tab, x: np.ndarray, field_: str, prescription: str = "dressed_metr
     ratio = beta / alpha
     return Decomposition(x, np.log(np.abs(alpha)), np.abs(ratio),
                          np.angle(ratio) - 2 * np.angle(ref.x_end), np.log(full.power),
-                         np.log(ref.power), conformal_duration(tab, sol.eta),
-                         full.start_adiabaticity)
+                         np.log(ref.power),
+                         conformal_duration(tab, sol.eta) if duration is None else duration,
+                         full.start_adiabaticity, omega)
+
+
+def matching_index(tab, match_efolds: float = MATCH_EFOLDS) -> int:
+    """The background node ``match_efolds`` e-folds after the bounce (InputError if none)."""
+    ib = tab.bounce_index()
+    after = np.nonzero(tab.ln_a[ib:] - tab.ln_a[ib] >= match_efolds)[0]
+    if not len(after):
+        raise InputError("transfer: the background ends before the matching time")
+    return ib + int(after[0])
+
+
+def matching_frequency2(tab, x: np.ndarray, field_: str, prescription: str = "dressed_metric",
+                        sign_convention: str | None = None,
+                        switch_density: float | None = None,
+                        match_efolds: float = MATCH_EFOLDS) -> np.ndarray:
+    """W^2 of each mode x k_LQC at the matching time (where :func:`decompose` needs W^2 > 0)."""
+    from .prescriptions import DEFAULT_SIGN_CONVENTION, mode_system
+
+    extra = {} if switch_density is None else {"switch_density": switch_density}
+    system = mode_system(tab, field_, prescription, sign_convention or DEFAULT_SIGN_CONVENTION,
+                         **extra)
+    im = matching_index(tab, match_efolds)
+    form = system.forms[int(system.form_of_node[im])]
+    k = np.asarray(x, dtype=float) * tab.k_lqc
+    return k * k * form.omega_eff[im] - form.zz[im]
 
 
 def _theta(dec: Decomposition, tilt: np.ndarray) -> np.ndarray:

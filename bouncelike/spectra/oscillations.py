@@ -19,9 +19,10 @@ evaluated pointwise. :func:`averaged_power` applies this rule to any object;
 :class:`~bouncelike.spectra.tabulated.TabulatedSpectra` implements it two ways:
 
 * a table that carries its period means and local periods (``period_mean`` and
-  ``oscillation_period``, given by the bounce transfer model, which knows them exactly) uses the
-  period mean where the period is shorter than max(``resolution``, 4 table spacings);
-* any other table (a forward-model run, a user's file) is inspected: where ln P zigzags --
+  ``oscillation_period``, given by the bounce transfer model and the bounce forward model,
+  which know them exactly) uses the period mean where the period is shorter than
+  max(``resolution``, 4 table spacings);
+* any other table (a user's file) is inspected: where ln P zigzags --
   local extrema at two neighbouring rows, i.e. fewer than about 4 rows per period, with steps
   above ``ZIGZAG_FLOOR`` in ln P -- the table "shows unresolved oscillation"; those rows
   (the region grown by 2 rows each side, gaps of up to 4 rows closed) are replaced by the running

@@ -7,6 +7,14 @@ pivot k_* (0.05 or 0.002 Mpc^-1). :func:`summarize` returns these as a :class:`P
   :class:`~bouncelike.spectra.powerlaw.PowerLawSpectra`) are asked directly.
 * Anything else (tabulated or featured spectra) is fitted. The method, stated once here:
 
+  0. objects that oscillate faster than they are sampled implement the period-mean protocol
+     (:mod:`bouncelike.spectra.oscillations`: the bounce forward and transfer models carry
+     their period means, a plain table is smoothed where its rows zigzag): they are read
+     through it, i.e. the fit sees their period mean (:class:`~bouncelike.spectra.
+     oscillations.PeriodMeanView`), which is what the CMB sees of oscillations finer than its
+     resolution in k (~pi/chi_* = 2.3e-4 Mpc^-1, :mod:`bouncelike.sky.projection`);
+     ``period_mean`` says whether that changed the spectra in the fit window;
+
   1. sample x = ln(k/k_*) on ``points`` (default 201) equally spaced values in
      [-half_width, +half_width] (default half_width = 2, i.e. k_* e^-2 .. k_* e^2, a factor 55
      in k; clipped to the object's table range ``k_min``/``k_max`` when it has one);
@@ -32,7 +40,7 @@ pivot k_* (0.05 or 0.002 Mpc^-1). :func:`summarize` returns these as a :class:`P
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass
+from dataclasses import asdict, dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -58,7 +66,8 @@ class PivotSummary:
     ``fit_rms`` is the weighted rms residual of ln P around the cubic (0 for an exact
     re-expansion), ``fit_ok`` whether it is within ``tolerance``; ``window`` is the (k_min, k_max)
     fitted, in Mpc^-1, or None when no fit was needed. ``n_t`` is the tensor tilt at the pivot
-    (NaN without tensors); ``method`` is ``"exact"`` or ``"fit"``.
+    (NaN without tensors); ``method`` is ``"exact"`` or ``"fit"``; ``period_mean``: the fit
+    read the period mean of oscillations the spectra carry (step 0 of the module docstring).
     """
 
     pivot: float
@@ -75,6 +84,7 @@ class PivotSummary:
     method: str = "fit"
     rms_scalar: float = 0.0
     rms_ratio: float = 0.0
+    period_mean: bool = False
 
     def value(self, quantity: str) -> float:
         """One of ``ln_1e10_As``, ``n_s``, ``running``, ``running_of_running``, ``r``."""
@@ -96,15 +106,9 @@ def _weighted_cubic(x: np.ndarray, y: np.ndarray, w: np.ndarray) -> tuple[np.nda
     return coef, rms
 
 
-def fit_summary(
-    spectra: Any,
-    pivot: float,
-    *,
-    half_width: float = DEFAULT_HALF_WIDTH,
-    tolerance: float = DEFAULT_TOLERANCE,
-    points: int = DEFAULT_POINTS,
-) -> PivotSummary:
-    """The weighted polynomial fit described in the module docstring (never the exact path)."""
+def window_wavenumbers(spectra: Any, pivot: float, half_width: float = DEFAULT_HALF_WIDTH,
+                       points: int = DEFAULT_POINTS) -> np.ndarray:
+    """The wavenumbers (Mpc^-1) the fit samples: steps 1 of the module docstring."""
     if not (pivot > 0 and math.isfinite(pivot)):
         raise InputError(f"pivot must be a positive number of Mpc^-1, got {pivot!r}")
     if not half_width > 0:
@@ -126,8 +130,20 @@ def fit_summary(
                 f"fit window around the pivot {pivot:g} Mpc^-1 (need at least "
                 f"{half_width:g} in ln k)"
             )
-    x = np.linspace(x_lo, x_hi, points)
-    k = pivot * np.exp(x)
+    return pivot * np.exp(np.linspace(x_lo, x_hi, points))
+
+
+def fit_summary(
+    spectra: Any,
+    pivot: float,
+    *,
+    half_width: float = DEFAULT_HALF_WIDTH,
+    tolerance: float = DEFAULT_TOLERANCE,
+    points: int = DEFAULT_POINTS,
+) -> PivotSummary:
+    """The weighted polynomial fit described in the module docstring (never the exact path)."""
+    k = window_wavenumbers(spectra, pivot, half_width, points)
+    x = np.log(k / pivot)
     s = half_width / 2.0
     w = np.exp(-0.5 * (x / s) ** 2)
 
@@ -181,7 +197,17 @@ def summarize(
     tolerance: float = DEFAULT_TOLERANCE,
 ) -> PivotSummary:
     """Summary of ``spectra`` at ``pivot`` (Mpc^-1): exact if possible, else the documented fit."""
+    from .oscillations import PeriodMeanView, averaged_power, knows_oscillations
+
     exact = getattr(spectra, "summary_at", None)
     if callable(exact):
         return exact(pivot)
-    return fit_summary(spectra, pivot, half_width=half_width, tolerance=tolerance)
+    if not knows_oscillations(spectra):
+        return fit_summary(spectra, pivot, half_width=half_width, tolerance=tolerance)
+    s = fit_summary(PeriodMeanView(spectra), pivot, half_width=half_width,
+                    tolerance=tolerance)
+    k = window_wavenumbers(spectra, pivot, half_width)
+    mean_s, mean_t = averaged_power(spectra, k, None)
+    changed = not (np.array_equal(mean_s, spectra.scalar(k))
+                   and np.array_equal(mean_t, spectra.tensor(k)))
+    return replace(s, period_mean=changed)

@@ -22,6 +22,10 @@ import numpy as np
 from ..errors import InputError
 from ..units import wavenumber_in_mpc
 
+#: An oscillation is resolved by a table that holds at least this many rows per period
+#: (Nyquist needs 2; 4 keeps its shape).
+RESOLVED_ROWS = 4.0
+
 
 def _as_positive_array(name: str, values: Any, allow_zero: bool) -> np.ndarray:
     arr = np.array(wavenumber_in_mpc(values) if name == "k" else values, dtype=float)
@@ -232,8 +236,8 @@ class TabulatedSpectra:
         """(P_s, P_t) at k with oscillations shorter than ``resolution`` (in ln k) averaged.
 
         With ``period_mean``: the period mean where the local period is shorter than
-        max(resolution, 4 table spacings) (everywhere for ``resolution=None``), the table
-        elsewhere. Without: the zigzag rows replaced by their running mean (see
+        max(resolution, RESOLVED_ROWS table spacings) (everywhere for ``resolution=None``), the
+        table elsewhere. Without: the zigzag rows replaced by their running mean (see
         :mod:`.oscillations`).
         """
         ln_kq = np.atleast_1d(self._ln_k_query(k)).astype(float)
@@ -251,14 +255,28 @@ class TabulatedSpectra:
             if resolution is None:
                 return mean_s, mean_t
             return self._interp(ln_kq, self._ln_ps), self._log_interp(ln_kq, self.tensor_values)
-        ln_period = np.interp(ln_kq, self._ln_k, logs["period"])
-        ln_local = np.interp(ln_kq, logs["mid"], logs["spacing"])
-        average = ln_period < np.maximum(math.log(resolution), math.log(4.0) + ln_local)
+        average = self._average_mask(ln_kq, resolution)
         if average.all():
             return mean_s, mean_t
         point_s = self._interp(ln_kq, self._ln_ps)
         point_t = self._log_interp(ln_kq, self.tensor_values)
         return np.where(average, mean_s, point_s), np.where(average, mean_t, point_t)
+
+    def _average_mask(self, ln_kq: np.ndarray, resolution: float) -> np.ndarray:
+        """Where the local period is shorter than max(resolution, RESOLVED_ROWS spacings)."""
+        logs = self._mean_logs()
+        ln_period = np.interp(ln_kq, self._ln_k, logs["period"])
+        ln_local = np.interp(ln_kq, logs["mid"], logs["spacing"])
+        floor = math.log(resolution) if resolution > 0 else -math.inf
+        return ln_period < np.maximum(floor, math.log(RESOLVED_ROWS) + ln_local)
+
+    def period_mean_rows(self) -> np.ndarray:
+        """Per row: True where its oscillation period is shorter than RESOLVED_ROWS row
+        spacings (the table cannot show it; :meth:`averaged_power` with any resolution gives
+        the period mean there). All False without ``period_mean`` and periods."""
+        if self.period_mean is None or self.oscillation_period is None:
+            return np.zeros(len(self.k), bool)
+        return self._average_mask(self._ln_k, 0.0)
 
     def _mean_logs(self) -> dict:
         """ln of the period means, of the periods and of the row spacings (computed once)."""
