@@ -59,8 +59,21 @@ EXIT_NUMERICAL_FAILURE = 1
 EXIT_INTERRUPTED = 130
 
 
+class UsageError(Exception):
+    """A command line argparse refuses (unknown command or option, a value of the wrong type):
+    reported as one line like any other bad input."""
+
+
+class _Parser(argparse.ArgumentParser):
+    """An argument parser whose refusals are one line (``bouncelike: error: ...``, exit code
+    2) instead of argparse's usage block; ``--help`` and ``--version`` are unchanged."""
+
+    def error(self, message: str):  # argparse calls this on a refused command line
+        raise UsageError(f"{message} (see '{self.prog} --help')")
+
+
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="bouncelike",
         description="Confront quantum-gravity bounce models with CMB constraints on the "
         "primordial spectra.",
@@ -79,7 +92,10 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except UsageError as exc:
+        return _error(str(exc), EXIT_INPUT_ERROR)
     mod = getattr(args, "_command", None)
     if mod is None:
         parser.print_help()

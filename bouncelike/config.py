@@ -102,7 +102,8 @@ def read_toml(path: str | Path, what: str = "configuration file") -> dict[str, A
     """Parse a TOML file; a missing or malformed file is an :class:`InputError`."""
     p = Path(path)
     if not p.is_file():
-        raise InputError(f"{what} '{p}' does not exist (expected a TOML file)")
+        state = "is a folder" if p.is_dir() else "does not exist"
+        raise InputError(f"{what} '{p}' {state} (expected a TOML file)")
     try:
         with p.open("rb") as fh:
             return tomllib.load(fh)
@@ -151,7 +152,7 @@ class Table:
                 raise InputError(f"'{self.key(unknown[0])}' was renamed '{new}'")
             raise InputError(
                 f"unknown key '{self.key(unknown[0])}'; allowed keys in "
-                f"[{self.where or 'top level'}]: {_fmt_allowed(self.allowed)}"
+                f"[{self.where or 'top level'}]: {_fmt_allowed(self.allowed) or 'none'}"
             )
 
     def finish(self) -> None:

@@ -384,7 +384,9 @@ def potential_from_config(config: Table) -> Any:
     known = {**{k: None for k in POTENTIALS}, **REGISTERED}
     name = head.string("name") if "name" in head.allowed else None
     if name is None:
-        raise InputError("missing key 'potential.name'; allowed: " + ", ".join(sorted(known)))
+        given = ", ".join(f"'potential.{k}'" for k in head.data)  # e.g. a misspelt 'name'
+        raise InputError("missing key 'potential.name'" + (f" (given: {given})" if given else "")
+                         + "; allowed: " + ", ".join(sorted(known)))
     if name not in known:
         hint = ""
         if name == "custom" or "object" in head.data:

@@ -66,6 +66,9 @@ def cases_from_config(table: Any, critical_density: float) -> list[tuple[str, An
     for i, case in enumerate(raw_cases):
         where = f"compare.cases[{i}]"
         name = case.get("dynamics")
+        if name is None:
+            raise InputError(f"missing key '{where}.dynamics'; allowed: "
+                             + ", ".join(sorted(DYNAMICS_REGISTRY)))
         if name not in DYNAMICS_REGISTRY:
             raise InputError(f"'{where}.dynamics' = {name!r} is not known; allowed: "
                              + ", ".join(sorted(DYNAMICS_REGISTRY)))

@@ -53,6 +53,8 @@ def run(args: Any, session: Any) -> CommandResult:
         raise InputError("--points must be >= 2")
     if args.backgrounds < 1:
         raise InputError("--backgrounds must be >= 1")
+    if args.seed < 0:
+        raise InputError(f"--seed = {args.seed} is out of range; allowed: >= 0")
     if args.prescription == "deformed_algebra" and args.state != "remote_past":
         raise InputError("--state: the deformed algebra allows only remote_past")
     if not 0.01 <= args.x_min < 100:

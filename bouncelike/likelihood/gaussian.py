@@ -354,7 +354,9 @@ def likelihood_from_config(config: Table, base_dir: str | Path | None = None) ->
         if not path.is_absolute() and base_dir is not None:
             path = Path(base_dir) / path
         if not path.is_file():
-            raise InputError(f"'likelihood.files': set file '{f}' does not exist")
+            state = "is a folder" if path.is_dir() else "does not exist"
+            raise InputError(f"'likelihood.files': set file '{f}' {state} (expected a TOML "
+                             "set file)")
         names.append(path)
     allow = table.boolean("allow_overlap", False)
     tol = table.positive("fit_tolerance", DEFAULT_TOLERANCE)

@@ -98,10 +98,15 @@ def evaluate_at(model: ForwardModel, values: Mapping[str, Any],
     """``model.spectra(values)`` for one configured point: a numerical failure (or a point
     the model cannot evaluate) keeps its kind and becomes one line naming the values given
     (``where``: their section, or a section per key) and the physical reason."""
+    section = (lambda k: where) if isinstance(where, str) else where.get
     try:
         return model.spectra(values)
+    except InputError as exc:  # refused on evaluation: the keys as the configuration has them
+        message = str(exc)
+        for k in values:
+            message = message.replace(f"'{k}'", f"'{section(k)}.{k}'")
+        raise InputError(message) from None
     except NumericalFailure as exc:
-        section = (lambda k: where) if isinstance(where, str) else where.get
         given = ", ".join(f"{section(k)}.{k} = {v:g}" if isinstance(v, float)
                           else f"{section(k)}.{k} = {v}" for k, v in values.items())
         raise type(exc)(f"model '{model.name}' cannot be evaluated at {given}: {exc}") from None

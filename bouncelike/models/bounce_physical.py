@@ -119,6 +119,11 @@ class _PhysicalBounce(ForwardModel):
         reheating history, with the same keys as a prior file."""
         own = self.parameters[:4]
         table = config.table("bounce_physical", [q.name for q in own], required=True)
+        given = [q.name for q in own[:2] if q.name in table]
+        if len(given) != 1:  # named as the configuration spells it (check_prior: prior files)
+            raise InputError("[bounce_physical] needs exactly one of "
+                             "'bounce_physical.log10_potential_fraction' or "
+                             f"'bounce_physical.N_inflation'; got {', '.join(given) or 'neither'}")
         values = read_parameters(table, own[2:])
         values.update(read_parameters(table, own[:2], present_only=True))
         reheating = config.table("reheating", [q.name for q in REHEATING], required=True)

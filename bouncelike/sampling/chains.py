@@ -126,13 +126,21 @@ def load_samples(folder: str | Path, manifest: dict[str, Any], required: tuple[s
     folder = Path(folder)
     path = folder / SAMPLES
     if path.is_file():
-        return load_table(path, required)
-    chain = folder / CHAIN
-    if not chain.is_file():
-        raise InputError(f"run folder '{folder}' has no chain yet ({CHAIN} missing)")
-    frame, notes = load_table(chain, ("step", *required))
-    burn = int((manifest.get("run") or {}).get("burn_in", 0) or 0)
-    return frame[frame["step"] > burn], notes
+        frame, notes = load_table(path, required)
+    else:
+        path = folder / CHAIN
+        if not path.is_file():
+            raise InputError(f"run folder '{folder}' has no chain yet ({CHAIN} missing)")
+        frame, notes = load_table(path, ("step", *required))
+        burn = int((manifest.get("run") or {}).get("burn_in", 0) or 0)
+        frame = frame[frame["step"] > burn]
+    # walkers only stand on finite points; the log columns may hold -inf (not evaluable)
+    bad = [c for c in required if c not in ("log_likelihood", "log_posterior")
+           and not np.all(np.isfinite(frame[c].to_numpy(dtype=float)))]
+    if bad:
+        raise InputError(f"'{path}': column(s) {', '.join(bad)} hold empty, NaN or infinite "
+                         f"values (damaged); {_advice(path)}")
+    return frame, notes
 
 
 def _advice(path: Path) -> str:

@@ -166,6 +166,12 @@ def _run_locked(posterior: Posterior, settings: SamplerSettings, folder: Path, p
         tally.add_frame(load_failures(folder))
         recorder = RecordingPool(pool, int(backend.meta["evaluations"]))
     else:
+        left = [n for n in (chains.STATE, chains.CHAIN, chains.SAMPLES, chains.MANIFEST)
+                if (folder / n).exists()]
+        if left:  # a run whose checkpoint was lost: never overwrite its chain
+            raise InputError(f"run folder '{folder}' holds {', '.join(left)} but no readable "
+                             f"checkpoint '{chains.STATE}' (deleted or damaged), so it can be "
+                             f"neither resumed nor overwritten; move it away, or {elsewhere}")
         recorder = RecordingPool(pool)
         backend = _fresh_start(posterior, settings, folder, recorder, pool, fingerprint, tally)
     target = pool_target(pool, posterior)

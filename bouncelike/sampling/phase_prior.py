@@ -51,6 +51,12 @@ def efolds_kde(t: Table, lower: float, upper: float) -> dict[str, Any]:
             "kde_norm": mass}
 
 
+#: keys of the configuration tables _efolds builds -> the phase-table key the user wrote
+_PHASE_KEYS = {"potential.name": "potential", "potential.mass": "mass",
+               "background.dynamics": "dynamics",
+               "background.critical_density": "critical_density"}
+
+
 def _efolds(t: Table) -> np.ndarray:
     """E-folds of inflation over a flat phase prior, by the background package."""
     # the background engine compiles on first use: imported only when this prior is used
@@ -63,7 +69,13 @@ def _efolds(t: Table) -> np.ndarray:
     config = Table({"potential": {"name": t.string("potential", "quadratic"),
                                   "mass": t.positive("mass", 1.21e-6)},
                     "background": background}, "", ("potential", "background"))
-    setup = background_from_config(config)
+    try:
+        setup = background_from_config(config)
+    except InputError as exc:  # the keys of the tables above are the phase table's keys
+        message = str(exc)
+        for built, key in _PHASE_KEYS.items():
+            message = message.replace(f"'{built}'", f"'{t.key(key)}'")
+        raise InputError(message) from None
     ceiling = start_density_ceiling(setup.dynamics)
     phase = PhasePrior(
         START_DENSITY.read(t, upper=ceiling, reason="the contracting branch starts below the "

@@ -38,7 +38,8 @@ def read_spectra_csv(path: str | Path) -> TabulatedSpectra:
     p = Path(path)
     where = f"spectra table '{p}'"
     if not p.is_file():
-        raise InputError(f"{where} does not exist (expected a CSV file with columns "
+        state = "is a folder" if p.is_dir() else "does not exist"
+        raise InputError(f"{where} {state} (expected a CSV file with columns "
                          f"{', '.join(COLUMNS)})")
     try:
         text = p.read_text(encoding="utf-8")
