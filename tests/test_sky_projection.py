@@ -39,6 +39,15 @@ def test_shipped_matrices_equal_a_fresh_build():
         a, b = getattr(shipped, name), getattr(fresh, name)
         # stored in single precision
         assert np.max(np.abs(a - b)) <= 1e-6 * np.max(np.abs(b)), name
+    # the late universe read from the file is the one astropy's Planck18 gives here
+    # (chi_* = 13.9 Gpc, Planck 2018 VI, arXiv:1807.06209, from memory)
+    assert shipped.universe.keys() == fresh.universe.keys()
+    for key, value in fresh.universe.items():
+        if isinstance(value, float):
+            assert shipped.universe[key] == pytest.approx(value, rel=1e-9), key
+        else:
+            assert shipped.universe[key] == value, key
+    assert 13.8e3 < shipped.universe["chi_star_mpc"] < 14.0e3
 
 
 def test_sachs_wolfe_plateau():

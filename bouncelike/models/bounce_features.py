@@ -55,11 +55,11 @@ SKY_FRACTION = 0.1
 
 
 def sky_resolution_k() -> float:
-    """pi / chi_* in Mpc^-1 (chi_* of :func:`bouncelike.sky.cosmology.planck18_late_universe`,
-    ~13.9 Gpc): the finest structure of the projection kernels."""
-    from ..sky.cosmology import planck18_late_universe
+    """pi / chi_* in Mpc^-1 (chi_* ~13.9 Gpc of the shipped projection,
+    :func:`bouncelike.sky.projection.load_projection`): the finest structure of its kernels."""
+    from ..sky.projection import load_projection
 
-    return math.pi / planck18_late_universe().chi_star
+    return math.pi / load_projection().universe["chi_star_mpc"]
 
 
 @dataclass(frozen=True, eq=False)

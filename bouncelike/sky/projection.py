@@ -41,6 +41,7 @@ build).
 
 from __future__ import annotations
 
+import ast
 import functools
 import math
 from dataclasses import dataclass
@@ -207,16 +208,18 @@ def _provenance(universe: LateUniverse) -> dict:
 
 @functools.lru_cache(maxsize=1)
 def load_projection() -> SkyProjection:
-    """The shipped projection (``data/low_ell_projection.npz``), built when absent."""
+    """The shipped projection (``data/low_ell_projection.npz``), built when absent. The late
+    universe it was built with is read from the file (no astropy import at scoring time);
+    tests/test_sky_projection.py checks it against astropy's Planck18 of this installation."""
     if SHIPPED.is_file():
-        d = np.load(SHIPPED)
-        universe = planck18_late_universe()
+        d = np.load(SHIPPED, allow_pickle=False)
+        universe = dict(ast.literal_eval(str(d["universe"])))  # a literal, never code
         f64 = np.float64
         return SkyProjection(ells=d["ells"], k=d["k"], scalar=d["scalar"].astype(f64),
                              scalar_sachs_wolfe=d["scalar_sachs_wolfe"].astype(f64),
                              tensor=d["tensor"].astype(f64),
                              nodes_per_decade=int(d["nodes_per_decade"]),
-                             universe=_provenance(universe))
+                             universe=universe)
     return build_projection()
 
 
