@@ -147,7 +147,7 @@ class CompileWatch:
         if self._depth == 0:
             self.seconds += time.perf_counter() - self._started
 
-    def __enter__(self) -> CompileWatch:
+    def _listen(self) -> None:
         from numba.core import event
 
         watch = self
@@ -161,11 +161,32 @@ class CompileWatch:
 
         self._listener = _Listener()
         event.register("numba:compile", self._listener)
+
+    def __enter__(self) -> CompileWatch:
+        # a command that never compiles never imports numba (0.2 s): the watch waits for
+        # the package's compiled modules to import it (numba_imported)
+        if "numba" in sys.modules:
+            self._listen()
+        else:
+            _WAITING.append(self)
         return self
 
     def __exit__(self, *exc: object) -> None:
-        from numba.core import event
-
+        if self in _WAITING:
+            _WAITING.remove(self)
         if self._listener is not None:
+            from numba.core import event
+
             event.unregister("numba:compile", self._listener)
             self._listener = None
+
+
+#: watches entered before numba was imported
+_WAITING: list[CompileWatch] = []
+
+
+def numba_imported() -> None:
+    """Called by the package's compiled modules right after importing numba: the watches
+    entered before start listening to compile events."""
+    while _WAITING:
+        _WAITING.pop()._listen()

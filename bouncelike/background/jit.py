@@ -25,6 +25,10 @@ from typing import Any
 from numba import njit
 from numba.core.dispatcher import Dispatcher
 
+from ..kernel_cache import numba_imported
+
+numba_imported()  # a command's compile watch starts listening (kernel_cache.py)
+
 
 def jit(func: Callable) -> Any:
     """Compile ``func`` with numba (cached on disk, numpy floating-point error model)."""

@@ -3,8 +3,10 @@
 A configuration selects a model with ``[model] spectra = "<name>"`` (``bouncelike score``,
 ``bouncelike spectrum``) and gives its parameter values in the model's section; a prior file
 selects it with ``[prior] model = "<name>"`` (``bouncelike sample``). Both look the name up
-in :data:`MODELS`. The classes are imported here directly: a configuration names a model, it
-never chooses code to import.
+in :data:`MODELS`. The classes are imported here by plain import statements: a configuration
+names a model, it never chooses code to import. The bounce families (numba kernels, the
+perturbation stack) are imported when a name outside the light models is first asked for, so
+scoring a power law or slow roll does not load them.
 
 ========================================  ====================================================
 ``power_law``                             power-law spectra (``[power_law]``)
@@ -29,6 +31,7 @@ never chooses code to import.
 
 from __future__ import annotations
 
+from collections.abc import Iterator, MutableMapping
 from pathlib import Path
 from typing import Any
 
@@ -36,9 +39,6 @@ from ..config import Table
 from ..errors import InputError
 from ..spectra.table_file import table_spectra_from_config
 from .base import ForwardModel
-from .bounce import BounceModel
-from .bounce_physical import PHYSICAL_BOUNCE_MODELS
-from .bounce_transfer import BOUNCE_TRANSFER_MODELS
 from .powerlaw import PowerLawModel
 from .slowroll import QuadraticSlowRoll, StarobinskySlowRoll
 
@@ -56,10 +56,54 @@ class TableModel(ForwardModel):
         return table_spectra_from_config(config, base_dir=base_dir)
 
 
+def _bounce_families() -> tuple[type[ForwardModel], ...]:
+    """The bounce models (heavy: numba kernels and the perturbation stack)."""
+    from .bounce import BounceModel
+    from .bounce_physical import PHYSICAL_BOUNCE_MODELS
+    from .bounce_transfer import BOUNCE_TRANSFER_MODELS
+
+    return (BounceModel, *BOUNCE_TRANSFER_MODELS, *PHYSICAL_BOUNCE_MODELS)
+
+
+class ModelRegistry(MutableMapping):
+    """Every forward model by its name; the bounce families load on first need."""
+
+    def __init__(self) -> None:
+        self._models: dict[str, type[ForwardModel]] = {cls.name: cls for cls in (
+            PowerLawModel, QuadraticSlowRoll, StarobinskySlowRoll, TableModel)}
+        self._complete = False
+
+    def _all(self) -> dict[str, type[ForwardModel]]:
+        if not self._complete:
+            light = list(self._models.items())
+            self._models = {cls.name: cls for cls in _bounce_families()}
+            self._models.update(light)
+            self._complete = True
+        return self._models
+
+    def __getitem__(self, name: str) -> type[ForwardModel]:
+        if name in self._models:
+            return self._models[name]
+        return self._all()[name]
+
+    def __contains__(self, name: object) -> bool:
+        return name in self._models or name in self._all()
+
+    def __setitem__(self, name: str, cls: type[ForwardModel]) -> None:
+        self._all()[name] = cls
+
+    def __delitem__(self, name: str) -> None:
+        del self._all()[name]
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._all())
+
+    def __len__(self) -> int:
+        return len(self._all())
+
+
 #: every forward model by its name
-MODELS: dict[str, type[ForwardModel]] = {cls.name: cls for cls in (
-    PowerLawModel, QuadraticSlowRoll, StarobinskySlowRoll, BounceModel, *BOUNCE_TRANSFER_MODELS,
-    *PHYSICAL_BOUNCE_MODELS, TableModel)}
+MODELS = ModelRegistry()
 
 
 
@@ -77,8 +121,9 @@ def forward_model(name: str, where: str = "model", sampled: bool = False) -> For
     messages; ``sampled``: the model must be one a prior file may name)."""
     if name in _OLD_NAMES:
         raise InputError(f"'{where}' = '{name}' was renamed {_OLD_NAMES[name]}")
-    allowed = samplable_models() if sampled else tuple(MODELS)
-    if name not in allowed:
+    known = name in MODELS and (not sampled or getattr(MODELS[name], "samplable", True))
+    if not known:
+        allowed = samplable_models() if sampled else tuple(MODELS)
         extra = ("; 'bounce' integrates the modes exactly and is too slow to sample: use "
                  "bounce_physical_dressed_metric" if name == "bounce" else "")
         raise InputError(f"'{where}' = '{name}' is not known; allowed: "

@@ -40,7 +40,10 @@ from scipy.integrate import cumulative_simpson
 from scipy.interpolate import CubicSpline
 
 from ..errors import NumericalFailure
+from ..kernel_cache import numba_imported
 from .prescriptions import ModeSystem
+
+numba_imported()  # a command's compile watch starts listening (kernel_cache.py)
 
 _W1 = 1.0 / (2.0 - 2.0 ** (1.0 / 3.0))
 _W0 = -(2.0 ** (1.0 / 3.0)) * _W1
