@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from typing import Any
 
+from config_texts import FIXED_HIGHER_ORDER
+
 from bouncelike.errors import NotEvaluable
 from bouncelike.models.powerlaw import PowerLawModel
 
@@ -40,13 +42,4 @@ min = 0.90
 max = 1.05
 walkers_centre = 0.962
 walkers_spread = 0.002
-[parameters.r]
-role = "fixed"
-value = 0.0
-[parameters.running]
-role = "fixed"
-value = 0.0
-[parameters.running_of_running]
-role = "fixed"
-value = 0.0
-"""
+""" + FIXED_HIGHER_ORDER

@@ -10,21 +10,11 @@ import os
 
 import pytest
 from cli_helpers import one_line_error
+from config_texts import POWER_LAW_SCORE
 
 from bouncelike.cli import main
 
-POWER_LAW = """
-[model]
-spectra = "power_law"
-
-[power_law]
-ln_1e10_As = 3.044
-n_s = 0.9649
-r = 0.01
-
-[likelihood]
-sets = ["planck2018_base", "bk18"]
-"""
+POWER_LAW = POWER_LAW_SCORE
 
 SLOW_ROLL = """
 [model]

@@ -1,6 +1,7 @@
 """The shipped constraint sets hold the published numbers; set files are validated."""
 
 import pytest
+from config_texts import USER_SET_CITATION
 from scipy.stats import halfnorm, norm
 
 from bouncelike.errors import InputError
@@ -120,16 +121,7 @@ def test_half_gaussian_width_against_scipy():
 
 GOOD = """
 name = "mine"
-title = "my set"
-citation = "me"
-arxiv = "0000.00000"
-table = "Table 1"
-data_combination = "made up for a test"
-pivot = 0.05
-forecast = false
-overlap = ["test"]
-upper_limit_treatment = "half-Gaussian, sigma = limit / 1.959964"
-
+""" + USER_SET_CITATION + """
 [[term]]
 quantity = "n_s"
 kind = "gaussian"

@@ -61,6 +61,7 @@ from dataclasses import dataclass, replace
 
 import pytest
 from cli_helpers import listing, one_line_error
+from config_texts import FIXED_HIGHER_ORDER, SMALL_REPORT, USER_SET_CITATION
 
 from bouncelike.cli import main
 from bouncelike.config import Parameter, tomllib
@@ -724,16 +725,7 @@ def test_points_refused_on_evaluation(case, tmp_path, monkeypatch, capsys):
 
 USER_SET = """
 name = "mine"
-title = "my set"
-citation = "me"
-arxiv = "0000.00000"
-table = "Table 1"
-data_combination = "made up for a test"
-pivot = 0.05
-forecast = false
-overlap = ["test"]
-upper_limit_treatment = "half-Gaussian, sigma = limit / 1.959964"
-
+""" + USER_SET_CITATION + """
 [[term]]
 quantity = "n_s"
 kind = "gaussian"
@@ -1067,16 +1059,7 @@ mean = 0.965
 sigma = 0.01
 min = 0.9
 max = 1.05
-[parameters.r]
-role = "fixed"
-value = 0.0
-[parameters.running]
-role = "fixed"
-value = 0.0
-[parameters.running_of_running]
-role = "fixed"
-value = 0.0
-[parameters.A_s]
+""" + FIXED_HIGHER_ORDER + """[parameters.A_s]
 role = "derived"
 """
 
@@ -1239,13 +1222,7 @@ checkpoint_every = 30
 seed = 3
 progress = false
 prior_survey_draws = 20
-[report]
-grid = 4
-prior_draws = 20
-rescore_samples = 5
-band_samples = 10
-evidence_draws = 100
-"""
+""" + SMALL_REPORT
 
 
 @pytest.fixture(scope="module")

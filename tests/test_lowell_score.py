@@ -7,6 +7,7 @@ from types import SimpleNamespace
 
 import numpy as np
 import pytest
+from config_texts import POWER_LAW_SCORE
 
 from bouncelike.cli import main
 from bouncelike.config import Table
@@ -18,18 +19,7 @@ from bouncelike.spectra import PowerLawSpectra
 
 ROOT = Path(__file__).resolve().parents[1]
 
-POWER_LAW = """
-[model]
-spectra = "power_law"
-
-[power_law]
-ln_1e10_As = 3.044
-n_s = 0.9649
-r = 0.01
-
-[likelihood]
-sets = ["planck2018_base", "bk18", "planck2018_lowell_tt"]
-"""
+POWER_LAW = POWER_LAW_SCORE.replace('"bk18"]', '"bk18", "planck2018_lowell_tt"]')
 
 TABLE = """
 [model]

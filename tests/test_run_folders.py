@@ -14,6 +14,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from config_texts import SMALL_REPORT
 from sampling_targets import SETTINGS, gaussian_posterior
 
 from bouncelike.cli import main
@@ -39,13 +40,7 @@ seed = 3
 progress = false
 prior_survey_draws = 20
 
-[report]
-grid = 4
-prior_draws = 20
-rescore_samples = 5
-band_samples = 10
-evidence_draws = 100
-"""
+""" + SMALL_REPORT
 
 
 def _one_line_error(capsys, needle: str) -> str:

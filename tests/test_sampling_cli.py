@@ -6,6 +6,7 @@ import os
 from pathlib import Path
 
 import pytest
+from config_texts import FIXED_HIGHER_ORDER
 
 from bouncelike.cli import main
 
@@ -22,16 +23,7 @@ role = "sampled"
 distribution = "uniform"
 min = 0.9
 max = 1.05
-[parameters.r]
-role = "fixed"
-value = 0.0
-[parameters.running]
-role = "fixed"
-value = 0.0
-[parameters.running_of_running]
-role = "fixed"
-value = 0.0
-"""
+""" + FIXED_HIGHER_ORDER
 
 GOOD_SAMPLING = """
 [likelihood]

@@ -11,6 +11,7 @@ import numpy as np
 import pandas as pd
 import pytest
 from cli_helpers import check_provenance
+from config_texts import FIXED_HIGHER_ORDER
 
 from bouncelike.cli import main
 from bouncelike.models.registry import forward_model
@@ -41,16 +42,7 @@ min = 0.9
 max = 1.05
 walkers_centre = 0.965
 walkers_spread = 0.005
-[parameters.r]
-role = "fixed"
-value = 0.0
-[parameters.running]
-role = "fixed"
-value = 0.0
-[parameters.running_of_running]
-role = "fixed"
-value = 0.0
-"""
+""" + FIXED_HIGHER_ORDER
 
 
 def _write_run(tmp: Path, name: str, prior: str, sets: list[str], walkers: int, steps: int,

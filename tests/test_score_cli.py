@@ -7,23 +7,13 @@ import sys
 from pathlib import Path
 
 import pytest
+from config_texts import POWER_LAW_SCORE
 
 from bouncelike.cli import main
 
 ROOT = Path(__file__).resolve().parents[1]
 
-POWER_LAW = """
-[model]
-spectra = "power_law"
-
-[power_law]
-ln_1e10_As = 3.044
-n_s = 0.9649
-r = 0.01
-
-[likelihood]
-sets = ["planck2018_base", "bk18"]
-"""
+POWER_LAW = POWER_LAW_SCORE
 
 SET_FILE_MISSING_SIGMA = """
 name = "broken"
